@@ -1,0 +1,28 @@
+# The two commands of the README: `make demo` and `make test`. Both build .venv from pyproject.toml.
+PYTHON ?= python3
+VENV := .venv
+PY := $(VENV)/bin/python
+STAMP := $(VENV)/.installed
+
+.PHONY: demo test bench lint clean
+
+$(STAMP): pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install -q --upgrade pip
+	$(PY) -m pip install -q -e '.[test]'
+	touch $(STAMP)
+
+demo: $(STAMP)
+	$(VENV)/bin/phasewise demo
+
+test: $(STAMP)
+	$(PY) -m pytest -q
+
+bench: $(STAMP)
+	for b in benchmarks/bench_*.py; do echo "== $$b"; $(PY) $$b || exit 1; done
+
+lint: $(STAMP)
+	$(PY) -m ruff check planner tests benchmarks
+
+clean:
+	rm -rf $(VENV) build *.egg-info

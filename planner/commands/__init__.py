@@ -1,0 +1,5 @@
+"""One module per command; each exposes ``register(app)``. Add new commands to COMMAND_MODULES."""
+
+from planner.commands import ephem
+
+COMMAND_MODULES = [ephem]
