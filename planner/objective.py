@@ -61,7 +61,7 @@ def arc_mask_slow(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray, n_b
     t1s = [float(x) for x in np.ravel(t1_h)]
     ps = [float(x) for x in np.ravel(periods_h)]
     out = np.zeros((len(t0s), len(ps), n_bins), dtype=bool)
-    for i, (a, b) in enumerate(zip(t0s, t1s)):
+    for i, (a, b) in enumerate(zip(t0s, t1s, strict=True)):
         for j, period in enumerate(ps):
             k = math.floor(a / period * n_bins)
             k_end = math.floor((a / period + (b - a) / period) * n_bins)
@@ -105,7 +105,7 @@ def coverage_gains_slow(element_masks: np.ndarray, covered: np.ndarray) -> np.nd
     """Slow twin of :func:`coverage_gains` on unpacked masks: count cell by cell."""
     out = []
     for m in element_masks:
-        out.append(sum(1 for a, c in zip(m.ravel().tolist(), covered.ravel().tolist()) if a and not c))
+        out.append(sum(1 for a, c in zip(m.ravel().tolist(), covered.ravel().tolist(), strict=True) if a and not c))
     return np.array(out, dtype=np.int64)
 
 
@@ -133,7 +133,7 @@ def window_sum_slow(t0_h: np.ndarray, n_slots: np.ndarray, slot_h: float, freq_p
     ns = np.ravel(n_slots)
     nus = np.ravel(freq_per_day)
     out = np.zeros((t0s.size, nus.size), dtype=complex)
-    for i, (a, n) in enumerate(zip(t0s, ns)):
+    for i, (a, n) in enumerate(zip(t0s, ns, strict=True)):
         for k in range(int(n)):
             t_day = (a + (k + 0.5) * slot_h) / 24.0
             out[i] += np.exp(2j * np.pi * nus * t_day)

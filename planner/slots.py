@@ -144,7 +144,7 @@ def build_slots(windows: pd.DataFrame, sites: tuple[Site, ...] | list[Site], blo
         if alloc.blocks_utc:
             starts = to_slot(np.array([a for a, _ in alloc.blocks_utc]), t_ref, slot_s, up=True)
             stops = to_slot(np.array([b for _, b in alloc.blocks_utc]), t_ref, slot_s, up=False)
-            alloc_iv = [(int(a), int(b)) for a, b in zip(starts, stops) if b > a]
+            alloc_iv = [(int(a), int(b)) for a, b in zip(starts, stops, strict=True) if b > a]
         busy = [(int(to_slot(np.datetime64(a, "ns"), t_ref, slot_s, up=False)),
                  int(to_slot(np.datetime64(b, "ns"), t_ref, slot_s, up=True))) for a, b in busy_utc.get(site.name, [])]
         for night in sorted(set(ws["_night"])):
@@ -153,7 +153,7 @@ def build_slots(windows: pd.DataFrame, sites: tuple[Site, ...] | list[Site], blo
             rows = ws[ws["_night"] == night]
             a = to_slot(rows["start_utc"].to_numpy("datetime64[ns]"), t_ref, slot_s, up=True)
             b = to_slot(rows["end_utc"].to_numpy("datetime64[ns]"), t_ref, slot_s, up=False)
-            iv = sorted((int(x), int(y)) for x, y in zip(a, b) if y > x)
+            iv = sorted((int(x), int(y)) for x, y in zip(a, b, strict=True) if y > x)
             if alloc_iv is not None:
                 iv = _intersect(iv, alloc_iv)
             if cut is not None:
