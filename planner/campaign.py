@@ -20,13 +20,14 @@ from planner.timegrid import parse_utc
 from planner.tomlfile import Fields, read_toml
 
 _TOP_KEYS = {"name", "target", "sites", "first_night", "nights", "seed", "rotation", "blocks", "cadence",
-             "weights", "weather", "photometry", "site"}
+             "weights", "weather", "photometry", "diagnostics", "site"}
 _ROTATION_KEYS = {"min_period_h", "max_period_h", "double_peaked", "amplitude_mag", "phase_bins", "oversample"}
 _BLOCK_KEYS = {"slot_min", "min_block_h", "max_block_h", "setup_min", "max_per_night"}
 _CADENCE_KEYS = {"max_gap_h"}
 _WEIGHT_KEYS = {"coverage", "robustness", "alias", "cadence"}
 _WEATHER_KEYS = {"trials"}
 _PHOTOMETRY_KEYS = {"snr_target"}
+_DIAGNOSTICS_KEYS = {"trials"}
 _OVERRIDE_KEYS = {"hours_per_night", "blocks", "clear_fraction", "total_hours"}
 
 
@@ -88,6 +89,8 @@ class Campaign:
     weights: Weights = field(default_factory=Weights)
     weather_trials: int = 200
     snr_target: float = 30.0
+    #: Injection–recovery trials per diagnostics run (phasewise check); 0 skips them.
+    check_trials: int = 100
     #: Whole-campaign hour budget per site name (absent: no budget beyond the nightly allocation).
     total_hours: dict[str, float] = field(default_factory=dict)
 
@@ -210,6 +213,8 @@ def load_campaign(path: str | Path) -> Campaign:
     wx_f.check_known(_WEATHER_KEYS)
     ph_f = f.sub("photometry") or Fields(path, {}, "photometry")
     ph_f.check_known(_PHOTOMETRY_KEYS)
+    dg_f = f.sub("diagnostics") or Fields(path, {}, "diagnostics")
+    dg_f.check_known(_DIAGNOSTICS_KEYS)
 
     total_hours: dict[str, float] = {}
     ov_f = f.sub("site")
@@ -232,6 +237,7 @@ def load_campaign(path: str | Path) -> Campaign:
         weights=weights,
         weather_trials=wx_f.int("trials", 200, lo=10, hi=100_000),
         snr_target=ph_f.float("snr_target", 30.0, lo=1.0, hi=10_000.0),
+        check_trials=dg_f.int("trials", 100, lo=0, hi=100_000),
         total_hours=total_hours,
     )
 
