@@ -27,7 +27,7 @@ def synthetic_windows(n_sites: int, n_nights: int, window_h: float = 8.0, stagge
                           clear_fraction=float(0.6 + 0.1 * (s % 4))))
         for n in range(n_nights):
             jitter_min = int(rng.integers(0, 60))
-            start = T_REF + np.timedelta64(24 * (n + 1) + int(s * stagger_h * 60) + jitter_min, "m")
+            start = T_REF + np.timedelta64(24 * 60 * (n + 1) + int(s * stagger_h * 60) + jitter_min, "m")
             end = start + np.timedelta64(int(window_h * 60), "m")
             best = start + (end - start) // 2
             rows.append(dict(site=f"S{s}", night=(date(2034, 3, 16) + timedelta(days=n)).isoformat(),

@@ -86,7 +86,7 @@ def test_exact_equals_brute_force_on_a_partition_matroid():
 @pytest.mark.parametrize("seed", range(4))
 def test_greedy_against_exact_on_small_instances(seed, record_property):
     # Sized so coverage does not saturate (the greedy must choose) and HiGHS proves optimality in < 1 s.
-    model, _, _ = model_for(n_sites=2, n_nights=2, window_h=6.0, hours=2.0, blocks=SMALL, n_periods=12,
+    model, _, _ = model_for(n_sites=2, n_nights=2, window_h=4.0, hours=2.0, blocks=SMALL, n_periods=12,
                             n_bins=16, seed=seed)
     lazy, _ = _run(model)
     ex = exact_coverage(model, time_limit_s=60)
