@@ -29,7 +29,8 @@ def check_constraints(model, windows: pd.DataFrame, sites, visits, blocks: Block
         part = g.parts[v.part]
         a, b = _utc(model, v.start), _utc(model, v.stop)
         rows = windows[(windows["site"] == part.site) & (windows["night"] == part.night.isoformat())]
-        inside = ((rows["start_utc"].to_numpy("datetime64[ns]") <= a) & (b <= rows["end_utc"].to_numpy("datetime64[ns]")))
+        w0, w1 = rows["start_utc"].to_numpy("datetime64[ns]"), rows["end_utc"].to_numpy("datetime64[ns]")
+        inside = (w0 <= a) & (b <= w1)
         assert inside.any(), f"{v} outside every window of {part.site} {part.night}"
         hours = (b - a) / np.timedelta64(1, "h")
         assert blocks.min_block_h - 1e-9 <= hours <= blocks.max_block_h + 1e-9
@@ -39,7 +40,7 @@ def check_constraints(model, windows: pd.DataFrame, sites, visits, blocks: Block
     for (site, _), iv in per_night.items():
         iv.sort()
         assert len(iv) <= blocks.max_per_night
-        for (a0, b0), (a1, _) in zip(iv[:-1], iv[1:], strict=True):
+        for (_, b0), (a1, _) in zip(iv[:-1], iv[1:], strict=True):
             assert b0 < a1, "visits of one site-night overlap or touch"
         total_h = sum((b - a) / np.timedelta64(1, "h") for a, b in iv)
         alloc = by_name[site].allocation.hours_per_night
