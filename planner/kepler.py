@@ -250,3 +250,51 @@ def propagate_reference(orbit: Orbit, tdb_jd: np.ndarray,
         pos[k] = rot @ np.array([r * math.cos(nu), r * math.sin(nu), 0.0])
         vel[k] = rot @ (math.sqrt(gm / p) * np.array([-math.sin(nu), e + math.cos(nu), 0.0]))
     return pos, vel
+
+
+def orbit_from_state(pos_au: np.ndarray, vel_au_d: np.ndarray, tdb_jd: float,
+                     gm: float = GM_SUN_AU3_D2) -> Orbit:
+    """Osculating elements (ecliptic J2000 angles) from one equatorial-J2000 state, any conic.
+
+    Classical vector formulas (Danby 1988, §6.12): h = r × v, e = v × h / GM − r̂, q = h² / (GM(1 + e)),
+    the time from perihelion from the eccentric/hyperbolic/parabolic anomaly. For e = 0 the perihelion
+    is taken at the ascending node; for i = 0 the node is taken at the equinox direction.
+    """
+    from planner.targets import Orbit
+
+    eps = math.radians(OBLIQUITY_J2000_DEG)
+    c, s = math.cos(eps), math.sin(eps)
+    to_ecl = np.array([[1.0, 0.0, 0.0], [0.0, c, s], [0.0, -s, c]])
+    r = to_ecl @ np.asarray(pos_au, dtype=float)
+    v = to_ecl @ np.asarray(vel_au_d, dtype=float)
+    rn = float(np.linalg.norm(r))
+    h = np.cross(r, v)
+    hn = float(np.linalg.norm(h))
+    evec = np.cross(v, h) / gm - r / rn
+    e = float(np.linalg.norm(evec))
+    q = hn * hn / (gm * (1.0 + e))
+    incl = math.degrees(math.acos(max(-1.0, min(1.0, h[2] / hn))))
+    node_vec = np.array([-h[1], h[0], 0.0])
+    nn = float(np.linalg.norm(node_vec))
+    node = math.degrees(math.atan2(node_vec[1], node_vec[0])) % 360.0 if nn > 1e-15 * hn else 0.0
+    n_hat = node_vec / nn if nn > 1e-15 * hn else np.array([1.0, 0.0, 0.0])
+    m_hat = np.cross(h / hn, n_hat)  # in the orbit plane, 90° ahead of the node
+    if e > 1e-12:
+        peri = math.degrees(math.atan2(evec @ m_hat, evec @ n_hat)) % 360.0
+        p_hat = evec / e
+    else:
+        peri, p_hat = 0.0, n_hat
+    nu = math.atan2(np.cross(p_hat, r) @ (h / hn), p_hat @ r)
+    if e < 1.0:
+        a = q / (1.0 - e)
+        ecc_anom = 2.0 * math.atan2(math.sqrt(1.0 - e) * math.sin(nu / 2),
+                                    math.sqrt(1.0 + e) * math.cos(nu / 2))
+        dt = (ecc_anom - e * math.sin(ecc_anom)) / math.sqrt(gm / a ** 3)
+    elif e > 1.0:
+        a = q / (e - 1.0)
+        hyp = 2.0 * math.atanh(math.sqrt((e - 1.0) / (e + 1.0)) * math.tan(nu / 2))
+        dt = (e * math.sinh(hyp) - hyp) / math.sqrt(gm / a ** 3)
+    else:
+        y = math.tan(nu / 2)
+        dt = (y + y ** 3 / 3.0) * math.sqrt(2.0 * q ** 3 / gm)
+    return Orbit(tdb_jd, q, e, incl, node, peri, tdb_jd - dt)
