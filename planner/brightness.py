@@ -2,9 +2,11 @@
 
 - Comet total magnitude: m = M1 + 5 log10 Δ + K1 log10 r (K1 = 2.5 n for a brightness ∝ r^−n).
 - Comet nuclear magnitude: m = M2 + 5 log10 Δ + K2 log10 r + β α (β in mag/deg).
-- Asteroid: the H,G system of Bowell et al. (1989), *Asteroids II*, 524–556:
-  m = H + 5 log10(r Δ) − 2.5 log10[(1 − G) Φ1(α) + G Φ2(α)], Φi = exp(−Ai tan(α/2)^Bi),
-  A1 = 3.33, B1 = 0.63, A2 = 1.87, B2 = 1.22.
+- Asteroid: the H,G system of Bowell et al. (1989), *Asteroids II*, 524–556 (their eq. A4, the form
+  adopted by the IAU in 1985): m = H + 5 log10(r Δ) − 2.5 log10[(1 − G) Φ1(α) + G Φ2(α)] with
+  Φi = W Φi,S + (1 − W) Φi,L, W = exp(−90.56 tan²(α/2)), Φi,S = 1 − Ci sin α / (0.119 + 1.341 sin α
+  − 0.754 sin² α), Φi,L = exp(−Ai tan(α/2)^Bi); A = (3.332, 1.862), B = (0.631, 1.218),
+  C = (0.986, 0.238).
 r and Δ in au, α in degrees.
 """
 
@@ -34,12 +36,21 @@ def comet_nuclear_mag(M2: float, K2: float, phase_coeff_mag_per_deg: float, heli
 
 def hg_mag(H: float, G: float, helio_dist_au: np.ndarray, obs_dist_au: np.ndarray,
            phase_angle_deg: np.ndarray) -> np.ndarray:
-    """Bowell et al. (1989) H,G apparent magnitude."""
-    tan_half = np.tan(np.radians(np.asarray(phase_angle_deg, dtype=float)) / 2.0)
-    phi1 = np.exp(-3.33 * tan_half ** 0.63)
-    phi2 = np.exp(-1.87 * tan_half ** 1.22)
+    """Bowell et al. (1989) H,G apparent magnitude (eq. A4, with the small-angle blend)."""
+    alpha = np.radians(np.asarray(phase_angle_deg, dtype=float))
+    phi1 = _hg_phi(alpha, 3.332, 0.631, 0.986)
+    phi2 = _hg_phi(alpha, 1.862, 1.218, 0.238)
     return H + 5.0 * np.log10(np.asarray(helio_dist_au) * np.asarray(obs_dist_au)) - 2.5 * np.log10(
         (1.0 - G) * phi1 + G * phi2)
+
+
+def _hg_phi(alpha_rad: np.ndarray, a: float, b: float, c: float) -> np.ndarray:
+    tan_half = np.tan(alpha_rad / 2.0)
+    sin_a = np.sin(alpha_rad)
+    w = np.exp(-90.56 * tan_half * tan_half)
+    small = 1.0 - c * sin_a / (0.119 + 1.341 * sin_a - 0.754 * sin_a * sin_a)
+    large = np.exp(-a * tan_half ** b)
+    return w * small + (1.0 - w) * large
 
 
 def law_name(kind: str, b: Brightness) -> str:

@@ -257,7 +257,7 @@ def orbit_from_state(pos_au: np.ndarray, vel_au_d: np.ndarray, tdb_jd: float,
     """Osculating elements (ecliptic J2000 angles) from one equatorial-J2000 state, any conic.
 
     Classical vector formulas (Danby 1988, §6.12): h = r × v, e = v × h / GM − r̂, q = h² / (GM(1 + e)),
-    the time from perihelion from the eccentric/hyperbolic/parabolic anomaly. For e = 0 the perihelion
+    the time from perihelion in universal variables (:func:`time_since_perihelion`). For e = 0 the perihelion
     is taken at the ascending node; for i = 0 the node is taken at the equinox direction.
     """
     from planner.targets import Orbit
@@ -279,22 +279,32 @@ def orbit_from_state(pos_au: np.ndarray, vel_au_d: np.ndarray, tdb_jd: float,
     node = math.degrees(math.atan2(node_vec[1], node_vec[0])) % 360.0 if nn > 1e-15 * hn else 0.0
     n_hat = node_vec / nn if nn > 1e-15 * hn else np.array([1.0, 0.0, 0.0])
     m_hat = np.cross(h / hn, n_hat)  # in the orbit plane, 90° ahead of the node
-    if e > 1e-12:
-        peri = math.degrees(math.atan2(evec @ m_hat, evec @ n_hat)) % 360.0
-        p_hat = evec / e
+    peri = math.degrees(math.atan2(evec @ m_hat, evec @ n_hat)) % 360.0 if e > 1e-12 else 0.0
+    return Orbit(tdb_jd, q, e, incl, node, peri, tdb_jd - time_since_perihelion(rn, float(r @ v), q, e, gm))
+
+
+def time_since_perihelion(r_au: float, sigma: float, q_au: float, e: float,
+                          gm: float = GM_SUN_AU3_D2) -> float:
+    """Time (days) from perihelion to a state with distance ``r_au`` and σ = r·v, for any conic.
+
+    In universal variables counted from perihelion, r − q = GM e s² c2(βs²) and σ = GM e s c1(βs²),
+    so tan(√β s / 2) = √β (r − q)/σ (tanh for β < 0); then Δt = q s c1 + GM s³ c3 (Danby 1988, §6.9).
+    Near the parabola the arctangent is summed as a series, so no precision is lost there.
+    """
+    beta = gm * (1.0 - e) / q_au
+    dr = max(r_au - q_au, 0.0)
+    if dr == 0.0:
+        return 0.0
+    w = beta * dr * dr / (sigma * sigma) if sigma != 0.0 else math.copysign(math.inf, beta)
+    if abs(w) < 1e-4:
+        g = 1.0 - w / 3.0 + w * w / 5.0 - w ** 3 / 7.0 + w ** 4 / 9.0  # atan(√w)/√w
+        s = 2.0 * dr / sigma * g
+    elif beta > 0.0:
+        half = math.atan2(math.sqrt(beta) * dr, sigma)
+        if sigma < 0.0:
+            half -= math.pi
+        s = 2.0 * half / math.sqrt(beta)
     else:
-        peri, p_hat = 0.0, n_hat
-    nu = math.atan2(np.cross(p_hat, r) @ (h / hn), p_hat @ r)
-    if e < 1.0:
-        a = q / (1.0 - e)
-        ecc_anom = 2.0 * math.atan2(math.sqrt(1.0 - e) * math.sin(nu / 2),
-                                    math.sqrt(1.0 + e) * math.cos(nu / 2))
-        dt = (ecc_anom - e * math.sin(ecc_anom)) / math.sqrt(gm / a ** 3)
-    elif e > 1.0:
-        a = q / (e - 1.0)
-        hyp = 2.0 * math.atanh(math.sqrt((e - 1.0) / (e + 1.0)) * math.tan(nu / 2))
-        dt = (e * math.sinh(hyp) - hyp) / math.sqrt(gm / a ** 3)
-    else:
-        y = math.tan(nu / 2)
-        dt = (y + y ** 3 / 3.0) * math.sqrt(2.0 * q ** 3 / gm)
-    return Orbit(tdb_jd, q, e, incl, node, peri, tdb_jd - dt)
+        s = 2.0 * math.atanh(math.sqrt(-beta) * dr / sigma) / math.sqrt(-beta)
+    _, c1, _, c3 = stumpff(np.array([beta * s * s]))
+    return float(q_au * s * c1[0] + gm * s ** 3 * c3[0])
