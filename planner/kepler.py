@@ -100,8 +100,14 @@ def universal_anomaly(r0_au: np.ndarray, sigma0: np.ndarray, beta: np.ndarray, q
         *(np.atleast_1d(np.asarray(a, dtype=float)) for a in (r0_au, sigma0, beta, q_au, dt_d))))
     lo = np.minimum(0.0, dt / q)
     hi = np.maximum(0.0, dt / q)
-    # Starting guess: Δt/a for ellipses (mean-anomaly estimate), Δt/r0 otherwise, clipped to the bracket.
-    s = np.clip(np.where(beta > 0, dt * beta / gm, dt / r0), lo, hi)
+    # Starting guess, clipped to the bracket: Δt/a for ellipses (mean-anomaly estimate); for hyperbolas
+    # H0 = asinh(M/e) (a lower bound of e sinh H − H = M), s = H0/√−β; Δt/r0 near the parabola.
+    with np.errstate(invalid="ignore", divide="ignore"):
+        root_neg_beta = np.sqrt(np.maximum(-beta, 0.0))
+        ecc = 1.0 - beta * q / gm
+        s_hyp = np.arcsinh(root_neg_beta ** 3 / gm * dt / np.maximum(ecc, 1.0)) / root_neg_beta
+    s = np.where(beta > 0, dt * beta / gm, np.where(ecc > 1.0 + 1e-6, s_hyp, dt / r0))
+    s = np.clip(np.nan_to_num(s), lo, hi)
     n_lag = 5.0
     idx = np.arange(s.size)
     for _ in range(max_iter):
