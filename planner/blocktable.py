@@ -33,7 +33,8 @@ def _empty() -> tuple[pd.DataFrame, pd.DataFrame]:
 
 
 def block_table(visits: list[Visit], grid: SlotGrid, target, sites: tuple[Site, ...] | list[Site],
-                snr_target: float) -> tuple[pd.DataFrame, pd.DataFrame]:
+                snr_target: float, min_exposure_s: float = 30.0,
+                max_exposure_s: float = 300.0) -> tuple[pd.DataFrame, pd.DataFrame]:
     """One row per visit (BLOCK_COLUMNS), and the planned exposures (time_utc, site, mag_err)."""
     from planner.ephemeris import geometry
     from planner.nights import local_iso
@@ -71,7 +72,8 @@ def block_table(visits: list[Visit], grid: SlotGrid, target, sites: tuple[Site, 
         inst = site.instrument
         science_s = (lengths - grid.setup_slots) * grid.slot_s
         if inst is not None:
-            phot = photometry_columns(mid, inst, comet=comet, snr_target=snr_target)
+            phot = photometry_columns(mid, inst, comet=comet, snr_target=snr_target, min_exposure_s=min_exposure_s,
+                                      max_exposure_s=max_exposure_s)
             exp_s = phot["exposure_s"].to_numpy(dtype=float)
             snr = phot["snr_pred"].to_numpy(dtype=float)
             err = phot["mag_err_pred"].to_numpy(dtype=float)
@@ -114,3 +116,26 @@ def block_table(visits: list[Visit], grid: SlotGrid, target, sites: tuple[Site, 
     table = table[list(BLOCK_COLUMNS)]
     exp = pd.concat(exposures, ignore_index=True) if exposures else _empty()[1]
     return table, exp.sort_values("time_utc", kind="stable").reset_index(drop=True)
+
+
+def binned_points(exposures: pd.DataFrame, t_ref: np.datetime64, bin_s: float) -> pd.DataFrame:
+    """Consecutive exposures of one site combined per ``bin_s`` slot: mean time, error / √n.
+
+    Light-curve points of a slowly rotating body are commonly stacks of consecutive frames
+    (common practice); the diagnostics run on these points, which keeps them fast without
+    changing the sampling pattern at the slot scale.
+    """
+    if exposures.empty:
+        return exposures.copy()
+    t = exposures["time_utc"].to_numpy("datetime64[ns]")
+    ns = (t - np.datetime64(t_ref, "ns")).astype(np.int64)
+    key = ns // np.int64(round(bin_s * 1e9))
+    df = pd.DataFrame({"site": exposures["site"].to_numpy(), "key": key, "ns": ns,
+                       "w": 1.0 / np.square(exposures["mag_err"].to_numpy(dtype=float))})
+    g = df.groupby(["site", "key"], sort=False)
+    mean_ns = g["ns"].mean().round().astype(np.int64)
+    w = g["w"].sum()
+    out = pd.DataFrame({"time_utc": np.datetime64(t_ref, "ns") + mean_ns.to_numpy().astype("timedelta64[ns]"),
+                        "site": [s for s, _ in mean_ns.index], "mag_err": 1.0 / np.sqrt(w.to_numpy()),
+                        "n_frames": g.size().to_numpy()})
+    return out.sort_values("time_utc", kind="stable").reset_index(drop=True)

@@ -24,9 +24,9 @@ _TOP_KEYS = {"name", "target", "sites", "first_night", "nights", "seed", "rotati
 _ROTATION_KEYS = {"min_period_h", "max_period_h", "double_peaked", "amplitude_mag", "phase_bins", "oversample"}
 _BLOCK_KEYS = {"slot_min", "min_block_h", "max_block_h", "setup_min", "max_per_night"}
 _CADENCE_KEYS = {"max_gap_h"}
-_WEIGHT_KEYS = {"coverage", "robustness", "alias", "cadence"}
+_WEIGHT_KEYS = {"coverage", "robustness", "alias", "cadence", "hours"}
 _WEATHER_KEYS = {"trials"}
-_PHOTOMETRY_KEYS = {"snr_target"}
+_PHOTOMETRY_KEYS = {"snr_target", "min_exposure_s", "max_exposure_s"}
 _DIAGNOSTICS_KEYS = {"trials"}
 _OVERRIDE_KEYS = {"hours_per_night", "blocks", "clear_fraction", "total_hours"}
 
@@ -70,6 +70,7 @@ class Weights:
     robustness: float = 0.5
     alias: float = 0.5
     cadence: float = 0.5
+    hours: float = 0.1
 
 
 @dataclass(frozen=True)
@@ -89,6 +90,10 @@ class Campaign:
     weights: Weights = field(default_factory=Weights)
     weather_trials: int = 200
     snr_target: float = 30.0
+    #: Exposure limits: observers rarely take light-curve frames shorter than ~30 s even on bright
+    #: targets (scintillation, data volume; common practice); trailing may still cut below the floor.
+    min_exposure_s: float = 30.0
+    max_exposure_s: float = 300.0
     #: Injection–recovery trials per diagnostics run (phasewise check); 0 skips them.
     check_trials: int = 100
     #: Whole-campaign hour budget per site name (absent: no budget beyond the nightly allocation).
@@ -213,6 +218,10 @@ def load_campaign(path: str | Path) -> Campaign:
     wx_f.check_known(_WEATHER_KEYS)
     ph_f = f.sub("photometry") or Fields(path, {}, "photometry")
     ph_f.check_known(_PHOTOMETRY_KEYS)
+    min_exp = ph_f.float("min_exposure_s", 30.0, lo=0.1, hi=3600.0)
+    max_exp = ph_f.float("max_exposure_s", 300.0, lo=0.1, hi=3600.0)
+    if max_exp < min_exp:
+        raise ph_f.error("max_exposure_s", f"{max_exp:g} is below min_exposure_s ({min_exp:g})")
     dg_f = f.sub("diagnostics") or Fields(path, {}, "diagnostics")
     dg_f.check_known(_DIAGNOSTICS_KEYS)
 
@@ -238,6 +247,8 @@ def load_campaign(path: str | Path) -> Campaign:
         weather_trials=wx_f.int("trials", 200, lo=10, hi=100_000),
         snr_target=ph_f.float("snr_target", 30.0, lo=1.0, hi=10_000.0),
         check_trials=dg_f.int("trials", 100, lo=0, hi=100_000),
+        min_exposure_s=min_exp,
+        max_exposure_s=max_exp,
         total_hours=total_hours,
     )
 

@@ -5,7 +5,7 @@ interval ``[t0, t1]`` folded on a trial period ``P`` covers a circular arc of ro
 into ``n_bins`` equal bins, the *cells* (period, bin) it touches are what it contributes.
 
 Terms of the objective (all in [0, 1]; the plan maximises
-``J = w_cov·Cov + w_rob·ECov − w_alias·Alias − w_cad·Gap``):
+``J = w_cov·Cov + w_rob·ECov − w_alias·Alias − w_cad·Gap + w_hours·Hours``):
 
 - ``Cov``: fraction of (period, bin) cells touched by at least one visit. A coverage function, hence
   monotone submodular (Nemhauser, Wolsey & Fisher 1978): the greedy works on it.
@@ -16,6 +16,8 @@ Terms of the objective (all in [0, 1]; the plan maximises
   frequencies whose aliases land in the searched band, using science-slot centres as the times;
   equal to the length of the mean unit phasor at ν (Eyer & Bartholdi 1999, A&AS 135, 1).
 - ``Gap``: hours of network-wide silence beyond ``max_gap_h``, as a fraction of the campaign span.
+- ``Hours``: telescope time used, as a fraction of what the allocations allow (granted time left
+  unused is lost; more frames also sharpen the brightness trend). Modular, so the sum stays submodular.
 
 Each vectorised kernel keeps a slow, obvious twin (suffix ``_slow``) that the tests compare against.
 """
@@ -211,6 +213,7 @@ class Terms:
     alias: float
     excess_gap_h: float
     gap_fraction: float
+    hours_fraction: float
     total: float
 
     def to_dict(self) -> dict[str, float]:

@@ -109,8 +109,8 @@ def comparison_text(result: PlanResult) -> str:
     rows = [
         ("worst-period phase coverage (higher is better)", c["worst_period_coverage"], ".2f"),
         ("highest spectral-window alias (lower is better)", c["highest_alias"], ".2f"),
-        ("least detectable fading, mag/day (lower is better)", c["trend_min_detectable_mag_per_day"], ".4f"),
-        ("exposures", c["n_times"], "d"),
+        ("least detectable extra fading, mag/day (lower is better)", c["trend_min_detectable_mag_per_day"], ".1e"),
+        ("light-curve points (frames stacked per slot)", c["n_times"], "d"),
     ]
     hours_p = float(result.blocks["hours"].sum()) if len(result.blocks) else 0.0
     hours_b = float(result.baseline["hours"].sum()) if len(result.baseline) else 0.0

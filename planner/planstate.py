@@ -75,6 +75,11 @@ class PlanModel:
         if len(self.done.intervals_h):
             self.span_h = (min(self.span_h[0], float(np.min(self.done.intervals_h[:, 0]))), self.span_h[1])
         self._elem_packed: np.ndarray | None = None
+        # Time the plan may use: the site-nights' budgets, capped by any whole-campaign site budget.
+        per_site: dict[int, int] = {}
+        for p in grid.parts:
+            per_site[p.site_index] = per_site.get(p.site_index, 0) + p.budget_slots
+        self.budget_slots = int(sum(min(v, grid.site_budget_slots.get(k, v)) for k, v in per_site.items()))
 
     # --- per-visit pieces -------------------------------------------------------------------------
     def science_h(self, start: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -104,13 +109,15 @@ class PlanModel:
         return self.visit_masks(g.elem_start[idx], g.elem_len[idx])
 
     # --- scoring from scratch (reference) --------------------------------------------------------
-    def combine(self, coverage: float, expected: float, alias: float, gap_h: float) -> Terms:
+    def combine(self, coverage: float, expected: float, alias: float, gap_h: float, used_slots: int) -> Terms:
         span = max(self.span_h[1] - self.span_h[0], 1e-9)
         w = self.weights
         gap_frac = gap_h / span
-        total = w.coverage * coverage + w.robustness * expected - w.alias * alias - w.cadence * gap_frac
+        hours_frac = used_slots / max(self.budget_slots, 1)
+        total = (w.coverage * coverage + w.robustness * expected - w.alias * alias - w.cadence * gap_frac
+                 + w.hours * hours_frac)
         return Terms(coverage=coverage, expected_coverage=expected, alias=alias, excess_gap_h=gap_h,
-                     gap_fraction=gap_frac, total=total)
+                     gap_fraction=gap_frac, hours_fraction=hours_frac, total=total)
 
     def intervals_h(self, visits: list[Visit]) -> np.ndarray:
         if not visits:
@@ -138,7 +145,7 @@ class PlanModel:
         expected = np.where(self.done_cells, 1.0, 1.0 - np.exp(log_surv)).mean()
         alias = float(np.abs(phasor).max() / n) if n > 0 and phasor.size else 0.0
         gap = excess_gap_h(self.intervals_h(visits), self.span_h, self.max_gap_h)
-        return self.combine(float(covered.mean()), float(expected), alias, gap)
+        return self.combine(float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits))
 
 
 class PlanState:
@@ -202,7 +209,7 @@ class PlanState:
         alias = float(np.abs(phasor).max() / n) if n > 0 and phasor.size else 0.0
         visits = [v for v in self.visits if v not in remove] + list(add)
         gap = excess_gap_h(model.intervals_h(visits), model.span_h, model.max_gap_h)
-        return model.combine(float(covered.mean()), float(expected), alias, gap)
+        return model.combine(float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits))
 
     def apply(self, remove: list[Visit], add: list[Visit]) -> None:
         counts, phasor, n, touched, log_surv = self._updated(remove, add)

@@ -20,7 +20,7 @@ import numpy as np
 import pandas as pd
 
 from planner.baseline import baseline_visits
-from planner.blocktable import block_table
+from planner.blocktable import binned_points, block_table
 from planner.campaign import Campaign
 from planner.errors import InputError
 from planner.objective import alias_freq_grid
@@ -116,7 +116,8 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
     base = baseline_visits(grid, windows, total_slots(opt.visits))
     base_terms = model.terms(base)
     objective = {
-        "definition": "J = w_cov*coverage + w_rob*expected_coverage - w_alias*alias - w_cad*gap_fraction",
+        "definition": ("J = w_cov*coverage + w_rob*expected_coverage - w_alias*alias - w_cad*gap_fraction"
+                       " + w_hours*hours_fraction"),
         "weights": {k: float(v) for k, v in campaign.weights.__dict__.items()},
         "heuristic": opt.terms.to_dict(),
         "greedy": {**opt.greedy_terms.to_dict(), "covered_cells": opt.greedy.covered_cells,
@@ -227,14 +228,18 @@ def plan_campaign(campaign: Campaign, done_log: str | Path | None = None, *, exa
     core = schedule_core(campaign, windows, done, exact=exact, exact_time_limit_s=exact_time_limit_s)
     timings["schedule"] = time.perf_counter() - t
     t = time.perf_counter()
-    blocks, exposures = block_table(core.visits, core.grid, target, campaign.sites, campaign.snr_target)
-    baseline, base_exposures = block_table(core.baseline, core.grid, target, campaign.sites, campaign.snr_target)
+    phot = dict(snr_target=campaign.snr_target, min_exposure_s=campaign.min_exposure_s,
+                max_exposure_s=campaign.max_exposure_s)
+    blocks, exposures = block_table(core.visits, core.grid, target, campaign.sites, **phot)
+    baseline, base_exposures = block_table(core.baseline, core.grid, target, campaign.sites, **phot)
     geo = geometry_sample(target, campaign.sites, core.grid)
     timings["blocks_and_geometry"] = time.perf_counter() - t
     t = time.perf_counter()
     trials = campaign.check_trials if check_trials is None else check_trials
-    diagnostics = {"plan": _check(campaign, exposures, done, target, trials),
-                   "baseline": _check(campaign, base_exposures, done, target, trials)}
+    bin_s = campaign.blocks.slot_s
+    diagnostics = {"plan": _check(campaign, binned_points(exposures, core.grid.t_ref, bin_s), done, target, trials),
+                   "baseline": _check(campaign, binned_points(base_exposures, core.grid.t_ref, bin_s), done, target,
+                                      trials)}
     timings["diagnostics"] = time.perf_counter() - t
     replan = {}
     if done is not None:
