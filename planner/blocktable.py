@@ -139,3 +139,45 @@ def binned_points(exposures: pd.DataFrame, t_ref: np.datetime64, bin_s: float) -
                         "site": [s for s, _ in mean_ns.index], "mag_err": 1.0 / np.sqrt(w.to_numpy()),
                         "n_frames": g.size().to_numpy()})
     return out.sort_values("time_utc", kind="stable").reset_index(drop=True)
+
+
+def part_weights(grid: SlotGrid, windows: pd.DataFrame, target, sites: tuple[Site, ...] | list[Site],
+                 snr_target: float, min_exposure_s: float = 30.0, max_exposure_s: float = 300.0) -> np.ndarray:
+    """Relative weight 1/σ² of one science slot at each site-night (mean 1), from the predicted
+    per-exposure error at the window's highest-altitude time times the frames one slot holds.
+
+    Feeds the weighted spectral window of the objective so that it matches the ``check`` diagnostics
+    (which weight by 1/σ²). Site-nights without a prediction get the median weight.
+    """
+    from planner.ephemeris import geometry
+    from planner.photometry import photometry_columns
+
+    n = len(grid.parts)
+    if n == 0:
+        return np.ones(0)
+    by_name = {s.name: s for s in sites}
+    w = windows[windows["best_utc"].notna()].copy()
+    w["_night"] = pd.to_datetime(w["night"]).dt.date
+    best = {}
+    for (site, night), rows in w.groupby(["site", "_night"]):
+        best[(site, night)] = np.datetime64(rows.loc[rows["max_alt_deg"].idxmax(), "best_utc"], "ns")
+    out = np.full(n, np.nan)
+    comet = getattr(target, "kind", "comet") == "comet"
+    for name in dict.fromkeys(p.site for p in grid.parts):  # one geometry call per site
+        site = by_name[name]
+        idx = [i for i, p in enumerate(grid.parts) if p.site == name and (p.site, p.night) in best]
+        if not idx or site.instrument is None:
+            continue
+        times = np.array([best[(grid.parts[i].site, grid.parts[i].night)] for i in idx], dtype="datetime64[ns]")
+        geo = geometry(target, times, [site])[name]
+        phot = photometry_columns(geo, site.instrument, comet=comet, snr_target=snr_target,
+                                  min_exposure_s=min_exposure_s, max_exposure_s=max_exposure_s)
+        err = phot["mag_err_pred"].to_numpy(dtype=float)
+        frames = np.maximum(np.floor(grid.slot_s / (phot["exposure_s"].to_numpy(dtype=float)
+                                                     + site.instrument.readout_s)), 1.0)
+        out[idx] = frames / np.square(err)
+    finite = np.isfinite(out) & (out > 0)
+    if not finite.any():
+        return np.ones(n)
+    out[~finite] = np.median(out[finite])
+    return out / out.mean()

@@ -53,7 +53,8 @@ class Done:
 
 class PlanModel:
     def __init__(self, grid: SlotGrid, periods_h: np.ndarray, n_bins: int, freq_per_day: np.ndarray,
-                 weights: Weights, max_gap_h: float, done: Done | None = None) -> None:
+                 weights: Weights, max_gap_h: float, done: Done | None = None,
+                 part_weight: np.ndarray | None = None) -> None:
         self.grid = grid
         self.periods_h = np.asarray(periods_h, dtype=float)
         self.n_bins = int(n_bins)
@@ -68,6 +69,10 @@ class PlanModel:
             else np.zeros(0)
         self.done_phasor = point_window_sum((done_slots + 0.5) * grid.slot_h, self.freq_per_day)
         self.done_n = float(done_slots.size)
+        #: Weight of one science slot per site-night in the spectral window (1/σ², mean 1), as in a
+        #: weighted window W = Σ w e^{2πiνt} / Σ w; already-observed slots weigh 1.
+        self.part_weight = (np.ones(len(grid.parts)) if part_weight is None
+                            else np.asarray(part_weight, dtype=float))
         clear = np.array([p.clear_fraction for p in grid.parts], dtype=float)
         self.log_cloudy = np.log1p(-np.clip(clear, *_CLEAR_CLIP))
         lo, hi = grid.span_slots
@@ -137,8 +142,9 @@ class PlanModel:
             m = self.visit_masks(np.array([v.start]), np.array([v.length]))[0]
             covered |= m
             per_part[v.part] = per_part.get(v.part, np.zeros_like(m)) | m
-            phasor = phasor + self.visit_phasors(np.array([v.start]), np.array([v.length]))[0]
-            n += v.length - self.grid.setup_slots
+            w = self.part_weight[v.part]
+            phasor = phasor + w * self.visit_phasors(np.array([v.start]), np.array([v.length]))[0]
+            n += w * (v.length - self.grid.setup_slots)
         log_surv = np.zeros(covered.shape)
         for p, m in per_part.items():
             log_surv += m * self.log_cloudy[p]
@@ -169,7 +175,7 @@ class PlanState:
         hit = self._cache.get(v)
         if hit is None:
             m = self.model.visit_masks(np.array([v.start]), np.array([v.length]))[0]
-            ph = self.model.visit_phasors(np.array([v.start]), np.array([v.length]))[0]
+            ph = self.model.part_weight[v.part] * self.model.visit_phasors(np.array([v.start]), np.array([v.length]))[0]
             hit = (m, ph)
             if len(self._cache) > 50_000:
                 self._cache.clear()
@@ -187,7 +193,7 @@ class PlanState:
                 m, ph = self._pieces(v)
                 counts += sign * m
                 phasor += sign * ph
-                n += sign * (v.length - model.grid.setup_slots)
+                n += sign * model.part_weight[v.part] * (v.length - model.grid.setup_slots)
                 pc = touched.get(v.part)
                 if pc is None:
                     base = self.part_counts.get(v.part)

@@ -12,6 +12,7 @@ Monte Carlo (planner.robustness); an exact optimum of the coverage problem on re
 from __future__ import annotations
 
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from datetime import timedelta
 from pathlib import Path
@@ -20,7 +21,7 @@ import numpy as np
 import pandas as pd
 
 from planner.baseline import baseline_visits
-from planner.blocktable import binned_points, block_table
+from planner.blocktable import binned_points, block_table, part_weights
 from planner.campaign import Campaign
 from planner.errors import InputError
 from planner.objective import alias_freq_grid
@@ -84,10 +85,10 @@ def _hours_since(times_utc: np.ndarray, t_ref: np.datetime64) -> np.ndarray:
 
 
 def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | None = None, *,
-                  exact: bool = False, exact_time_limit_s: float = 60.0,
-                  max_evaluations: int = 6000) -> PlanCore:
-    """Optimise on a windows table (no geometry needed): slots, greedy + local search, baseline,
-    robustness, and the exact optimum when asked."""
+                  exact: bool = False, exact_time_limit_s: float = 60.0, max_evaluations: int = 6000,
+                  weight_fn: Callable[[SlotGrid], np.ndarray] | None = None) -> PlanCore:
+    """Optimise on a windows table: slots, greedy + local search, baseline, robustness, and the exact
+    optimum when asked. ``weight_fn(grid)`` gives each site-night's spectral-window weight (default 1)."""
     from planner.coverage import period_grid_h
 
     t_ref = t_ref_for(campaign)
@@ -111,7 +112,8 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
     periods = period_grid_h(rot.min_period_h, rot.max_period_h, span_h, rot.oversample)
     freqs = alias_freq_grid(rot.min_period_h, rot.max_period_h, span_h, rot.double_peaked)
     freqs = freqs[freqs <= ALIAS_MAX_FREQ_PER_DAY]
-    model = PlanModel(grid, periods, rot.phase_bins, freqs, campaign.weights, campaign.max_gap_h, done_model)
+    model = PlanModel(grid, periods, rot.phase_bins, freqs, campaign.weights, campaign.max_gap_h, done_model,
+                      part_weight=None if weight_fn is None else weight_fn(grid))
     opt = optimise(model, seed=campaign.seed, max_evaluations=max_evaluations)
     base = baseline_visits(grid, windows, total_slots(opt.visits))
     base_terms = model.terms(base)
@@ -225,11 +227,12 @@ def plan_campaign(campaign: Campaign, done_log: str | Path | None = None, *, exa
                                  step_s=campaign.blocks.slot_s)
     timings["windows"] = time.perf_counter() - t
     t = time.perf_counter()
-    core = schedule_core(campaign, windows, done, exact=exact, exact_time_limit_s=exact_time_limit_s)
-    timings["schedule"] = time.perf_counter() - t
-    t = time.perf_counter()
     phot = dict(snr_target=campaign.snr_target, min_exposure_s=campaign.min_exposure_s,
                 max_exposure_s=campaign.max_exposure_s)
+    core = schedule_core(campaign, windows, done, exact=exact, exact_time_limit_s=exact_time_limit_s,
+                         weight_fn=lambda grid: part_weights(grid, windows, target, campaign.sites, **phot))
+    timings["schedule"] = time.perf_counter() - t
+    t = time.perf_counter()
     blocks, exposures = block_table(core.visits, core.grid, target, campaign.sites, **phot)
     baseline, base_exposures = block_table(core.baseline, core.grid, target, campaign.sites, **phot)
     geo = geometry_sample(target, campaign.sites, core.grid)
