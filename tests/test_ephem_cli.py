@@ -105,6 +105,9 @@ def test_failed_run_keeps_the_existing_output(root, tmp_path, capsys, monkeypatc
      "error: command line: format:"),
     (["--target", DEMO, "--object", "X", "--start", "2034-03-19", "--stop", "2034-03-20"],
      "error: demo_targets/c2034-b3-quillfeather.toml: object:"),
+    (["--target", DEMO, "--site", "sites/karoo-ridge.toml", "--site", "sites/karoo-ridge.toml",
+      "--start", "2034-03-19", "--stop", "2034-03-20"],
+     "error: sites/karoo-ridge.toml: name: two sites are both called 'Karoo Ridge'"),
     (["--target", "tests/data/mpc_comets.txt", "--start", "2034-03-19", "--stop", "2034-03-20"],
      "error: tests/data/mpc_comets.txt: object: the file holds 3 orbit lines"),
 ])
