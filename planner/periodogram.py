@@ -65,6 +65,14 @@ def trend_basis(times_jd: np.ndarray, trend_degree: int = 0,
     return np.column_stack(cols) if cols else np.zeros((t.size, 0))
 
 
+def trend_projector(weighted_basis: np.ndarray) -> np.ndarray:
+    """Orthonormal columns spanning the weighted trend basis; dependent columns dropped (SVD)."""
+    if weighted_basis.shape[1] == 0:
+        return np.zeros((weighted_basis.shape[0], 0))
+    u, sv, _ = np.linalg.svd(weighted_basis, full_matrices=False)
+    return u[:, sv > 1e-10 * sv[0]] if sv[0] > 0 else u[:, :0]
+
+
 def harmonic_design(t_days: np.ndarray, freq_per_day: np.ndarray, nterms: int) -> np.ndarray:
     """(F, N, 2K) stack: cos(2πkft), sin(2πkft) for k = 1..K, harmonics by angle addition."""
     arg = (2.0 * np.pi) * np.outer(freq_per_day, t_days)
@@ -96,7 +104,7 @@ def multiharmonic_power(times_jd: np.ndarray, y: np.ndarray, freq_per_day: np.nd
     power = np.zeros((f.size, m))
     if n == 0:
         return power[:, 0] if single else power
-    q_b = np.linalg.qr(s[:, None] * basis)[0] if basis.shape[1] else np.zeros((n, 0))
+    q_b = trend_projector(s[:, None] * basis)
     y_w = s[:, None] * yy
     y_r = y_w - q_b @ (q_b.T @ y_w)
     chi0 = np.einsum("nm,nm->m", y_r, y_r)
