@@ -196,11 +196,12 @@ def geometric_trend_mag(geometry: Mapping[str, np.ndarray], k1: float = 10.0) ->
     return m - m.mean()
 
 
-def _bands(settings: CheckSettings, recovery: RecoveryResult | None) -> np.ndarray:
+def _bands(settings: CheckSettings, recovery: RecoveryResult | None, n_bands: int) -> np.ndarray:
+    """Log-spaced period bands; the injection–recovery bins are the same bands."""
     if recovery is not None:
         edges = [b.min_period_h for b in recovery.bins] + [recovery.bins[-1].max_period_h]
         return np.array(edges)
-    return np.geomspace(settings.min_period_h, settings.max_period_h, 9)
+    return np.geomspace(settings.min_period_h, settings.max_period_h, n_bands + 1)
 
 
 def _partners_in_range(freq_per_day: float, peaks_f: np.ndarray, peaks_h: np.ndarray,
@@ -246,7 +247,7 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
                 extra_fading_mag_per_day: float = 0.0, k1: float = 10.0,
                 coverage_threshold: float = 0.8, alias_threshold: float = 0.7,
                 recovery_threshold: float = 0.9, window_max_freq_per_day: float = 5.0,
-                n_candidates: int = 16,
+                n_candidates: int = 16, n_bands: int = 10,
                 progress: Callable[[float], None] | None = None) -> CheckResult:
     """Coverage, alias, recovery and sensitivity diagnostics for a list of observation times.
 
@@ -254,6 +255,8 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
     or common. ``sites``: optional label per time. ``geometry``: the output of
     ``planner.ephemeris.geometry`` (or a DataFrame / mapping with its columns) at the same
     times; with ``target`` instead, it is computed here. ``trials`` = 0 skips injection–recovery.
+    The period range is cut into ``n_bands`` log-spaced bands, each with a verdict; injected
+    periods are shared out evenly over the same bands.
     """
     if not (0 < min_period_h <= max_period_h):
         raise ValueError("need 0 < min_period_h <= max_period_h")
@@ -302,8 +305,12 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
              for f, h in zip(pk_f, pk_h, strict=True)]
     nyq = nyquist_freq_per_day(t)
 
-    # candidate periods: log-spaced across the range, for aliases and sensitivities
-    cand = np.geomspace(s.min_period_h, s.max_period_h, n_candidates)
+    # candidate periods: log-spaced across the range plus the 24/n-hour family, for aliases
+    # and sensitivities
+    spread = np.geomspace(s.min_period_h, s.max_period_h, n_candidates)
+    near_daily = np.any(np.abs(np.log(spread[:, None] / comm_p[None, :])) < 0.02, axis=1) \
+        if comm_p.size else np.zeros(spread.size, bool)
+    cand = np.unique(np.concatenate([spread[~near_daily], comm_p]))
     aliases = []
     for p in cand:
         partners = _partners_in_range(24.0 / p, pk_f, pk_h, s)
@@ -318,7 +325,7 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
                 t, min_period_h=s.min_period_h, max_period_h=s.max_period_h, trials=trials, seed=seed,
                 amplitude_range_mag=s.amplitude_range_mag, sigma_mag=err, double_peaked=double_peaked,
                 nterms=s.nterms, trend_mag=trend_mag, fading_mag_per_day=extra_fading_mag_per_day,
-                oversample=oversample, progress=progress)
+                oversample=oversample, n_bins=n_bands, progress=progress)
         else:
             notes.append(f"injection–recovery skipped: {n} times are too few for the model")
     rec_list = []
@@ -372,7 +379,7 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
                               for p, o, ps in zip(cand, offs, period_sigma_h, strict=True)]
 
     # verdict per band
-    edges = _bands(s, recovery)
+    edges = _bands(s, recovery, n_bands)
     bands = []
     for i in range(edges.size - 1):
         lo, hi = float(edges[i]), float(edges[i + 1])
