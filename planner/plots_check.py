@@ -72,7 +72,7 @@ def coverage_map_figure(result) -> Figure:
     bottom.set_xscale("log")
     _log_period_axis(bottom.xaxis, periods[0], periods[-1])
     bottom.set_xlabel("rotation period (h)")
-    bottom.set_ylabel("rotational phase (bins of 1/%d)" % n_bins)
+    bottom.set_ylabel(f"rotational phase (bins of 1/{n_bins})")
     bottom.set_title("dark: phase bin observed; white: never observed", fontsize=9)
     fig.suptitle(f"Rotational-phase coverage of {d['input']['n_times']} times")
     return fig
