@@ -241,6 +241,7 @@ def _verdict(cov_band: np.ndarray, rec: dict | None, alias_max: float, s: CheckS
 
 def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: float,
                 mag_err: np.ndarray | float = 0.02, sites: np.ndarray | None = None,
+                exposure_s: np.ndarray | None = None,
                 target=None, geometry=None, trials: int = 200, seed: int = 0,
                 amplitude_range_mag: tuple[float, float] = (0.1, 0.5), double_peaked: bool = True,
                 phase_bins: int = 20, oversample: float = 10.0, nterms: int = 2,
@@ -251,8 +252,10 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
                 progress: Callable[[float], None] | None = None) -> CheckResult:
     """Coverage, alias, recovery and sensitivity diagnostics for a list of observation times.
 
-    ``times_utc``: datetime64 array (any order). ``mag_err``: photometric σ per point (array)
-    or common. ``sites``: optional label per time. ``geometry``: the output of
+    ``times_utc``: datetime64 array (any order), mid-exposure. ``mag_err``: photometric σ per
+    point (array) or common. ``sites``: optional label per time. ``exposure_s``: optional
+    exposure per time (NaN = unknown), only used to warn when an exposure smears the light curve
+    over more than one phase bin at the shortest period. ``geometry``: the output of
     ``planner.ephemeris.geometry`` (or a DataFrame / mapping with its columns) at the same
     times; with ``target`` instead, it is computed here. ``trials`` = 0 skips injection–recovery.
     The period range is cut into ``n_bands`` log-spaced bands, each with a verdict; injected
@@ -358,7 +361,7 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
         "longest_gap_h": float(gaps_h.max()) if gaps_h.size else None,
         "longest_gap_start_utc": iso_utc(times[gi:gi + 1])[0] if gi >= 0 else None,
         "longest_gap_end_utc": iso_utc(times[gi + 1:gi + 2])[0] if gi >= 0 else None,
-        "geometric_trend_fitted": trend_mag is not None,
+        "geometric_trend_used": trend_mag is not None,
         "geometric_trend_range_mag": float(np.ptp(trend_mag)) if trend_mag is not None else None,
     }
     f_sig = frequency_sigma(t, cand, err, amp_low, harmonic, s.nterms)
@@ -406,6 +409,11 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
             "recovery_fraction": rec["fraction"] if rec else None,
             "n_trials": rec["n_trials"] if rec else 0,
         })
+    if exposure_s is not None and np.size(exposure_s) and np.any(np.isfinite(exposure_s)):
+        longest_s = float(np.nanmax(np.asarray(exposure_s, dtype=float)))
+        if longest_s / 3600.0 > min_period_h / phase_bins:
+            notes.append(f"exposures up to {longest_s:.0f} s smear the light curve over more than one phase "
+                         f"bin at {min_period_h:g} h")
     if n and baseline_h < max_period_h:
         notes.append(f"the span ({baseline_h:.1f} h) is shorter than the longest period searched")
     return CheckResult(settings=s, times_utc=times, times_jd=t, sites=site_arr, mag_err=err,

@@ -104,7 +104,7 @@ def test_geometry_arrays_give_trend_and_synodic_drift():
            "pab_lat_deg": 1 + 0 * days,
            "mag_pred": 12 + 5 * np.log10(0.6 + 0.005 * days) + 10 * np.log10(1.5 + 0.01 * days)}
     r = check_times(times, min_period_h=3, max_period_h=20, trials=40, geometry={"geocentre": geo})
-    assert r.trend["geometric_trend_fitted"]
+    assert r.trend["geometric_trend_used"]
     assert r.synodic["pab_lon_rate_deg_per_day"] == pytest.approx(2.0)
     for p in r.synodic["periods"]:
         assert p["synodic_offset_h"] == pytest.approx(2 / 360 * p["period_h"] ** 2 / 24)
@@ -117,6 +117,14 @@ def test_no_trials_and_unsorted_input():
     r = check_times(times, min_period_h=2, max_period_h=10, trials=0, mag_err=np.full(times.size, 0.03))
     assert r.recovery == [] and r.bands and all(b["recovery_fraction"] is None for b in r.bands)
     assert np.all(np.diff(r.times_jd) >= 0)
+
+
+def test_long_exposures_are_noted():
+    times = single_site(3)
+    r = check_times(times, min_period_h=2, max_period_h=10, trials=0, exposure_s=np.full(times.size, 900.0))
+    assert any("smear" in note for note in r.notes)
+    r = check_times(times, min_period_h=2, max_period_h=10, trials=0, exposure_s=np.full(times.size, 60.0))
+    assert not any("smear" in note for note in r.notes)
 
 
 def test_too_few_times_is_reported_not_crashed():

@@ -181,14 +181,17 @@ def register(app: typer.Typer) -> None:
         log = read_observation_log(times_csv)
         tgt = None
         if target is not None:
-            from planner.targets import load_target
-
+            try:
+                from planner.targets import load_target
+            except ImportError:  # the geometry module has not landed in this build
+                raise InputError(str(target), "-", "target files are not supported by this build yet") from None
             tgt = load_target(target)
         show = sys.stderr.isatty() if progress is None else progress
         bar = _Progress("injection–recovery") if show and trials > 0 else None
         try:
             result = check_times(log.times_utc, min_period_h=p_min, max_period_h=p_max,
-                                 mag_err=log.mag_err_or(mag_err), sites=log.site, target=tgt,
+                                 mag_err=log.mag_err_or(mag_err), sites=log.site, exposure_s=log.exposure_s,
+                                 target=tgt,
                                  trials=trials, seed=seed, amplitude_range_mag=_amplitudes(amplitude),
                                  double_peaked=not single_peaked, extra_fading_mag_per_day=extra_fading,
                                  progress=bar)
