@@ -175,7 +175,7 @@ def _geometry_arrays(geometry) -> dict[str, np.ndarray]:
         geometry = geometry["geocentre"]
     cols = {}
     for name in ("helio_dist_au", "obs_dist_au", "phase_angle_deg", "pab_lon_deg", "pab_lat_deg",
-                 "mag_pred"):
+                 "mag_pred", "solar_elong_deg"):
         try:
             cols[name] = np.asarray(geometry[name], dtype=float)
         except (KeyError, IndexError, TypeError):
@@ -248,7 +248,7 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
                 extra_fading_mag_per_day: float = 0.0, k1: float = 10.0,
                 coverage_threshold: float = 0.8, alias_threshold: float = 0.7,
                 recovery_threshold: float = 0.9, window_max_freq_per_day: float = 5.0,
-                n_candidates: int = 16, n_bands: int = 10,
+                n_candidates: int = 16, n_bands: int = 10, sun_caution_deg: float = 30.0,
                 progress: Callable[[float], None] | None = None) -> CheckResult:
     """Coverage, alias, recovery and sensitivity diagnostics for a list of observation times.
 
@@ -258,6 +258,7 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
     over more than one phase bin at the shortest period. ``geometry``: the output of
     ``planner.ephemeris.geometry`` (or a DataFrame / mapping with its columns) at the same
     times; with ``target`` instead, it is computed here. ``trials`` = 0 skips injection–recovery.
+    With geometry, times at solar elongation below ``sun_caution_deg`` raise a caution note.
     The period range is cut into ``n_bands`` log-spaced bands, each with a verdict; injected
     periods are shared out evenly over the same bands.
     """
@@ -409,6 +410,12 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
             "recovery_fraction": rec["fraction"] if rec else None,
             "n_trials": rec["n_trials"] if rec else 0,
         })
+    if "solar_elong_deg" in geo and n:
+        near_sun = geo["solar_elong_deg"] < sun_caution_deg
+        if np.any(near_sun):
+            notes.append(f"caution: {int(near_sun.sum())} of {n} times are at solar elongation below "
+                         f"{sun_caution_deg:g}° (least {float(geo['solar_elong_deg'].min()):.1f}°). Pointing near "
+                         "the Sun can destroy equipment and blind people; the observatory's own rules prevail")
     if exposure_s is not None and np.size(exposure_s) and np.any(np.isfinite(exposure_s)):
         longest_s = float(np.nanmax(np.asarray(exposure_s, dtype=float)))
         if longest_s / 3600.0 > min_period_h / phase_bins:

@@ -101,7 +101,7 @@ def test_geometry_arrays_give_trend_and_synodic_drift():
     days = (times - times[0]).astype("timedelta64[s]").astype(float) / 86400
     geo = {"helio_dist_au": 1.5 + 0.01 * days, "obs_dist_au": 0.6 + 0.005 * days,
            "phase_angle_deg": 30 + 0 * days, "pab_lon_deg": 100 + 2.0 * days,
-           "pab_lat_deg": 1 + 0 * days,
+           "pab_lat_deg": 1 + 0 * days, "solar_elong_deg": 25 + 10 * days,
            "mag_pred": 12 + 5 * np.log10(0.6 + 0.005 * days) + 10 * np.log10(1.5 + 0.01 * days)}
     r = check_times(times, min_period_h=3, max_period_h=20, trials=40, geometry={"geocentre": geo})
     assert r.trend["geometric_trend_used"]
@@ -110,6 +110,8 @@ def test_geometry_arrays_give_trend_and_synodic_drift():
         assert p["synodic_offset_h"] == pytest.approx(2 / 360 * p["period_h"] ** 2 / 24)
         assert p["exceeds_precision"] == (p["synodic_offset_h"] > p["period_sigma_h"])
     assert all(b["recovery_fraction"] >= 0.9 for b in r.bands)
+    # safety: the first half day is closer than 30° to the Sun, and the output says so
+    assert any(note.startswith("caution:") and "observatory" in note for note in r.notes)
 
 
 def test_no_trials_and_unsorted_input():
@@ -131,3 +133,18 @@ def test_too_few_times_is_reported_not_crashed():
     r = check_times(single_site(1)[:3], min_period_h=2, max_period_h=10, trials=20)
     assert r.notes and r.recovery == []
     json.dumps(r.to_dict(), allow_nan=False)
+
+
+def test_real_target_geometry_path(root):
+    # Once the geometry module is present: the demo target through planner.ephemeris.geometry.
+    pytest.importorskip("planner.ephemeris")
+    from planner.targets import load_target
+
+    path = root / "demo_targets" / "c2034-b3-quillfeather.toml"
+    if not path.exists():
+        pytest.skip("demo target not in this build")
+    target = load_target(path)
+    times = multi_site(4)
+    r = check_times(times, min_period_h=3, max_period_h=20, trials=20, target=target)
+    assert r.trend["geometric_trend_used"] and r.synodic is not None
+    assert np.isfinite(r.synodic["pab_lon_rate_deg_per_day"])

@@ -72,7 +72,7 @@ def _duration(hours: float | None) -> str:
 def render_table(d: dict) -> str:
     """The short readable summary of a check (``d`` is ``CheckResult.to_dict()``)."""
     s, inp = d["settings"], d["input"]
-    lines = []
+    lines = [f"CAUTION: {note.removeprefix('caution: ')}" for note in d["notes"] if note.startswith("caution")]
     sites = ", ".join(f"{k} {v}" for k, v in inp["sites"].items()) or "not given"
     lines.append(f"{inp['n_times']} times, {inp['first_utc']} to {inp['last_utc']} "
                  f"(span {inp['baseline_h']:.1f} h); sites: {sites}")
@@ -139,7 +139,8 @@ def render_table(d: dict) -> str:
                      f"1σ period precision for {len(over)} of {len(syn['periods'])} candidate periods"
                      + (f" (from {over[0]['period_h']:.3g} h)" if over else ""))
     for note in d["notes"]:
-        lines.append(f"Note: {note}")
+        if not note.startswith("caution"):
+            lines.append(f"Note: {note}")
     return "\n".join(lines) + "\n"
 
 
