@@ -225,15 +225,56 @@ def _partners_in_range(freq_per_day: float, peaks_f: np.ndarray, peaks_h: np.nda
     return out
 
 
+def alias_failures(true_freq_per_day: np.ndarray, found_freq_per_day: np.ndarray,
+                   peak_freq_per_day: np.ndarray, tolerance_freq_per_day: float,
+                   double_peaked: bool = True) -> np.ndarray:
+    """True where a wrong winner lies on an alias of the injected signal.
+
+    The light curve carries power at g = f (and 2f); a trial frequency φ fits harmonics φ and 2φ.
+    A win is an alias when k·φ lands on g ± f_w for a window peak f_w (k = 1, 2; VanderPlas 2018,
+    §4) or on g itself (a harmonic confusion, e.g. twice the period), within the tolerance.
+    ``found_freq_per_day`` may be (n,) or (n, m) (m trial frequencies per injected signal).
+    """
+    f = np.asarray(true_freq_per_day, dtype=float).reshape(-1, 1, 1)
+    phi = np.asarray(found_freq_per_day, dtype=float)
+    phi = phi.reshape(phi.shape[0], -1, 1)
+    signal = np.concatenate([f, 2 * f], axis=2) if double_peaked else f  # (n, 1, g)
+    pk = np.asarray(peak_freq_per_day, dtype=float)
+    shifts = np.concatenate([[0.0], pk, -pk])
+    targets = (signal[..., None] + shifts).reshape(f.shape[0], 1, -1)  # (n, 1, g·s)
+    hit = np.zeros(phi.shape[:2], dtype=bool)
+    for k in (1, 2):
+        hit |= np.any(np.abs(k * phi - targets) <= k * tolerance_freq_per_day, axis=2)
+    return hit.reshape(np.shape(found_freq_per_day))
+
+
+def alias_chance(true_freq_per_day: np.ndarray, search_freq_per_day: np.ndarray,
+                 peak_freq_per_day: np.ndarray, tolerance_freq_per_day: float,
+                 double_peaked: bool = True) -> np.ndarray:
+    """Per injected signal: the probability that a winner drawn uniformly from the search grid
+    would pass :func:`alias_failures` by chance (the baseline that noise alone reaches)."""
+    out = np.empty(np.size(true_freq_per_day))
+    grid = np.asarray(search_freq_per_day, dtype=float)[None, :]
+    for i, f in enumerate(np.ravel(true_freq_per_day)):
+        out[i] = alias_failures(np.array([f]), grid, peak_freq_per_day, tolerance_freq_per_day,
+                                double_peaked).mean()
+    return out
+
+
 def _verdict(cov_band: np.ndarray, rec: dict | None, alias_max: float, s: CheckSettings) -> str:
     """under-covered if more than a quarter of the band's periods fall below the coverage
-    threshold (or no trial came back); alias-prone if recovery misses the threshold or an alias
-    partner reaches the alias threshold; otherwise secure."""
+    threshold; if recovery misses its threshold, alias-prone when aliases explain at least half
+    of the failures beyond what chance gives (κ = (observed − expected)/(failures − expected)
+    ≥ 0.5), under-covered when noise or missing phases do; alias-prone if an alias partner
+    reaches the alias threshold; otherwise secure."""
     poor = float(np.mean(cov_band < s.coverage_threshold)) if cov_band.size else 1.0
     if poor > 0.25:
         return "under-covered"
     if rec is not None and rec["n_trials"] and rec["fraction"] < s.recovery_threshold:
-        return "alias-prone" if rec["fraction"] > 0 else "under-covered"
+        failures = rec["failures_alias"] + rec["failures_other"]
+        expected = rec["failures_alias_expected"]
+        excess = (rec["failures_alias"] - expected) / (failures - expected) if failures > expected else 0.0
+        return "alias-prone" if excess >= 0.5 else "under-covered"
     if alias_max >= s.alias_threshold:
         return "alias-prone"
     return "secure"
@@ -335,11 +376,22 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
     rec_list = []
     rec_trials = []
     if recovery is not None:
-        for b in recovery.bins:
+        wrong = recovery.match == "wrong"
+        strong_pk = pk_f[pk_h >= 0.25]
+        explained = wrong & alias_failures(24.0 / recovery.true_period_h, 24.0 / recovery.found_period_h,
+                                           strong_pk, recovery.tolerance_freq_per_day, double_peaked)
+        chance = np.zeros(wrong.size)
+        chance[wrong] = alias_chance(24.0 / recovery.true_period_h[wrong], recovery.search_freq_per_day,
+                                     strong_pk, recovery.tolerance_freq_per_day, double_peaked)
+        for i, b in enumerate(recovery.bins):
+            inside = recovery.bin_index == i
             rec_list.append({"period_h": b.period_h, "min_period_h": b.min_period_h,
                              "max_period_h": b.max_period_h, "n_trials": b.n_trials,
                              "fraction": b.fraction, "fraction_at_period": b.fraction_at_period,
                              "fraction_at_half_period": b.fraction_at_half_period,
+                             "failures_alias": int(np.sum(inside & explained)),
+                             "failures_other": int(np.sum(inside & wrong & ~explained)),
+                             "failures_alias_expected": float(np.sum(chance[inside])),
                              "confusions": b.confusions})
         rec_trials = [{"true_period_h": float(a), "found_period_h": float(b), "amplitude_mag": float(c),
                        "match": str(m)} for a, b, c, m in zip(
@@ -408,6 +460,9 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
             "largest_phase_gap_max": float(gb.max()) if gb.size else None,
             "alias_height_max": alias_max,
             "recovery_fraction": rec["fraction"] if rec else None,
+            "failures_alias": rec["failures_alias"] if rec else 0,
+            "failures_other": rec["failures_other"] if rec else 0,
+            "failures_alias_expected": rec["failures_alias_expected"] if rec else 0.0,
             "n_trials": rec["n_trials"] if rec else 0,
         })
     if "solar_elong_deg" in geo and n:

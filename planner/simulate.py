@@ -119,6 +119,7 @@ class RecoveryResult:
     bins: list[RecoveryBin]
     tolerance_freq_per_day: float
     search_freq_per_day: np.ndarray
+    bin_index: np.ndarray  # per trial: index into ``bins``
 
 
 def classify_matches(true_freq_per_day: np.ndarray, found_freq_per_day: np.ndarray,
@@ -204,4 +205,4 @@ def injection_recovery(times_jd: np.ndarray, *, min_period_h: float, max_period_
         ))
     return RecoveryResult(true_period_h=periods, found_period_h=24.0 / best_f, amplitude_mag=amps,
                           match=match, bins=bins, tolerance_freq_per_day=tol,
-                          search_freq_per_day=freqs)
+                          search_freq_per_day=freqs, bin_index=which)

@@ -148,3 +148,27 @@ def test_real_target_geometry_path(root):
     r = check_times(times, min_period_h=3, max_period_h=20, trials=20, target=target)
     assert r.trend["geometric_trend_used"] and r.synodic is not None
     assert np.isfinite(r.synodic["pab_lon_rate_deg_per_day"])
+
+
+def test_alias_failures_tell_sampling_from_noise():
+    # f = 2 c/d with window peaks at 1 c/d: a winner at 3 c/d (f + 1) or 1.5 c/d (2f − 1, fitted
+    # as the 2nd harmonic of 1.5) is an alias; 4.37 c/d is not (VanderPlas 2018, §4).
+    from planner.diagnostics import alias_failures
+
+    true = np.array([2.0, 2.0, 2.0, 2.0])
+    found = np.array([3.0, 1.5, 4.37, 1.0])
+    got = alias_failures(true, found, np.array([1.0]), 0.01)
+    assert list(got) == [True, True, False, True]
+
+
+def test_noisy_sparse_data_are_under_covered_not_alias_prone():
+    # Three short nights at one site with noise far above the amplitude: failures are noise.
+    times = _times(np.concatenate([n * 24 + 20 + np.arange(12) / 4 for n in range(3)]))
+    r = check_times(times, min_period_h=2, max_period_h=10, trials=60, seed=2, mag_err=0.5,
+                    amplitude_range_mag=(0.05, 0.1), alias_threshold=1.01)
+    assert all(b["verdict"] == "under-covered" for b in r.bands)
+    # winners land on alias frequencies no more often than a random frequency would
+    observed = sum(b["failures_alias"] for b in r.bands)
+    expected = sum(b["failures_alias_expected"] for b in r.bands)
+    failures = observed + sum(b["failures_other"] for b in r.bands)
+    assert observed - expected < 0.5 * (failures - expected)
