@@ -88,3 +88,20 @@ def test_read_log_defaults_and_order(tmp_path):
     assert np.isnan(log.mag_err[0]) and log.mag_err_or(0.05)[0] == 0.05 and log.mag_err_or(0.05)[1] == 0.015
     with pytest.raises(InputError):
         read_observation_log(tmp_path)
+
+
+def test_target_adds_geometric_trend_and_synodic_drift(root, tmp_path):
+    # The demo target through planner.ephemeris.geometry; the command reports the bisector motion.
+    hours = np.concatenate([n * 24 + start + np.arange(20) / 4 for n in range(4) for start in (20, 4, 12)])
+    log = tmp_path / "demo.csv"
+    base = np.datetime64("2034-03-16T00:00", "s")
+    times = base + np.round(hours * 3600).astype("int64").astype("timedelta64[s]")
+    log.write_text("time_utc\n" + "".join(f"{t}Z\n" for t in times))
+    out = tmp_path / "c.json"
+    r = _run(log, "--target", root / "demo_targets" / "c2034-b3-quillfeather.toml", "--trials", "20",
+             "--format", "json", "--out", out)
+    assert r.returncode == 0, r.stderr
+    d = json.loads(out.read_text())
+    assert d["trend"]["geometric_trend_used"] and d["synodic"]["pab_lon_rate_deg_per_day"] is not None
+    r = _run(log, "--target", tmp_path / "nope.toml", "--trials", "0")
+    assert r.returncode == 2 and r.stderr.startswith("error: ") and r.stderr.count("\n") == 1

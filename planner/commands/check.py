@@ -124,6 +124,9 @@ def render_table(d: dict) -> str:
     lines.append(f"Trend: fading-rate σ {_f(tr['rate_sigma_mag_per_day'], '.2g')} mag/day (worst period, "
                  f"median {_f(tr['rate_sigma_median_mag_per_day'], '.2g')}); smallest extra fading at "
                  f"{s['n_sigma']:g}σ {_f(tr['min_detectable_mag_per_day'], '.2g')} mag/day")
+    if tr.get("geometric_trend_used"):
+        lines.append(f"Geometric trend of the target over the span: {tr['geometric_trend_range_mag']:.3g} mag "
+                     "(known from r and Δ; fitted in the injection search)")
     lines.append(f"Longest gap between visits: {_duration(tr['longest_gap_h'])} "
                  f"({tr['longest_gap_start_utc']} → {tr['longest_gap_end_utc']})")
     pc = d["period_change"]
@@ -182,10 +185,8 @@ def register(app: typer.Typer) -> None:
         log = read_observation_log(times_csv)
         tgt = None
         if target is not None:
-            try:
-                from planner.targets import load_target
-            except ImportError:  # the geometry module has not landed in this build
-                raise InputError(str(target), "-", "target files are not supported by this build yet") from None
+            from planner.targets import load_target
+
             tgt = load_target(target)
         show = sys.stderr.isatty() if progress is None else progress
         bar = _Progress("injection–recovery") if show and trials > 0 else None
