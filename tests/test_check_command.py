@@ -9,6 +9,7 @@ import sys
 import numpy as np
 import pytest
 
+from planner.cli import main
 from planner.errors import InputError
 from planner.obslog import read_observation_log
 
@@ -27,6 +28,17 @@ def _write_log(path, hours, sites=None, extra=""):
 def _run(*args):
     return subprocess.run([sys.executable, "-m", "planner", "check", *map(str, args)],
                           capture_output=True, text=True, timeout=120)
+
+
+def _call(capsys, *args) -> tuple[int, str, str]:
+    """In-process run (fast): exit status, stdout, stderr."""
+    try:
+        main(["check", *map(str, args)])
+        code = 0
+    except SystemExit as exc:
+        code = exc.code or 0
+    out = capsys.readouterr()
+    return code, out.out, out.err
 
 
 @pytest.fixture
@@ -61,24 +73,24 @@ def test_table_json_out_and_plots(single_log, tmp_path):
     ("time_utc\n", "time_utc: no observation times"),
     ("time_utc,exposure_s\n2034-03-10T20:00Z,abc\n", "exposure_s (row 1): 'abc' is not a number"),
 ])
-def test_bad_log_is_one_line_exit_2(tmp_path, content, message):
+def test_bad_log_is_one_line_exit_2(capsys, tmp_path, content, message):
     f = tmp_path / "bad.csv"
     f.write_text(content)
-    r = _run(f, "--trials", "0")
-    assert r.returncode == 2
-    assert r.stderr.count("\n") == 1 and "Traceback" not in r.stderr
-    assert r.stderr.startswith(f"error: {f}: ") and message in r.stderr
+    code, _, err = _call(capsys, f, "--trials", "0")
+    assert code == 2
+    assert err.count("\n") == 1 and "Traceback" not in err
+    assert err.startswith(f"error: {f}: ") and message in err
 
 
-def test_bad_options_exit_2(single_log, tmp_path):
+def test_bad_options_exit_2(capsys, single_log, tmp_path):
     for args, field in ((["--min-period", "soon"], "--min-period"),
                         (["--min-period", "30h", "--max-period", "2h"], "--max-period"),
                         (["--format", "xml"], "--format"),
                         (["--amplitude", "big"], "--amplitude")):
-        r = _run(single_log, *args)
-        assert r.returncode == 2 and r.stderr.startswith("error: command line: " + field), r.stderr
-    r = _run(tmp_path / "missing.csv")
-    assert r.returncode == 2 and "file not found" in r.stderr
+        code, _, err = _call(capsys, single_log, *args)
+        assert code == 2 and err.startswith("error: command line: " + field), err
+    code, _, err = _call(capsys, tmp_path / "missing.csv")
+    assert code == 2 and "file not found" in err
 
 
 def test_read_log_defaults_and_order(tmp_path):
@@ -103,5 +115,9 @@ def test_target_adds_geometric_trend_and_synodic_drift(root, tmp_path):
     assert r.returncode == 0, r.stderr
     d = json.loads(out.read_text())
     assert d["trend"]["geometric_trend_used"] and d["synodic"]["pab_lon_rate_deg_per_day"] is not None
-    r = _run(log, "--target", tmp_path / "nope.toml", "--trials", "0")
-    assert r.returncode == 2 and r.stderr.startswith("error: ") and r.stderr.count("\n") == 1
+
+
+
+def test_missing_target_file_exit_2(capsys, single_log, tmp_path):
+    code, _, err = _call(capsys, single_log, "--target", tmp_path / "nope.toml", "--trials", "0")
+    assert code == 2 and err.startswith("error: ") and err.count("\n") == 1
