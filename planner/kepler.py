@@ -16,9 +16,10 @@ obliquity ε₀ = 84381.448″. The 23 mas frame bias between that frame and the
 same convention the Minor Planet Center's elements and skyfield's ``ECLIPJ2000`` frame use).
 
 Gravitational parameter: GM☉ = k² with the Gaussian constant k = 0.01720209895 au^(3/2) day^-1
-(IAU 1976). DE421 uses the same value, GMS = 2.959122082855911e-4 au³ day⁻² (Folkner et al. 2008,
-JPL IOM 343R-08-003, Table: "GMS = k²"), so our heliocentric orbits are consistent with the
-bundled planetary ephemeris. Time argument: TDB Julian dates (the elements' TT/TDB difference,
+(IAU 1976). DE421 uses the same value, GMS = 2.959122082855911e-4 au³ day⁻² (Folkner, Williams &
+Boggs 2008, JPL IOM 343R-08-003: the au of DE421 is fitted so that GMS = k²; citation from memory,
+and k² = 2.9591220828559115e-4 reproduces that value to all 16 digits), so our heliocentric orbits
+are consistent with the bundled planetary ephemeris. Time argument: TDB Julian dates (the elements' TT/TDB difference,
 < 2 ms, is neglected).
 """
 

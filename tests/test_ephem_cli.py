@@ -105,15 +105,24 @@ def test_failed_run_keeps_the_existing_output(root, tmp_path, capsys, monkeypatc
      "error: command line: format:"),
     (["--target", DEMO, "--object", "X", "--start", "2034-03-19", "--stop", "2034-03-20"],
      "error: demo_targets/c2034-b3-quillfeather.toml: object:"),
+    (["--target", DEMO, "--site", "sites/karoo-ridge.toml", "--site", "sites/karoo-ridge.toml",
+      "--start", "2034-03-19", "--stop", "2034-03-20"],
+     "error: sites/karoo-ridge.toml: name: two sites are both called 'Karoo Ridge'"),
     (["--target", "tests/data/mpc_comets.txt", "--start", "2034-03-19", "--stop", "2034-03-20"],
      "error: tests/data/mpc_comets.txt: object: the file holds 3 orbit lines"),
 ])
-def test_bad_input_exits_2_with_one_line(root, args, expected):
+def test_bad_input_exits_2_with_one_line(root, capsys, monkeypatch, args, expected):
     # House rule: bad input -> one line `error: FILE: FIELD: message`, exit status 2, no traceback.
-    proc = run(root, *args)
-    assert proc.returncode == 2
-    assert proc.stderr.count("\n") == 1 and proc.stderr.startswith(expected), proc.stderr
-    assert "Traceback" not in proc.stderr
+    monkeypatch.chdir(root)
+    code, out, err = call(capsys, *args)
+    assert code == 2 and out == ""
+    assert err.count("\n") == 1 and err.startswith(expected), err
+
+
+def test_bad_input_in_a_real_process_has_no_traceback(root):
+    proc = run(root, "--target", DEMO, "--start", "2034-03-19", "--stop", "2034-03-20", "--step", "-5m")
+    assert proc.returncode == 2 and "Traceback" not in proc.stderr
+    assert proc.stderr == "error: command line: step: '-5m' is not a duration like 30s, 5m, 2h or 1d\n"
 
 
 def test_mpc_line_through_the_command(root, capsys, monkeypatch):

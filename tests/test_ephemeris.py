@@ -73,9 +73,9 @@ def _astropy_route(target: Target, times_utc: np.ndarray, site: Site | None):
     from astropy.utils import iers
 
     eph = _de421_path()
-    t = Time(times_utc.astype("datetime64[ns]").astype(str).tolist(), scale="utc")
     with warnings.catch_warnings(), iers.conf.set_temp("iers_degraded_accuracy", "ignore"):
-        warnings.simplefilter("ignore")
+        warnings.simplefilter("ignore")  # ERFA's "dubious year" for dates past its leap-second table
+        t = Time(times_utc.astype("datetime64[ns]").astype(str).tolist(), scale="utc")
         obs = get_body_barycentric_posvel("earth", t, ephemeris=eph)[0].xyz.to_value(u.au).T
         if site is not None:
             loc = EarthLocation.from_geodetic(site.longitude_deg * u.deg, site.latitude_deg * u.deg,
@@ -196,6 +196,16 @@ def test_sun_and_moon_columns_match_astropy_and_astroplan():
     assert np.abs(frame["sun_alt_deg"].to_numpy() - sun.alt.deg).max() < 40 / 3600
     assert np.abs(frame["moon_alt_deg"].to_numpy() - moon.alt.deg).max() < 60 / 3600
     assert np.abs(frame["moon_illum"].to_numpy() - illum).max() < 0.01
+    # Moon–target separation by astropy's SkyCoord.separation (Vincenty formula); astropy's Moon is
+    # apparent (aberration ≈ 20") and ours geometric, hence 0.01°.
+    from astropy.coordinates import SkyCoord
+
+    tgt = SkyCoord(frame["ra_deg"].to_numpy() * u.deg, frame["dec_deg"].to_numpy() * u.deg)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        moon_gcrs = get_body("moon", t, loc)
+        sep = SkyCoord(moon_gcrs.ra, moon_gcrs.dec).separation(tgt).deg
+    assert np.abs(frame["moon_sep_deg"].to_numpy() - sep).max() < 0.01
     assert np.allclose(sun_alt_deg(SITE, times), frame["sun_alt_deg"], atol=1e-9)
     assert np.allclose(moon_alt_deg(SITE, times), frame["moon_alt_deg"], atol=1e-9)
 

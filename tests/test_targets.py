@@ -57,6 +57,15 @@ def test_toml_comet_fields(tmp_path):
     assert t.brightness.M1 == 11.5 and t.brightness.M2 is None
 
 
+def test_toml_native_datetimes_and_julian_dates_are_accepted(tmp_path):
+    # TOML's own date-time values (RFC 3339) and plain Julian dates both name TDB instants.
+    text = GOOD.replace('perihelion_time = "2034-02-20T12:00:00"', "perihelion_time = 2034-02-20T12:00:00Z")
+    text = text.replace('epoch = "2034-03-01"', "epoch = 2464022.5")
+    t = load_target(_write(tmp_path, text))
+    assert t.orbit.perihelion_tdb_jd == pytest.approx(2464014.0, abs=1e-9)
+    assert t.orbit.epoch_tdb_jd == 2464022.5
+
+
 def test_toml_asteroid_mean_anomaly_gives_perihelion_time(tmp_path):
     # T = epoch - M/n with n = k / a^1.5 (Gauss); q = a (1 - e). Checked: propagating to the epoch gives
     # the mean anomaly back through Kepler's equation (Meeus 1998, ch. 30).

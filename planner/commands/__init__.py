@@ -1,5 +1,5 @@
 """One module per command; each exposes ``register(app)``. Add new commands to COMMAND_MODULES."""
 
-from planner.commands import ephem, plan
+from planner.commands import check, ephem, plan
 
-COMMAND_MODULES = [ephem, plan]
+COMMAND_MODULES = [ephem, check, plan]

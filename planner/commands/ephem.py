@@ -164,9 +164,6 @@ def register(app: typer.Typer) -> None:
         utc_times(np.array([t0, t1]), "command line", "start/stop")  # inside DE421's span?
         tgt = load_target(target, object_name)
         sites = [load_site(p) for p in (site or [])]
-        names = [s.name for s in sites]
-        if len(set(names)) != len(names):
-            raise InputError("command line", "site", "two site files share one name")
         frames = geometry(tgt, time_grid(t0, t1, step_s), sites, min_solar_elong_deg=min_elong)
         caution = safety_warning(frames)
         if fmt == "table":
