@@ -1,0 +1,313 @@
+"""Observable windows per site and night, and why a night has none.
+
+For each site-night the dark time (:func:`planner.nights.dark_intervals`) is sampled every
+``step_s`` seconds; the target's sky position there is tested against the site's limits (horizon
+mask at the target's azimuth, declination range, hour-angle limit, solar elongation, Moon
+separation, allocated time blocks); runs of samples meeting every limit are the windows, and each
+edge that falls between samples is refined by bisection to ``tol_s`` (:mod:`planner.intervals`).
+
+Pointing near the Sun can destroy equipment and blind people: windows limited by solar elongation,
+and windows that open or close in twilight, carry a caution. The observatory's rules decide.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from datetime import date
+
+import numpy as np
+import pandas as pd
+
+from planner.errors import InputError
+from planner.intervals import refine_edges, true_runs
+from planner.nights import EDGE_TOL_S, dark_intervals, local_iso, night_labels, spans_grid
+from planner.sites import Site
+
+#: Sky provider: UTC times per site name → one geometry row per time (columns of docs/formats.md).
+SkyAt = Callable[[dict[str, np.ndarray]], dict[str, pd.DataFrame]]
+
+#: The limits tested in darkness, in the order used to name the one that closes a window.
+LIMITS = ("sun_elong", "dec_range", "horizon", "hour_angle", "moon", "allocation")
+
+#: Solar elongation margin above the site's limit within which a window carries the Sun caution.
+SUN_CAUTION_MARGIN_DEG = 10.0
+
+SUN_CAUTION = ("pointing near the Sun can destroy equipment and blind people; the observatory's rules "
+               "decide")
+
+WINDOW_COLUMNS = (
+    "site", "night", "start_utc", "end_utc", "start_local", "end_local", "hours", "night_budget_h",
+    "best_utc", "min_airmass", "max_alt_deg", "moon_sep_deg", "moon_illum", "solar_elong_deg", "mag_pred",
+    "motion_arcsec_min", "start_limit", "end_limit", "reason", "caution",
+)
+
+
+def moon_limit_deg(site: Site, moon_illum: np.ndarray) -> np.ndarray:
+    """Least Moon separation allowed: ``moon_min_sep_deg + moon_sep_per_illum_deg × illuminated fraction``."""
+    return site.moon_min_sep_deg + site.moon_sep_per_illum_deg * np.asarray(moon_illum, dtype=float)
+
+
+def in_blocks(times_utc: np.ndarray, blocks_utc: Sequence[tuple[np.datetime64, np.datetime64]]) -> np.ndarray:
+    """True where a time lies inside one of the sorted, half-open blocks [start, end)."""
+    t = np.asarray(times_utc, dtype="datetime64[ns]")
+    if not blocks_utc:
+        return np.ones(t.shape, dtype=bool)
+    starts = np.array([a for a, _ in blocks_utc], dtype="datetime64[ns]")
+    ends = np.array([b for _, b in blocks_utc], dtype="datetime64[ns]")
+    i = np.searchsorted(starts, t, side="right") - 1
+    return (i >= 0) & (t < ends[np.maximum(i, 0)])
+
+
+def limit_masks(site: Site, sky: pd.DataFrame) -> dict[str, np.ndarray]:
+    """Each pointing limit of the site tested on geometry rows: True where the limit is met.
+
+    The Moon limit applies only while the Moon's centre is above the horizon (moon_alt_deg > 0).
+    """
+    n = len(sky)
+    alt = sky["alt_deg"].to_numpy(float)
+    masks = {"sun_elong": sky["solar_elong_deg"].to_numpy(float) >= site.min_solar_elong_deg,
+             "horizon": alt >= site.horizon_alt_deg(sky["az_deg"].to_numpy(float))}
+    dec = sky["dec_deg"].to_numpy(float)
+    masks["dec_range"] = ((dec >= site.dec_range_deg[0]) & (dec <= site.dec_range_deg[1])
+                          if site.dec_range_deg else np.ones(n, dtype=bool))
+    masks["hour_angle"] = (np.abs(sky["hour_angle_h"].to_numpy(float)) <= site.max_hour_angle_h
+                           if site.max_hour_angle_h is not None else np.ones(n, dtype=bool))
+    masks["moon"] = (sky["moon_alt_deg"].to_numpy(float) <= 0.0) | (
+        sky["moon_sep_deg"].to_numpy(float) >= moon_limit_deg(site, sky["moon_illum"].to_numpy(float)))
+    masks["allocation"] = in_blocks(sky["time_utc"].to_numpy(), site.allocation.blocks_utc)
+    return {k: masks[k] for k in LIMITS}
+
+
+def _all_met(masks: dict[str, np.ndarray]) -> np.ndarray:
+    return np.logical_and.reduce([masks[k] for k in LIMITS])
+
+
+def _first_failed(masks: dict[str, np.ndarray]) -> np.ndarray:
+    """Name of the first limit (in LIMITS order) not met at each row; '' where all are met."""
+    names = np.array(LIMITS + ("",), dtype=object)
+    table = np.stack([~masks[k] for k in LIMITS] + [np.ones_like(masks[LIMITS[0]])])
+    return names[np.argmax(table, axis=0)]
+
+
+def _hours(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    return (np.asarray(b, "datetime64[ns]") - np.asarray(a, "datetime64[ns]")).astype(np.int64) / 3.6e12
+
+
+def _no_window_reason(site: Site, sky: pd.DataFrame, masks: dict[str, np.ndarray]) -> str:
+    """Plain words for a night whose dark time never meets every limit (``sky``: its dark samples)."""
+    alone = [k for k in LIMITS if not masks[k].any()]
+    dec = sky["dec_deg"].to_numpy(float)
+    words = []
+    for k in alone:
+        if k == "horizon":
+            transit_deg = float(np.max(90.0 - np.abs(site.latitude_deg - dec)))
+            dark_max = float(sky["alt_deg"].max())
+            if transit_deg < 0.0:
+                words.append(f"never rises at this latitude (dec {np.median(dec):+.1f}°, "
+                             f"highest {transit_deg:.1f}° at transit)")
+            elif transit_deg < float(np.min(site.horizon_alt_deg(np.array([0.0, 90.0, 180.0, 270.0])))):
+                words.append(f"never climbs above the horizon limit (highest {transit_deg:.1f}° at transit)")
+            else:
+                words.append(f"below the horizon limit all dark time (highest {dark_max:.1f}° in darkness)")
+        elif k == "sun_elong":
+            words.append(f"too close to the Sun: elongation {sky['solar_elong_deg'].max():.1f}° < "
+                         f"{site.min_solar_elong_deg:g}° ({SUN_CAUTION})")
+        elif k == "dec_range":
+            words.append(f"declination {np.median(dec):+.1f}° outside the mount's range "
+                         f"[{site.dec_range_deg[0]:g}, {site.dec_range_deg[1]:g}]")
+        elif k == "hour_angle":
+            words.append(f"beyond the hour-angle limit ±{site.max_hour_angle_h:g} h all dark time")
+        elif k == "moon":
+            words.append(f"Moon too close all dark time ({sky['moon_sep_deg'].min():.0f}° from a "
+                         f"{100 * sky['moon_illum'].mean():.0f}% lit Moon)")
+        elif k == "allocation":
+            words.append("outside the allocated time blocks")
+    if words:
+        return "; ".join(words)
+    partial = [k for k in LIMITS if not masks[k].all()]
+    return f"no dark time meets all limits at once ({', '.join(_LIMIT_WORD[k] for k in partial)})"
+
+
+_LIMIT_WORD = {"sun_elong": "solar elongation", "dec_range": "declination range", "horizon": "horizon limit",
+               "hour_angle": "hour-angle limit", "moon": "Moon separation", "allocation": "allocation",
+               "twilight": "twilight", "noon": "night's noon edge"}
+
+
+def find_windows(
+    sky_at: SkyAt,
+    sites: Sequence[Site],
+    first_night: date,
+    nights: int,
+    *,
+    step_s: float = 300.0,
+    tol_s: float = EDGE_TOL_S,
+) -> pd.DataFrame:
+    """Observable windows from any sky provider (the core of :func:`observable_windows`).
+
+    ``sky_at({site_name: times_utc})`` returns geometry rows per site for those times. Calls it once
+    for the coarse grid, once per bisection halving (all sites and edges together) and once for the
+    edge and best-time values.
+    """
+    names = [s.name for s in sites]
+    if len(set(names)) != len(names):
+        raise InputError("command line", "site",
+                         f"two sites share a name ({', '.join(names)}); names must differ")
+    if step_s <= 0 or tol_s <= 0:
+        raise InputError("command line", "step", "the grid step and the edge tolerance must be positive")
+    labels = night_labels(first_night, nights)
+
+    # Dark time per site-night, then a grid over it.
+    dark, grid, span_of, dark_on = {}, {}, {}, {}
+    for s in sites:
+        d = dark_intervals(s, first_night, nights, tol_s=tol_s)
+        dark[s.name] = d
+        dark_on[s.name] = d[d["hours"] > 0].reset_index(drop=True)
+        grid[s.name], span_of[s.name] = spans_grid(dark_on[s.name]["start_utc"].to_numpy(),
+                                                   dark_on[s.name]["end_utc"].to_numpy(), step_s)
+    sky = sky_at(grid)
+    masks = {s.name: limit_masks(s, sky[s.name]) for s in sites}
+
+    # Runs of samples meeting every limit; edges inside a dark span are bracketed for bisection.
+    runs, brackets = {}, []
+    for s in sites:
+        t, span = grid[s.name], span_of[s.name]
+        first, last = true_runs(_all_met(masks[s.name]), span)
+        opens = (first == 0) | (span[np.maximum(first - 1, 0)] != span[first])
+        closes = (last == t.size - 1) | (span[np.minimum(last + 1, max(t.size - 1, 0))] != span[last])
+        runs[s.name] = (first, last, opens, closes)
+        for idx, is_edge, step in ((first, opens, -1), (last, closes, +1)):
+            sel = idx[~is_edge]
+            brackets.append((s.name, t[sel], t[sel + step]))
+    site_of = np.concatenate([np.full(b[1].size, b[0], dtype=object) for b in brackets]) if brackets else []
+    t_in = np.concatenate([b[1] for b in brackets]) if brackets else np.array([], "datetime64[ns]")
+    t_out = np.concatenate([b[2] for b in brackets]) if brackets else np.array([], "datetime64[ns]")
+    by_name = {s.name: s for s in sites}
+
+    def _holds_at(times: np.ndarray) -> np.ndarray:
+        ok = np.zeros(times.size, dtype=bool)
+        sel = {n: np.flatnonzero(site_of == n) for n in names}
+        rows = sky_at({n: times[i] for n, i in sel.items()})
+        for n, i in sel.items():
+            if i.size:
+                ok[i] = _all_met(limit_masks(by_name[n], rows[n]))
+        return ok
+
+    t_in, t_out = refine_edges(_holds_at, t_in, t_out, tol_s)
+
+    # One more call: the refined inner edges, the outer sides (which limit closed the window) and best times.
+    edges, k = {}, 0
+    for s in sites:
+        first, last, opens, closes = runs[s.name]
+        t = grid[s.name]
+        start, end = t[first].copy(), t[last].copy()
+        start_out, end_out = start.copy(), end.copy()  # replaced where an edge was refined
+        n_open, n_close = int((~opens).sum()), int((~closes).sum())
+        start[~opens], start_out[~opens] = t_in[k:k + n_open], t_out[k:k + n_open]
+        k += n_open
+        end[~closes], end_out[~closes] = t_in[k:k + n_close], t_out[k:k + n_close]
+        k += n_close
+        best = _best_times(t, sky[s.name]["alt_deg"].to_numpy(float), first, last, start, end)
+        edges[s.name] = (start, end, start_out, end_out, best)
+    at = sky_at({n: np.concatenate(edges[n]) for n in names})
+
+    rows = []
+    for s in sites:
+        rows.extend(_site_rows(s, labels, dark[s.name], dark_on[s.name], grid[s.name], span_of[s.name],
+                               sky[s.name], masks[s.name], runs[s.name], edges[s.name], at[s.name]))
+    out = pd.DataFrame(rows, columns=list(WINDOW_COLUMNS))
+    for c in ("start_utc", "end_utc", "best_utc"):
+        out[c] = out[c].astype("datetime64[ns]")
+    return out
+
+
+def _best_times(t, alt, first, last, start, end) -> np.ndarray:
+    """Time of highest altitude in each run: the best sample, moved to the vertex of a parabola
+    through it and its neighbours when it is inside the run, kept within [start, end]."""
+    if first.size == 0:
+        return start.copy()
+    run_id = np.repeat(np.arange(first.size), last - first + 1)
+    idx = np.concatenate([np.arange(a, b + 1) for a, b in zip(first, last, strict=True)])
+    order = np.lexsort((-alt[idx], run_id))
+    top = idx[order[np.searchsorted(run_id[order], np.arange(first.size))]]
+    best = t[top].copy()
+    inner = (top > first) & (top < last)
+    i = top[inner]
+    y0, y1, y2 = alt[i - 1], alt[i], alt[i + 1]
+    h_ns = (t[i + 1] - t[i]).astype(np.int64).astype(float)
+    denom = y0 - 2.0 * y1 + y2
+    shift = np.where(denom < 0, 0.5 * (y0 - y2) / np.where(denom < 0, denom, -1.0), 0.0)
+    best[inner] = t[i] + (np.clip(shift, -1.0, 1.0) * h_ns).astype("timedelta64[ns]")
+    return np.clip(best, start, end)
+
+
+def _site_rows(site, labels, dark, dark_on, t, span, sky, masks, runs, edges, at) -> list[dict]:
+    first, last, opens, closes = runs
+    start, end, start_out, end_out, best = edges
+    m = first.size
+    at_start, at_end = at.iloc[:m], at.iloc[m:2 * m]
+    failed_start = _first_failed(limit_masks(site, at.iloc[2 * m:3 * m]))
+    failed_end = _first_failed(limit_masks(site, at.iloc[3 * m:4 * m]))
+    at_best = at.iloc[4 * m:5 * m]
+    run_span = span[first]
+    night_of_run = np.array([labels.index(n) for n in dark_on["night"].to_numpy()[run_span]], dtype=int)
+    hours = _hours(start, end)
+    budget = np.zeros(len(labels))
+    np.add.at(budget, night_of_run, hours)
+    if site.allocation.hours_per_night is not None:
+        budget = np.minimum(budget, site.allocation.hours_per_night)
+    twilight = f"{site.twilight} twilight"
+    rows = []
+    for k, label in enumerate(labels):  # rows per night, then per interval: output assembly only
+        mine = np.flatnonzero(night_of_run == k)
+        if mine.size == 0:
+            rows.append(_empty_row(site, label, dark, dark_on, span, sky, masks, k))
+            continue
+        for j in mine:
+            inside = slice(first[j], last[j] + 1)
+            moon_sep, elong = (min(float(sky[c].iloc[inside].min()), float(at_start[c].iloc[j]),
+                                   float(at_end[c].iloc[j])) for c in ("moon_sep_deg", "solar_elong_deg"))
+            span_row = dark_on.iloc[span[first[j]]]
+            start_limit = (failed_start[j] if not opens[j]
+                           else ("twilight" if span_row["start_is_twilight"] else "noon"))
+            end_limit = (failed_end[j] if not closes[j]
+                         else ("twilight" if span_row["end_is_twilight"] else "noon"))
+            caution = []
+            near_sun = elong < site.min_solar_elong_deg + SUN_CAUTION_MARGIN_DEG
+            if near_sun or "sun_elong" in (start_limit, end_limit):
+                caution.append(f"Sun {elong:.0f}° away: {SUN_CAUTION}")
+            tw = [w for w, lim in (("opens", start_limit), ("closes", end_limit)) if lim == "twilight"]
+            if tw:
+                caution.append(f"{' and '.join(tw)} in {twilight}: keep clear of the Sun's side of the sky")
+            b = at_best.iloc[j]
+            rows.append(dict(
+                site=site.name, night=label, start_utc=start[j], end_utc=end[j],
+                start_local=local_iso(start[j:j + 1], site.timezone)[0],
+                end_local=local_iso(end[j:j + 1], site.timezone)[0], hours=float(hours[j]),
+                night_budget_h=float(budget[k]), best_utc=best[j], min_airmass=float(b["airmass"]),
+                max_alt_deg=float(b["alt_deg"]), moon_sep_deg=moon_sep, moon_illum=float(b["moon_illum"]),
+                solar_elong_deg=elong, mag_pred=float(b["mag_pred"]),
+                motion_arcsec_min=float(b["motion_arcsec_min"]), start_limit=start_limit, end_limit=end_limit,
+                reason="", caution="; ".join(caution)))
+    return rows
+
+
+def _empty_row(site, label, dark, dark_on, span, sky, masks, k) -> dict:
+    """The zero-hour row of a night without a window, with the reason in plain words."""
+    spans_k = np.flatnonzero(dark_on["night"].to_numpy() == label)
+    caution = ""
+    if spans_k.size == 0:
+        reason = str(dark.loc[dark["night"] == label, "reason"].iloc[0])
+        elong = np.nan
+    else:
+        sel = np.isin(span, spans_k)
+        night_masks = {n: v[sel] for n, v in masks.items()}
+        night_sky = sky.iloc[np.flatnonzero(sel)]
+        reason = _no_window_reason(site, night_sky, night_masks)
+        elong = float(night_sky["solar_elong_deg"].min())
+        if not night_masks["sun_elong"].all():
+            caution = f"Sun {elong:.0f}° away: {SUN_CAUTION}"
+    nat = np.datetime64("NaT", "ns")
+    return dict(site=site.name, night=label, start_utc=nat, end_utc=nat, start_local="", end_local="",
+                hours=0.0, night_budget_h=0.0, best_utc=nat, min_airmass=np.nan, max_alt_deg=np.nan,
+                moon_sep_deg=np.nan, moon_illum=np.nan, solar_elong_deg=elong, mag_pred=np.nan, motion_arcsec_min=np.nan,
+                start_limit="", end_limit="", reason=reason, caution=caution)
