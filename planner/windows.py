@@ -309,5 +309,6 @@ def _empty_row(site, label, dark, dark_on, span, sky, masks, k) -> dict:
     nat = np.datetime64("NaT", "ns")
     return dict(site=site.name, night=label, start_utc=nat, end_utc=nat, start_local="", end_local="",
                 hours=0.0, night_budget_h=0.0, best_utc=nat, min_airmass=np.nan, max_alt_deg=np.nan,
-                moon_sep_deg=np.nan, moon_illum=np.nan, solar_elong_deg=elong, mag_pred=np.nan, motion_arcsec_min=np.nan,
+                moon_sep_deg=np.nan, moon_illum=np.nan, solar_elong_deg=elong, mag_pred=np.nan,
+                motion_arcsec_min=np.nan,
                 start_limit="", end_limit="", reason=reason, caution=caution)
