@@ -264,8 +264,8 @@ def _site_rows(site, labels, dark, dark_on, t, span, sky, masks, runs, edges, at
             continue
         for j in mine:
             inside = slice(first[j], last[j] + 1)
-            moon_sep, elong = (min(float(sky[c].iloc[inside].min()), float(at_start[c].iloc[j]),
-                                   float(at_end[c].iloc[j])) for c in ("moon_sep_deg", "solar_elong_deg"))
+            c = "solar_elong_deg"  # the least over the window: the safety figure
+            elong = min(float(sky[c].iloc[inside].min()), float(at_start[c].iloc[j]), float(at_end[c].iloc[j]))
             span_row = dark_on.iloc[span[first[j]]]
             start_limit = (failed_start[j] if not opens[j]
                            else ("twilight" if span_row["start_is_twilight"] else "noon"))
@@ -284,8 +284,8 @@ def _site_rows(site, labels, dark, dark_on, t, span, sky, masks, runs, edges, at
                 start_local=local_iso(start[j:j + 1], site.timezone)[0],
                 end_local=local_iso(end[j:j + 1], site.timezone)[0], hours=float(hours[j]),
                 night_budget_h=float(budget[k]), best_utc=best[j], min_airmass=float(b["airmass"]),
-                max_alt_deg=float(b["alt_deg"]), moon_sep_deg=moon_sep, moon_illum=float(b["moon_illum"]),
-                solar_elong_deg=elong, mag_pred=float(b["mag_pred"]),
+                max_alt_deg=float(b["alt_deg"]), moon_sep_deg=float(b["moon_sep_deg"]),
+                moon_illum=float(b["moon_illum"]), solar_elong_deg=elong, mag_pred=float(b["mag_pred"]),
                 motion_arcsec_min=float(b["motion_arcsec_min"]), start_limit=start_limit, end_limit=end_limit,
                 reason="", caution="; ".join(caution)))
     return rows
