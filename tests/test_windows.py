@@ -54,8 +54,7 @@ def test_windows_match_astroplan_constraints_on_a_fine_grid(ra_deg, dec_deg):
     # astroplan AltitudeConstraint(25°) & AtNightConstraint(−12°) & (MoonSeparationConstraint(40°) or Moon
     # below the horizon) on a 60 s grid: same intervals, each edge within one grid step + our 10 s tolerance.
     import astropy.units as u
-    from astroplan import (AltitudeConstraint, AtNightConstraint, FixedTarget, MoonSeparationConstraint,
-                           Observer)
+    from astroplan import AltitudeConstraint, AtNightConstraint, FixedTarget, MoonSeparationConstraint, Observer
     from astropy.coordinates import EarthLocation, SkyCoord
     from astropy.time import Time
 
