@@ -312,3 +312,44 @@ def _empty_row(site, label, dark, dark_on, span, sky, masks, k) -> dict:
                 moon_sep_deg=np.nan, moon_illum=np.nan, solar_elong_deg=elong, mag_pred=np.nan,
                 motion_arcsec_min=np.nan,
                 start_limit="", end_limit="", reason=reason, caution=caution)
+
+
+def geometry_sky(target, sites: Sequence[Site]) -> SkyAt:
+    """Sky provider from :func:`planner.ephemeris.geometry`: each site's own times, one call per site."""
+    from planner.ephemeris import geometry
+
+    by_name = {s.name: s for s in sites}
+
+    def sky_at(times_by_site: dict[str, np.ndarray]) -> dict[str, pd.DataFrame]:
+        out = {}
+        for name, times in times_by_site.items():
+            times = np.asarray(times, dtype="datetime64[ns]")
+            if times.size == 0:
+                out[name] = pd.DataFrame(columns=["time_utc", *_SKY_COLUMNS])
+                continue
+            out[name] = geometry(target, times, [by_name[name]])[name].reset_index(drop=True)
+        return out
+
+    return sky_at
+
+
+_SKY_COLUMNS = ("ra_deg", "dec_deg", "solar_elong_deg", "mag_pred", "motion_arcsec_min", "alt_deg", "az_deg",
+                "airmass", "hour_angle_h", "sun_alt_deg", "moon_alt_deg", "moon_sep_deg", "moon_illum")
+
+
+def observable_windows(
+    target,
+    sites: Sequence[Site],
+    first_night: date,
+    nights: int,
+    *,
+    step_s: float = 300.0,
+    tol_s: float = EDGE_TOL_S,
+) -> pd.DataFrame:
+    """When ``target`` can be observed from each site on each night, and why not when it cannot.
+
+    One row per observable interval (several per night are possible), or one zero-hour row with a
+    ``reason`` for a night without any. Columns: :data:`WINDOW_COLUMNS`, described in
+    docs/formats.md ("Windows columns"). Edges are refined to ``tol_s`` seconds from a ``step_s`` grid.
+    """
+    return find_windows(geometry_sky(target, sites), sites, first_night, nights, step_s=step_s, tol_s=tol_s)
