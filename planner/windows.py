@@ -210,11 +210,9 @@ def find_windows(
         edges[s.name] = (start, end, start_out, end_out, best)
     at = sky_at({n: np.concatenate(edges[n]) for n in names})
 
-    rows = []
-    for s in sites:
-        rows.extend(_site_rows(s, labels, dark[s.name], dark_on[s.name], grid[s.name], span_of[s.name],
-                               sky[s.name], masks[s.name], runs[s.name], edges[s.name], at[s.name]))
-    out = pd.DataFrame(rows, columns=list(WINDOW_COLUMNS))
+    out = pd.concat([_site_rows(s, labels, dark[s.name], dark_on[s.name], grid[s.name], span_of[s.name],
+                                sky[s.name], masks[s.name], runs[s.name], edges[s.name], at[s.name])
+                     for s in sites], ignore_index=True)[list(WINDOW_COLUMNS)]
     for c in ("start_utc", "end_utc", "best_utc"):
         out[c] = out[c].astype("datetime64[ns]")
     return out
@@ -240,58 +238,67 @@ def _best_times(t, alt, first, last, start, end) -> np.ndarray:
     return np.clip(best, start, end)
 
 
-def _site_rows(site, labels, dark, dark_on, t, span, sky, masks, runs, edges, at) -> list[dict]:
+def _run_values(values: np.ndarray, first: np.ndarray, last: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Concatenated samples of every run and the offsets where each run begins (for ufunc.reduceat)."""
+    idx = np.concatenate([np.arange(a, b + 1) for a, b in zip(first, last, strict=True)])
+    return values[idx], np.concatenate(([0], np.cumsum(last - first + 1)[:-1]))
+
+
+def _site_rows(site, labels, dark, dark_on, t, span, sky, masks, runs, edges, at) -> pd.DataFrame:
+    """Window rows of one site (vectorised over its runs), plus a zero-hour row per night without one."""
     first, last, opens, closes = runs
-    start, end, start_out, end_out, best = edges
+    start, end, _, _, best = edges
     m = first.size
-    at_start, at_end = at.iloc[:m], at.iloc[m:2 * m]
-    failed_start = _first_failed(limit_masks(site, at.iloc[2 * m:3 * m]))
-    failed_end = _first_failed(limit_masks(site, at.iloc[3 * m:4 * m]))
-    at_best = at.iloc[4 * m:5 * m]
-    run_span = span[first]
-    night_of_run = np.array([labels.index(n) for n in dark_on["night"].to_numpy()[run_span]], dtype=int)
-    hours = _hours(start, end)
-    budget = np.zeros(len(labels))
-    np.add.at(budget, night_of_run, hours)
-    if site.allocation.hours_per_night is not None:
-        budget = np.minimum(budget, site.allocation.hours_per_night)
-    twilight = f"{site.twilight} twilight"
-    rows = []
-    for k, label in enumerate(labels):  # rows per night, then per interval: output assembly only
-        mine = np.flatnonzero(night_of_run == k)
-        if mine.size == 0:
-            rows.append(_empty_row(site, label, dark, dark_on, span, sky, masks, k))
-            continue
-        for j in mine:
-            inside = slice(first[j], last[j] + 1)
-            c = "solar_elong_deg"  # the least over the window: the safety figure
-            elong = min(float(sky[c].iloc[inside].min()), float(at_start[c].iloc[j]), float(at_end[c].iloc[j]))
-            span_row = dark_on.iloc[span[first[j]]]
-            start_limit = (failed_start[j] if not opens[j]
-                           else ("twilight" if span_row["start_is_twilight"] else "noon"))
-            end_limit = (failed_end[j] if not closes[j]
-                         else ("twilight" if span_row["end_is_twilight"] else "noon"))
-            caution = []
-            near_sun = elong < site.min_solar_elong_deg + SUN_CAUTION_MARGIN_DEG
-            if near_sun or "sun_elong" in (start_limit, end_limit):
-                caution.append(f"Sun {elong:.0f}° away: {SUN_CAUTION}")
-            tw = [w for w, lim in (("opens", start_limit), ("closes", end_limit)) if lim == "twilight"]
+    empty = [k for k in range(len(labels))]
+    parts = []
+    if m:
+        at_start, at_end, at_best = (at.iloc[i * m:(i + 1) * m] for i in (0, 1, 4))
+        failed_start = _first_failed(limit_masks(site, at.iloc[2 * m:3 * m]))
+        failed_end = _first_failed(limit_masks(site, at.iloc[3 * m:4 * m]))
+        night_of_run = np.searchsorted(labels, dark_on["night"].to_numpy()[span[first]])
+        hours = _hours(start, end)
+        budget = np.zeros(len(labels))
+        np.add.at(budget, night_of_run, hours)
+        if site.allocation.hours_per_night is not None:
+            budget = np.minimum(budget, site.allocation.hours_per_night)
+        # The least solar elongation over each window (samples and both edges): the safety figure.
+        c = "solar_elong_deg"
+        inside, offsets = _run_values(sky[c].to_numpy(float), first, last)
+        elong = np.minimum.reduce([np.minimum.reduceat(inside, offsets), at_start[c].to_numpy(float),
+                                   at_end[c].to_numpy(float)])
+        span_rows = dark_on.iloc[span[first]]
+        edge_kind = {True: "twilight", False: "noon"}
+        start_limit = np.where(opens, [edge_kind[b] for b in span_rows["start_is_twilight"]], failed_start)
+        end_limit = np.where(closes, [edge_kind[b] for b in span_rows["end_is_twilight"]], failed_end)
+        near_sun = (elong < site.min_solar_elong_deg + SUN_CAUTION_MARGIN_DEG) | (start_limit == "sun_elong") | (
+            end_limit == "sun_elong")
+        caution = []
+        for j in range(m):  # a sentence per window: output assembly only
+            words = [f"Sun {elong[j]:.0f}° away: {SUN_CAUTION}"] if near_sun[j] else []
+            tw = [w for w, lim in (("opens", start_limit[j]), ("closes", end_limit[j])) if lim == "twilight"]
             if tw:
-                caution.append(f"{' and '.join(tw)} in {twilight}: keep clear of the Sun's side of the sky")
-            b = at_best.iloc[j]
-            rows.append(dict(
-                site=site.name, night=label, start_utc=start[j], end_utc=end[j],
-                start_local=local_iso(start[j:j + 1], site.timezone)[0],
-                end_local=local_iso(end[j:j + 1], site.timezone)[0], hours=float(hours[j]),
-                night_budget_h=float(budget[k]), best_utc=best[j], min_airmass=float(b["airmass"]),
-                max_alt_deg=float(b["alt_deg"]), moon_sep_deg=float(b["moon_sep_deg"]),
-                moon_illum=float(b["moon_illum"]), solar_elong_deg=elong, mag_pred=float(b["mag_pred"]),
-                motion_arcsec_min=float(b["motion_arcsec_min"]), start_limit=start_limit, end_limit=end_limit,
-                reason="", caution="; ".join(caution)))
-    return rows
+                words.append(f"{' and '.join(tw)} in {site.twilight} twilight: keep clear of the Sun's side of the sky")
+            caution.append("; ".join(words))
+        parts.append(pd.DataFrame({
+            "site": site.name, "night": np.asarray(labels)[night_of_run], "start_utc": start, "end_utc": end,
+            "start_local": local_iso(start, site.timezone), "end_local": local_iso(end, site.timezone),
+            "hours": hours, "night_budget_h": budget[night_of_run], "best_utc": best,
+            "min_airmass": at_best["airmass"].to_numpy(float), "max_alt_deg": at_best["alt_deg"].to_numpy(float),
+            "moon_sep_deg": at_best["moon_sep_deg"].to_numpy(float),
+            "moon_illum": at_best["moon_illum"].to_numpy(float), "solar_elong_deg": elong,
+            "mag_pred": at_best["mag_pred"].to_numpy(float),
+            "motion_arcsec_min": at_best["motion_arcsec_min"].to_numpy(float),
+            "start_limit": start_limit.astype(str), "end_limit": end_limit.astype(str), "reason": "",
+            "caution": caution,
+        }))
+        empty = sorted(set(empty) - set(night_of_run.tolist()))
+    if empty:
+        parts.append(pd.DataFrame([_empty_row(site, labels[k], dark, dark_on, span, sky, masks) for k in empty]))
+    rows = pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
+    return rows.sort_values(["night", "start_utc"], kind="stable", na_position="first")
 
 
-def _empty_row(site, label, dark, dark_on, span, sky, masks, k) -> dict:
+def _empty_row(site, label, dark, dark_on, span, sky, masks) -> dict:
     """The zero-hour row of a night without a window, with the reason in plain words."""
     spans_k = np.flatnonzero(dark_on["night"].to_numpy() == label)
     caution = ""
@@ -314,20 +321,30 @@ def _empty_row(site, label, dark, dark_on, span, sky, masks, k) -> dict:
                 start_limit="", end_limit="", reason=reason, caution=caution)
 
 
-def geometry_sky(target, sites: Sequence[Site]) -> SkyAt:
-    """Sky provider from :func:`planner.ephemeris.geometry`: each site's own times, one call per site."""
+#: Below this many epochs in all, sites are evaluated together on the union of their times (one
+#: geometry call: the per-call cost of ephemeris reads and light time dominates small batches).
+POOL_MAX_EPOCHS = 2000
+
+
+def geometry_sky(target, sites: Sequence[Site], pool_max_epochs: int = POOL_MAX_EPOCHS) -> SkyAt:
+    """Sky provider from :func:`planner.ephemeris.geometry` for ``sites``."""
     from planner.ephemeris import geometry
 
     by_name = {s.name: s for s in sites}
 
     def sky_at(times_by_site: dict[str, np.ndarray]) -> dict[str, pd.DataFrame]:
-        out = {}
-        for name, times in times_by_site.items():
-            times = np.asarray(times, dtype="datetime64[ns]")
-            if times.size == 0:
-                out[name] = pd.DataFrame(columns=["time_utc", *_SKY_COLUMNS])
-                continue
-            out[name] = geometry(target, times, [by_name[name]])[name].reset_index(drop=True)
+        times_by_site = {n: np.asarray(t, dtype="datetime64[ns]") for n, t in times_by_site.items()}
+        out = {n: pd.DataFrame(columns=["time_utc", *_SKY_COLUMNS]) for n, t in times_by_site.items() if not t.size}
+        busy = [n for n, t in times_by_site.items() if t.size]
+        if sum(times_by_site[n].size for n in busy) <= pool_max_epochs and len(busy) > 1:
+            union = np.unique(np.concatenate([times_by_site[n] for n in busy]))
+            frames = geometry(target, union, [by_name[n] for n in busy])
+            for n in busy:
+                rows = np.searchsorted(union, times_by_site[n])
+                out[n] = frames[n].iloc[rows].reset_index(drop=True)
+        else:
+            for n in busy:
+                out[n] = geometry(target, times_by_site[n], [by_name[n]])[n].reset_index(drop=True)
         return out
 
     return sky_at
