@@ -14,6 +14,7 @@ from datetime import date, datetime, timedelta, timezone
 import numpy as np
 import pandas as pd
 
+from planner.ephemeris import sun_alt_deg
 from planner.errors import InputError
 from planner.intervals import refine_edges, true_runs
 from planner.sites import Site
@@ -28,21 +29,6 @@ SUN_STEP_S = 600.0
 EDGE_TOL_S = 10.0
 
 _TWILIGHT_WORD = {-6.0: "civil", -12.0: "nautical", -18.0: "astronomical"}
-
-
-def sun_alt_deg(site: Site, times_utc: np.ndarray) -> np.ndarray:
-    """Geometric altitude of the Sun's centre (no refraction) at the site, degrees, vectorised."""
-    from skyfield.api import wgs84
-    from skyfield.nutationlib import iau2000b_radians
-
-    from planner.skydata import planets, utc_times
-
-    eph = planets()
-    t = utc_times(times_utc)
-    t._nutation_angles_radians = iau2000b_radians(t)  # IAU 2000B: ~1 mas, far cheaper than 2000A
-    topos = wgs84.latlon(site.latitude_deg, site.longitude_deg, elevation_m=site.height_m)
-    alt, _, _ = (eph["earth"] + topos).at(t).observe(eph["sun"]).apparent().altaz()
-    return np.atleast_1d(alt.degrees)
 
 
 def night_bounds_utc(site: Site, first_night: date, nights: int) -> np.ndarray:
