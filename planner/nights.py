@@ -119,7 +119,8 @@ def sun_below_intervals(
     closes = (last == times.size - 1) | (night[np.minimum(last + 1, times.size - 1)] != night[last])
     t_in = np.concatenate((times[first[~opens]], times[last[~closes]]))
     t_out = np.concatenate((times[first[~opens] - 1], times[last[~closes] + 1]))
-    edge, _ = refine_edges(below_at, t_in, t_out, tol_s)
+    # Halvings of the spline cost no ephemeris reads: go to 1 s there.
+    edge, _ = refine_edges(below_at, t_in, t_out, min(tol_s, 1.0) if interpolate else tol_s)
     start = times[first].copy()
     end = times[last].copy()
     n_open = int((~opens).sum())

@@ -196,3 +196,76 @@ def test_edges_are_refined_below_the_grid_step():
     coarse = _windows(RIDGE, 150.0, -40.0, date(2034, 3, 7), 1, step_s=1800.0)
     for col in ("start_utc", "end_utc"):
         assert np.all(np.abs(fine[col].to_numpy() - coarse[col].to_numpy()) <= np.timedelta64(20, "s"))
+
+
+def test_demo_comet_windows_match_astroplan_with_its_ephemeris(root):
+    # The library call on the moving demo comet: astroplan's constraints evaluated on a 60 s grid at the
+    # comet's per-epoch RA/Dec (from geometry; astroplan has no small-body ephemeris). Same intervals,
+    # edges within one grid step + our 10 s tolerance. Moon rule as above.
+    import astropy.units as u
+    from astroplan import AltitudeConstraint, AtNightConstraint, Observer
+    from astropy.coordinates import EarthLocation, SkyCoord, get_body
+    from astropy.time import Time
+
+    from planner.ephemeris import geometry
+    from planner.sites import load_site
+    from planner.targets import load_target
+    from planner.windows import observable_windows
+
+    site = load_site(root / "sites" / "karoo-ridge.toml")
+    target = load_target(root / "demo_targets" / "c2034-b3-quillfeather.toml")
+    first = date(2034, 3, 17)
+    ours = observable_windows(target, [site], first, 1)
+    bounds = night_bounds_utc(site, first, 1)
+    grid = time_grid(bounds[0], bounds[-1], 60.0)
+    geo = geometry(target, grid, [site])[site.name]
+    coords = SkyCoord(geo["ra_deg"].to_numpy() * u.deg, geo["dec_deg"].to_numpy() * u.deg)
+    obs = Observer(location=EarthLocation(lat=site.latitude_deg * u.deg, lon=site.longitude_deg * u.deg,
+                                          height=site.height_m * u.m))
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        times = Time(grid, scale="utc")
+        ok = np.ravel(AltitudeConstraint(min=site.min_alt_deg * u.deg)(obs, coords, times=times))
+        ok &= np.ravel(AtNightConstraint(max_solar_altitude=site.night_sun_alt_deg * u.deg)(obs, coords, times=times))
+        sep = get_body("moon", times, location=obs.location).separation(coords).deg
+        ok &= (sep >= site.moon_min_sep_deg) | (obs.moon_altaz(times).alt.deg <= 0.0)
+    first_i, last_i = true_runs(ok)
+    assert len(ours) == len(first_i) == 1
+    step = np.timedelta64(70, "s")
+    assert abs(ours["start_utc"].iloc[0].to_datetime64() - grid[first_i[0]]) <= step
+    assert abs(ours["end_utc"].iloc[0].to_datetime64() - grid[last_i[0]]) <= step
+    row = ours.iloc[0]
+    assert row["start_limit"] == "twilight" and row["end_limit"] == "horizon"
+    assert np.isfinite(row["mag_pred"]) and row["motion_arcsec_min"] > 0
+
+
+def _cli(root, *args):
+    import subprocess
+    import sys
+
+    return subprocess.run([sys.executable, "-m", "planner", "windows", *args], capture_output=True, text=True,
+                          cwd=root, timeout=300)
+
+
+def test_command_table_csv_json_and_atomic_out(root, tmp_path):
+    import json
+
+    import pandas as pd
+
+    base = ["--target", "demo_targets/c2034-b3-quillfeather.toml", "--site", "sites/kahili-summit.toml",
+            "--site", "sites/salmon-gum.toml", "--start", "2034-03-16", "--nights", "2"]
+    r = _cli(root, *base)
+    assert r.returncode == 0, r.stderr
+    assert "Kahili Summit" in r.stdout and "Salmon Gum" in r.stdout and "HA limit" in r.stdout
+    out = tmp_path / "w.csv"
+    assert _cli(root, *base, "--format", "csv", "--out", str(out)).returncode == 0
+    df = pd.read_csv(out)
+    assert list(df.columns)[:7] == ["site", "night", "start_utc", "end_utc", "start_local", "end_local", "hours"]
+    assert len(df) == 4 and df["start_utc"].str.endswith("Z").all()
+    doc = json.loads(_cli(root, *base, "--format", "json").stdout)
+    assert "blind" in doc["caution"] and len(doc["windows"]) == 4
+    # A bad option leaves the earlier file untouched and says one line.
+    bad = _cli(root, *base[:-4], "--start", "2034-13-01", "--nights", "1", "--format", "csv", "--out", str(out))
+    assert bad.returncode == 2 and bad.stderr.strip().splitlines() == [
+        "error: command line: start: '2034-13-01' is not a date such as 2034-03-16"]
+    assert pd.read_csv(out).equals(df)
