@@ -167,3 +167,14 @@ def test_spans_grid_covers_each_span_with_both_ends():
     t, span = spans_grid(starts, ends, 600.0)
     assert list(np.bincount(span)) == [7, 3]  # 0..3600 every 600 s; 0, 600, 1000
     assert t[6] == ends[0] and t[-1] == ends[1] and t[7] == starts[1]
+
+
+@pytest.mark.parametrize("lat", [-65.0, 0.0, 50.0])
+def test_spline_crossings_match_the_direct_slow_twin(lat):
+    # Fast route (bisection on a cubic spline of 10-minute samples) vs slow twin (fresh Sun at every halving).
+    site = _site(lat)
+    fast = sun_below_intervals(site, FIRST, 2, -12.0)
+    slow = sun_below_intervals(site, FIRST, 2, -12.0, interpolate=False, tol_s=1.0)
+    for col in ("start_utc", "end_utc"):
+        gap = np.abs(fast[col].to_numpy() - slow[col].to_numpy())
+        assert np.all(gap <= np.timedelta64(3, "s"))
