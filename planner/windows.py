@@ -224,7 +224,7 @@ def _best_times(t, alt, first, last, start, end) -> np.ndarray:
     if first.size == 0:
         return start.copy()
     run_id = np.repeat(np.arange(first.size), last - first + 1)
-    idx = np.concatenate([np.arange(a, b + 1) for a, b in zip(first, last, strict=True)])
+    idx, _ = _run_values(np.arange(t.size), first, last)
     order = np.lexsort((-alt[idx], run_id))
     top = idx[order[np.searchsorted(run_id[order], np.arange(first.size))]]
     best = t[top].copy()

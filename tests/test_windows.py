@@ -20,12 +20,14 @@ from datetime import date
 import numpy as np
 import pytest
 from fixed_sky import fixed_star_sky
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from planner.intervals import true_runs
 from planner.nights import dark_intervals, night_bounds_utc
 from planner.sites import Allocation, Site
 from planner.timegrid import time_grid
-from planner.windows import find_windows, moon_limit_deg
+from planner.windows import find_windows, limit_masks, moon_limit_deg
 
 SIDEREAL_H_PER_SOLAR_H = 0.99727  # (common practice; 86164.1 s sidereal day / 86400 s)
 
@@ -269,3 +271,26 @@ def test_command_table_csv_json_and_atomic_out(root, tmp_path):
     assert bad.returncode == 2 and bad.stderr.strip().splitlines() == [
         "error: command line: start: '2034-13-01' is not a date such as 2034-03-16"]
     assert pd.read_csv(out).equals(df)
+
+
+@given(ra_deg=st.floats(0.0, 359.0), dec_deg=st.floats(-80.0, 80.0), lat=st.floats(-70.0, 70.0),
+       max_ha=st.one_of(st.none(), st.floats(1.0, 6.0)))
+@settings(max_examples=6, deadline=None)
+def test_windows_are_dark_disjoint_and_meet_every_limit(ra_deg, dec_deg, lat, max_ha):
+    # Properties of any answer: windows lie inside dark time, do not overlap, and every limit holds at their
+    # edges and best time; a night without a window says why.
+    s = _site(latitude_deg=lat, longitude_deg=0.0, max_hour_angle_h=max_ha, moon_min_sep_deg=30.0)
+    first = date(2034, 3, 8)
+    w = _windows(s, ra_deg, dec_deg, first, 2, step_s=900.0)
+    dark = dark_intervals(s, first, 2)
+    ok = w[w["hours"] > 0]
+    for night, rows in ok.groupby("night"):
+        d = dark[(dark["night"] == night) & (dark["hours"] > 0)]
+        for _, r in rows.iterrows():
+            assert ((d["start_utc"] <= r["start_utc"]) & (r["end_utc"] <= d["end_utc"])).any()
+        assert (rows["start_utc"].to_numpy()[1:] > rows["end_utc"].to_numpy()[:-1]).all()
+    if len(ok):
+        times = np.concatenate([ok[c].to_numpy() for c in ("start_utc", "end_utc", "best_utc")])
+        masks = limit_masks(s, _sky_at(s, ra_deg, dec_deg, times))
+        assert np.logical_and.reduce(list(masks.values())).all()
+    assert (w.loc[w["hours"] == 0, "reason"] != "").all()
