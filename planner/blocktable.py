@@ -18,7 +18,8 @@ from planner.slots import SlotGrid
 #: Columns of plan.csv / baseline.csv, in order (documented in docs/formats.md).
 BLOCK_COLUMNS = (
     "site", "night", "start_utc", "end_utc", "start_local", "end_local", "hours", "setup_min", "science_start_utc",
-    "n_exposures", "exposure_s", "ra_deg", "dec_deg", "motion_arcsec_min", "motion_pa_deg", "alt_min_deg",
+    "n_exposures", "exposure_s", "ra_deg", "dec_deg", "motion_arcsec_min", "motion_pa_deg", "ra_rate_arcsec_min",
+    "dec_rate_arcsec_min", "alt_min_deg",
     "alt_max_deg", "airmass_min", "airmass_max", "moon_sep_deg", "moon_illum", "mag_pred", "snr_pred",
     "mag_err_pred", "solar_elong_deg", "sun_alt_max_deg",
 )
@@ -100,6 +101,7 @@ def block_table(visits: list[Visit], grid: SlotGrid, target, sites: tuple[Site, 
                 n_exposures=int(n_exp[k]), exposure_s=float(exp_s[k]) if np.isfinite(exp_s[k]) else np.nan,
                 ra_deg=float(m["ra_deg"]), dec_deg=float(m["dec_deg"]),
                 motion_arcsec_min=float(m["motion_arcsec_min"]), motion_pa_deg=float(m["motion_pa_deg"]),
+                ra_rate_arcsec_min=float(m["ra_rate_arcsec_min"]), dec_rate_arcsec_min=float(m["dec_rate_arcsec_min"]),
                 alt_min_deg=float(agg["alt_min_deg"].iloc[k]), alt_max_deg=float(agg["alt_max_deg"].iloc[k]),
                 airmass_min=float(agg["airmass_min"].iloc[k]), airmass_max=float(agg["airmass_max"].iloc[k]),
                 moon_sep_deg=float(m["moon_sep_deg"]), moon_illum=float(m["moon_illum"]),

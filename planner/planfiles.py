@@ -125,9 +125,12 @@ def comparison_text(result: PlanResult) -> str:
     line = f"greedy guarantee: {g['statement']}"
     if "exact" in obj:
         ex = obj["exact"]
-        kind = "optimum" if ex["optimal"] else "upper bound"
-        line += (f"; exact {kind} {ex['upper_bound_cells']:.0f} cells vs greedy {obj['greedy']['covered_cells']}"
-                 f" (ratio {ex['greedy_ratio']:.3f})")
+        if ex["greedy_ratio"] is None:
+            line += f"; exact mode: {ex['status']}"
+        else:
+            kind = "optimum" if ex["optimal"] else "upper bound"
+            line += (f"; exact {kind} {ex['upper_bound_cells']:.0f} cells vs greedy "
+                     f"{obj['greedy']['covered_cells']} (ratio {ex['greedy_ratio']:.3f}; {ex['status']})")
     out.append(line)
     bands = rob["plan"]["single_site_bands_h"]
     if bands:
@@ -192,8 +195,6 @@ def site_sheet(result: PlanResult, site) -> str:
     for night, rows in t.groupby("night", sort=True):
         lines.append(f"Night of {night} (local evening date)")
         for k, r in enumerate(rows.itertuples(index=False), 1):
-            rate_ra = r.motion_arcsec_min * math.sin(math.radians(r.motion_pa_deg))
-            rate_dec = r.motion_arcsec_min * math.cos(math.radians(r.motion_pa_deg))
             exp = (f"{r.n_exposures} x {r.exposure_s:.0f} s" if isinstance(r.exposure_s, float)
                    and math.isfinite(r.exposure_s) else f"{r.n_exposures} exposures (exposure time not predicted)")
             lines += [
@@ -202,7 +203,7 @@ def site_sheet(result: PlanResult, site) -> str:
                 f"science from {r.science_start_utc[11:16]} UTC",
                 f"    point (mid-block): RA {_ra_hms(r.ra_deg)}  Dec {_dec_dms(r.dec_deg)}",
                 f"    track: {r.motion_arcsec_min:.2f} arcsec/min at PA {r.motion_pa_deg:.0f} deg "
-                f"(RA*cos(Dec) {rate_ra:+.3f}, Dec {rate_dec:+.3f} arcsec/min)",
+                f"(RA*cos(Dec) {r.ra_rate_arcsec_min:+.3f}, Dec {r.dec_rate_arcsec_min:+.3f} arcsec/min)",
                 f"    altitude {r.alt_min_deg:.0f}-{r.alt_max_deg:.0f} deg, airmass {r.airmass_min:.2f}-"
                 f"{r.airmass_max:.2f}; Moon {r.moon_sep_deg:.0f} deg away, {100 * r.moon_illum:.0f}% lit",
                 f"    exposures: {exp}; predicted mag {r.mag_pred:.1f}, S/N per exposure "
@@ -226,9 +227,9 @@ def plan_json(result: PlanResult) -> dict:
 
 def _write_folder(result: PlanResult, folder: Path) -> None:
     (folder / "sheets").mkdir(parents=True)
-    table_for_files(result.blocks).to_csv(folder / "plan.csv", index=False)
+    table_for_files(result.blocks).to_csv(folder / "plan.csv", index=False, float_format="%.7g")
     (folder / "plan.json").write_text(json.dumps(plan_json(result), indent=1) + "\n")
-    table_for_files(result.baseline).to_csv(folder / "baseline.csv", index=False)
+    table_for_files(result.baseline).to_csv(folder / "baseline.csv", index=False, float_format="%.7g")
     (folder / "diagnostics.json").write_text(json.dumps(diagnostics_json(result), indent=1) + "\n")
     table_for_files(result.windows).to_csv(folder / "windows.csv", index=False)
     table_for_files(result.geometry).to_csv(folder / "geometry.csv", index=False, float_format="%.6g")

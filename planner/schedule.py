@@ -134,11 +134,12 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
     if exact:
         from planner.exact import exact_coverage
 
-        ex = exact_coverage(model, time_limit_s=exact_time_limit_s)
+        ex = exact_coverage(model, time_limit_s=exact_time_limit_s, greedy_cells=opt.greedy.covered_cells)
         objective["exact"] = {
             "covered_cells": ex.covered_cells, "upper_bound_cells": ex.upper_bound_cells, "optimal": ex.optimal,
             "seconds": ex.seconds, "status": ex.status,
-            "greedy_ratio": opt.greedy.covered_cells / ex.upper_bound_cells if ex.upper_bound_cells else None,
+            "greedy_ratio": (opt.greedy.covered_cells / ex.upper_bound_cells
+                             if ex.upper_bound_cells and (ex.optimal or ex.covered_cells) else None),
         }
     trials = campaign.weather_trials
     robustness = {
