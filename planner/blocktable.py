@@ -18,10 +18,9 @@ from planner.slots import SlotGrid
 #: Columns of plan.csv / baseline.csv, in order (documented in docs/formats.md).
 BLOCK_COLUMNS = (
     "site", "night", "start_utc", "end_utc", "start_local", "end_local", "hours", "setup_min", "science_start_utc",
-    "n_exposures", "exposure_s", "ra_deg", "dec_deg", "motion_arcsec_min", "motion_pa_deg", "ra_rate_arcsec_min",
-    "dec_rate_arcsec_min", "alt_min_deg",
-    "alt_max_deg", "airmass_min", "airmass_max", "moon_sep_deg", "moon_illum", "mag_pred", "snr_pred",
-    "mag_err_pred", "solar_elong_deg", "sun_alt_max_deg",
+    "n_exposures", "exposure_s", "exposure_limited_by", "ra_deg", "dec_deg", "motion_arcsec_min", "motion_pa_deg",
+    "ra_rate_arcsec_min", "dec_rate_arcsec_min", "alt_min_deg", "alt_max_deg", "airmass_min", "airmass_max",
+    "moon_sep_deg", "moon_illum", "mag_pred", "snr_pred", "mag_err_pred", "solar_elong_deg", "sun_alt_max_deg",
 )
 #: Exposure used where a site has no instrument description (common practice for a first look).
 DEFAULT_EXPOSURE_S = 60.0
@@ -78,11 +77,13 @@ def block_table(visits: list[Visit], grid: SlotGrid, target, sites: tuple[Site, 
             exp_s = phot["exposure_s"].to_numpy(dtype=float)
             snr = phot["snr_pred"].to_numpy(dtype=float)
             err = phot["mag_err_pred"].to_numpy(dtype=float)
+            limited = phot["exposure_limited_by"].astype(str).to_numpy()
             readout = inst.readout_s
         else:
             exp_s = np.full(len(mine), np.nan)
             snr = np.full(len(mine), np.nan)
             err = np.full(len(mine), np.nan)
+            limited = np.full(len(mine), "no instrument", dtype=object)
             readout = DEFAULT_READOUT_S
         plan_exp = np.where(np.isfinite(exp_s), exp_s, DEFAULT_EXPOSURE_S)
         n_exp = exposures_per_block(science_s, plan_exp, readout, 0.0)
@@ -99,6 +100,7 @@ def block_table(visits: list[Visit], grid: SlotGrid, target, sites: tuple[Site, 
                 start_utc=t_start[k], end_utc=t_stop[k], start_local=start_local[k], end_local=end_local[k],
                 hours=v.length * grid.slot_s / 3600.0, setup_min=setup_min, science_start_utc=t_sci[k],
                 n_exposures=int(n_exp[k]), exposure_s=float(exp_s[k]) if np.isfinite(exp_s[k]) else np.nan,
+                exposure_limited_by=str(limited[k]),
                 ra_deg=float(m["ra_deg"]), dec_deg=float(m["dec_deg"]),
                 motion_arcsec_min=float(m["motion_arcsec_min"]), motion_pa_deg=float(m["motion_pa_deg"]),
                 ra_rate_arcsec_min=float(m["ra_rate_arcsec_min"]), dec_rate_arcsec_min=float(m["dec_rate_arcsec_min"]),

@@ -169,6 +169,8 @@ def _cautions(r, site) -> list[str]:
         out.append(f"airmass reaches {r.airmass_max:.1f}: expect extinction changes; take comparison stars")
     if math.isfinite(r.moon_sep_deg) and r.moon_sep_deg < 45.0 and r.moon_illum > 0.3:
         out.append(f"Moon {r.moon_sep_deg:.0f} deg away, {100 * r.moon_illum:.0f}% lit")
+    if r.exposure_limited_by == "trailing":
+        out.append("exposure capped by trailing at the sidereal rate: track at the rates above to expose longer")
     if not (isinstance(r.exposure_s, float) and math.isfinite(r.exposure_s)):
         out.append("no exposure prediction (no instrument in the site file or target too faint): set by hand")
     return out
