@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from planner.objective import coverage_gains
+from planner.objective import coverage_gains, pack_cells
 from planner.planstate import PlanState, Visit
 from planner.slots import SlotGrid
 
@@ -79,8 +79,6 @@ def _candidates(state: PlanState, packed: np.ndarray, rng: np.random.Generator,
         counts = state.counts.copy()
         counts -= state._pieces(ignore)[0]
         covered = np.asarray((counts > 0) | state.model.done_cells)
-        from planner.objective import pack_cells
-
         cov_packed = pack_cells(covered)
     else:
         cov_packed = state.covered_packed()

@@ -28,6 +28,8 @@ from planner.slots import SlotGrid
 #: Chance a site-night is clear is kept inside (0, 1) so log-survival stays finite.
 _CLEAR_CLIP = (1e-6, 1.0 - 1e-9)
 _ELEMENT_CHUNK = 256
+#: Visits whose cells and phasors are kept between moves (~20 kB each on the demo grid).
+_CACHE_VISITS = 2000
 
 
 @dataclass(frozen=True)
@@ -177,7 +179,7 @@ class PlanState:
             m = self.model.visit_masks(np.array([v.start]), np.array([v.length]))[0]
             ph = self.model.part_weight[v.part] * self.model.visit_phasors(np.array([v.start]), np.array([v.length]))[0]
             hit = (m, ph)
-            if len(self._cache) > 50_000:
+            if len(self._cache) > _CACHE_VISITS:
                 self._cache.clear()
             self._cache[v] = hit
         return hit
