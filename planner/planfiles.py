@@ -102,6 +102,20 @@ def night_table(blocks: pd.DataFrame) -> str:
     return "\n".join(lines) + "\n"
 
 
+def safety_text(result: PlanResult) -> str:
+    """The Sun caution printed under every plan, plus the blocks that come near a site's limit."""
+    lines = ["SAFETY: " + SUN_CAUTION]
+    by_name = {s.name: s for s in result.campaign.sites}
+    b = table_for_files(result.blocks)
+    for r in b.itertuples(index=False):
+        site = by_name.get(r.site)
+        if site is not None and math.isfinite(r.solar_elong_deg) and \
+                r.solar_elong_deg < site.min_solar_elong_deg + SUN_MARGIN_DEG:
+            lines.append(f"  {r.site} {r.night} {r.start_utc[11:16]} UTC: target {r.solar_elong_deg:.0f} deg "
+                         "from the Sun")
+    return "\n".join(lines) + "\n"
+
+
 def comparison_text(result: PlanResult) -> str:
     c = result.comparison
     rob = result.robustness

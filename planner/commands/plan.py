@@ -27,7 +27,14 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Optimise a multi-site campaign: when each site observes, night by night."""
         from planner.campaign import load_campaign
-        from planner.planfiles import comparison_text, night_table, plan_json, table_for_files, write_plan_folder
+        from planner.planfiles import (
+            comparison_text,
+            night_table,
+            plan_json,
+            safety_text,
+            table_for_files,
+            write_plan_folder,
+        )
         from planner.schedule import plan_campaign
 
         if fmt not in ("table", "csv", "json"):
@@ -51,6 +58,7 @@ def register(app: typer.Typer) -> None:
                              f"sites, {camp.nights} nights from {camp.first_night.isoformat()}"
                              + (f" (re-planned from {result.done_log})" if result.done_log else "") + "\n\n")
             sys.stdout.write(night_table(result.blocks))
+            sys.stdout.write(safety_text(result))
             sys.stdout.write("\n" + comparison_text(result))
             if out is not None:
                 sys.stdout.write(f"\nplan folder: {out}\n")
