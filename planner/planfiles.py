@@ -132,9 +132,10 @@ def comparison_text(result: PlanResult) -> str:
     out.append(f"{'telescope hours':52} {hours_p:9.1f} {hours_b:9.1f}")
     for label, pair, spec in rows:
         out.append(f"{label:52} {_fmt(pair['plan'], spec, 9)} {_fmt(pair['baseline'], spec, 9)}")
-    out.append(f"{'expected coverage under weather / 10th percentile':52} "
-               f"{rob['plan']['expected_coverage']:5.2f}/{rob['plan']['p10_coverage']:.2f} "
-               f"{rob['baseline']['expected_coverage']:5.2f}/{rob['baseline']['p10_coverage']:.2f}")
+    out.append(f"{'under weather: worst-period coverage, mean/10th pct':52} "
+               f"{rob['plan']['expected_worst_period_coverage']:5.2f}/{rob['plan']['p10_worst_period_coverage']:.2f} "
+               f"{rob['baseline']['expected_worst_period_coverage']:5.2f}/"
+               f"{rob['baseline']['p10_worst_period_coverage']:.2f}")
     g = obj["guarantee"]
     line = f"greedy guarantee: {g['statement']}"
     if "exact" in obj:
