@@ -370,7 +370,7 @@ def trail_limit_s(
     motion = np.abs(np.asarray(motion_arcsec_min, dtype=float)) / 60.0  # arcsec per second
     if nonsidereal_tracking:
         return np.full(motion.shape, np.inf)
-    with np.errstate(divide="ignore"):
+    with np.errstate(divide="ignore", over="ignore"):  # subnormal motion: no practical limit
         return np.where(motion > 0.0, fraction * seeing_arcsec / motion, np.inf)
 
 
@@ -454,11 +454,33 @@ _GEOMETRY_NEEDS = (
 )
 
 
+#: Brightness-law names that ``geometry()`` leaves in ``frame.attrs["mag_law"]`` (planner.brightness).
+_COMA_LAWS = ("comet_total",)
+_POINT_LAWS = {"comet_nuclear": True, "asteroid_hg": False}  # law → is a comet
+
+
+def _source_kind(geom_df: pd.DataFrame, comet: bool | None, point_source: bool | None) -> tuple[bool, bool]:
+    """(comet, point_source) from the caller, else from the table's ``mag_law``: a comet's total
+    magnitude is coma light (an aperture magnitude); nuclear and H,G magnitudes are point sources."""
+    law = geom_df.attrs.get("mag_law")
+    if comet is None:
+        if law in _COMA_LAWS:
+            comet = True
+        elif law in _POINT_LAWS:
+            comet = _POINT_LAWS[law]
+        else:
+            raise ValueError(f"cannot tell a comet from an asteroid (mag_law {law!r}); pass comet=")
+    if point_source is None:
+        known = law in _COMA_LAWS or law in _POINT_LAWS
+        point_source = law in _POINT_LAWS if known else not comet
+    return comet, point_source
+
+
 def photometry_columns(
     geom_df: pd.DataFrame,
     instrument: Instrument,
     *,
-    comet: bool,
+    comet: bool | None = None,
     point_source: bool | None = None,
     snr_target: float = 50.0,
     mag_err_target: float | None = None,
@@ -479,21 +501,24 @@ def photometry_columns(
     Returns a new DataFrame with the same index holding :data:`PHOTOMETRY_COLUMNS` (plus
     ``afrho_cm`` when ``comet``); join it to the geometry.
 
+    ``comet`` and ``point_source`` default from ``geom_df.attrs["mag_law"]`` (set by
+    ``planner.ephemeris.geometry``): a comet's total magnitude (M1, K1) is coma light, taken as the
+    magnitude inside the aperture; a nuclear (M2, K2) or H,G magnitude is a point source, of which
+    a Gaussian-seeing fraction falls in the aperture. Afρ is given for coma magnitudes only (NaN
+    for a nuclear magnitude: a bare nucleus has no Afρ).
+
     Model: sky from :func:`sky_mag_arcsec2` (Krisciunas & Schaefer 1991); S/N and exposure from
-    the CCD equation (Merline & Howell 1995). A point source (default: not a comet) puts a
-    Gaussian-seeing fraction of its light in the aperture; a comet's ``mag_pred`` is taken as the
-    magnitude inside the aperture. The exposure reaching ``snr_target`` (or ``mag_err_target``)
+    the CCD equation (Merline & Howell 1995). The exposure reaching ``snr_target`` (or ``mag_err_target``)
     is clipped to [``min_exposure_s``, min(``max_exposure_s``, trailing limit)]; the trailing
     limit always wins. ``exposure_s`` given (e.g. from a log) replaces the plan and only the S/N
     is evaluated. Default aperture radius: the seeing FWHM (common practice). Rows with the
     target at or below the horizon or the Sun above ``max_sun_alt_deg`` get NaN predictions.
     """
+    comet, point_source = _source_kind(geom_df, comet, point_source)
     missing = [c for c in _GEOMETRY_NEEDS + (("helio_dist_au", "obs_dist_au") if comet else ())
                if c not in geom_df.columns]
     if missing:
         raise ValueError(f"geometry table lacks column(s) {', '.join(missing)}")
-    if point_source is None:
-        point_source = not comet
     if mag_err_target is not None:
         snr_target = snr_from_mag_err(mag_err_target)
     if not snr_target > 0:
@@ -555,15 +580,32 @@ def photometry_columns(
     out["n_stack_for_snr"] = pd.array(np.where(usable & np.isfinite(n_stack), n_stack, nan), dtype="Int64")
     out["n_exposures_per_hour"] = pd.array(np.where(usable, per_hour, nan), dtype="Int64")
     if comet:
-        out["afrho_cm"] = afrho_cm(
+        afrho = afrho_cm(
             col["mag_pred"], SUN_MAG_BY_BAND[band], geom_df["helio_dist_au"].to_numpy(dtype=float),
             geom_df["obs_dist_au"].to_numpy(dtype=float), ap_km,
         )
+        out["afrho_cm"] = np.full(afrho.shape, np.nan) if point_source else afrho
+    return out
+
+
+def add_photometry(frames: dict[str, pd.DataFrame], sites: Sequence[Site], **kwargs: Any) -> dict[str, pd.DataFrame]:
+    """Geometry frames (``planner.ephemeris.geometry`` output) with :func:`photometry_columns` joined
+    for every site that has an instrument; other frames pass unchanged. ``kwargs`` go to
+    :func:`photometry_columns`."""
+    instruments = {s.name: s.instrument for s in sites if s.instrument is not None}
+    out = {}
+    for name, frame in frames.items():
+        if name in instruments:
+            joined = frame.join(photometry_columns(frame, instruments[name], **kwargs))
+            joined.attrs.update(frame.attrs)
+            out[name] = joined
+        else:
+            out[name] = frame
     return out
 
 
 def mag_err_from_geometry(
-    geom_df: pd.DataFrame, instrument: Instrument, *, comet: bool, **kwargs: Any
+    geom_df: pd.DataFrame, instrument: Instrument, *, comet: bool | None = None, **kwargs: Any
 ) -> np.ndarray:
     """Per-row photometric error (mag) for one site's geometry table: ``mag_err_pred`` of
     :func:`photometry_columns` with the same keyword arguments (pass ``exposure_s`` for a log)."""
@@ -577,7 +619,7 @@ def mag_err_for_times(
     site_names: Sequence[str],
     sites: Sequence[Site],
     *,
-    comet: bool,
+    comet: bool | None = None,
     exposure_s: np.ndarray | None = None,
     **kwargs: Any,
 ) -> np.ndarray:

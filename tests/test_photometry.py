@@ -430,3 +430,34 @@ def test_unknown_filter_rejected_in_site_file(tmp_path):
     with pytest.raises(InputError) as exc:
         load_site(p)
     assert exc.value.field == "instrument.filter"
+
+
+def test_source_kind_from_the_brightness_law():
+    inst = Instrument(aperture_m=1.0, pixel_scale_arcsec=0.4, zero_point_mag=24.0, seeing_arcsec=1.2)
+    g = _geom(1)
+    with pytest.raises(ValueError, match="comet"):
+        photometry_columns(g, inst)
+    g.attrs["mag_law"] = "comet_total"  # coma light: the whole magnitude counts inside the aperture
+    total = photometry_columns(g, inst, exposure_s=30.0)
+    assert np.isfinite(total["afrho_cm"].iloc[0])
+    g.attrs["mag_law"] = "comet_nuclear"  # a bare nucleus: point source, no Afρ
+    nuclear = photometry_columns(g, inst, exposure_s=30.0)
+    assert np.isnan(nuclear["afrho_cm"].iloc[0])
+    assert nuclear["snr_pred"].iloc[0] < total["snr_pred"].iloc[0]  # only 94 % of the PSF inside r = FWHM
+    g.attrs["mag_law"] = "asteroid_hg"
+    assert "afrho_cm" not in photometry_columns(g, inst)
+
+
+def test_add_photometry_joins_instrument_sites_only(tmp_path):
+    from planner.photometry import PHOTOMETRY_COLUMNS, add_photometry
+    from planner.sites import Site
+
+    with_inst = load_site(SITES[0])
+    bare = Site(name="no camera", latitude_deg=0.0, longitude_deg=0.0)
+    frames = {with_inst.name: _geom(2), bare.name: _geom(2)}
+    for f in frames.values():
+        f.attrs["mag_law"] = "asteroid_hg"
+    out = add_photometry(frames, [with_inst, bare])
+    assert set(PHOTOMETRY_COLUMNS) <= set(out[with_inst.name].columns)
+    assert out[with_inst.name].attrs["mag_law"] == "asteroid_hg"
+    assert "snr_pred" not in out[bare.name]
