@@ -33,8 +33,11 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import pandas as pd
 
+from planner.brightness import LAW_HG, LAW_NUCLEAR, LAW_TOTAL
+
 if TYPE_CHECKING:  # typing only: sites.py imports FILTER_BANDS from here
     from planner.sites import Instrument, Site
+    from planner.targets import Target
 
 #: Pogson (1856): flux ratio per magnitude is 10^0.4 ≈ 2.512.
 POGSON_RATIO = 10.0**0.4
@@ -419,6 +422,29 @@ def aperture_radius_arcsec(
     return np.full(scale.shape, float(radius)), radius * scale
 
 
+#: Our default assumption (no published value): a comet's total magnitude (M1, K1) counts the coma
+#: out to this radius. Set it from the comet's appearance; the aperture magnitude scales with it.
+COMA_RADIUS_KM = 20_000.0
+#: Default photometric aperture radius for coma photometry: a fixed 10 000 km at the comet, the
+#: order of the apertures in which Afρ is commonly quoted (common practice).
+COMA_APERTURE_KM = 10_000.0
+
+
+def coma_aperture_mag(
+    total_mag: np.ndarray | float, aperture_km: np.ndarray | float, coma_radius_km: float = COMA_RADIUS_KM
+) -> np.ndarray:
+    """Magnitude inside an aperture of radius ρ for a coma whose total magnitude counts out to ρ_c.
+
+    A steady, freely expanding coma has surface brightness ∝ 1/ρ, so the flux inside ρ grows as ρ
+    (A'Hearn et al. 1984, the premise of Afρ): m(ρ) = m_total − 2.5 log10(min(ρ / ρ_c, 1)).
+    Seeing is neglected (it matters only for apertures of a few FWHM or less).
+    """
+    if not coma_radius_km > 0:
+        raise ValueError(f"coma radius {coma_radius_km} km must be positive")
+    frac = np.minimum(np.asarray(aperture_km, dtype=float) / coma_radius_km, 1.0)
+    return np.asarray(total_mag, dtype=float) - 2.5 * np.log10(frac)
+
+
 def afrho_cm(
     mag: np.ndarray | float,
     sun_mag: float,
@@ -454,9 +480,9 @@ _GEOMETRY_NEEDS = (
 )
 
 
-#: Brightness-law names that ``geometry()`` leaves in ``frame.attrs["mag_law"]`` (planner.brightness).
-_COMA_LAWS = ("comet_total",)
-_POINT_LAWS = {"comet_nuclear": True, "asteroid_hg": False}  # law → is a comet
+#: Brightness laws that ``geometry()`` leaves in ``frame.attrs["mag_law"]``: coma light, or a point source.
+_COMA_LAWS = (LAW_TOTAL,)
+_POINT_LAWS = {LAW_NUCLEAR: True, LAW_HG: False}  # law → is a comet
 
 
 def _source_kind(geom_df: pd.DataFrame, comet: bool | None, point_source: bool | None) -> tuple[bool, bool]:
@@ -492,6 +518,7 @@ def photometry_columns(
     exposure_s: np.ndarray | float | None = None,
     mag_err_floor: float = 0.0,
     max_sun_alt_deg: float = -12.0,
+    coma_radius_km: float = COMA_RADIUS_KM,
 ) -> pd.DataFrame:
     """Exposure plan and expected precision for every row of one site's geometry table.
 
@@ -502,17 +529,19 @@ def photometry_columns(
     ``afrho_cm`` when ``comet``); join it to the geometry.
 
     ``comet`` and ``point_source`` default from ``geom_df.attrs["mag_law"]`` (set by
-    ``planner.ephemeris.geometry``): a comet's total magnitude (M1, K1) is coma light, taken as the
-    magnitude inside the aperture; a nuclear (M2, K2) or H,G magnitude is a point source, of which
-    a Gaussian-seeing fraction falls in the aperture. Afρ is given for coma magnitudes only (NaN
-    for a nuclear magnitude: a bare nucleus has no Afρ).
+    ``planner.ephemeris.geometry``): a comet's total magnitude (M1, K1) is coma light, counted out
+    to ``coma_radius_km`` with a 1/ρ profile (:func:`coma_aperture_mag`), measured by default in a
+    fixed 10 000 km aperture; a nuclear (M2, K2) or H,G magnitude is a point source, of which a
+    Gaussian-seeing fraction falls in the aperture (default radius: the seeing FWHM). Afρ is given
+    for coma magnitudes only (NaN for a nuclear magnitude: a bare nucleus has no Afρ); with the
+    1/ρ coma it does not depend on the aperture.
 
     Model: sky from :func:`sky_mag_arcsec2` (Krisciunas & Schaefer 1991); S/N and exposure from
-    the CCD equation (Merline & Howell 1995). The exposure reaching ``snr_target`` (or ``mag_err_target``)
-    is clipped to [``min_exposure_s``, min(``max_exposure_s``, trailing limit)]; the trailing
-    limit always wins. ``exposure_s`` given (e.g. from a log) replaces the plan and only the S/N
-    is evaluated. Default aperture radius: the seeing FWHM (common practice). Rows with the
-    target at or below the horizon or the Sun above ``max_sun_alt_deg`` get NaN predictions.
+    the CCD equation (Merline & Howell 1995). The exposure reaching ``snr_target`` (or
+    ``mag_err_target``) is clipped to [``min_exposure_s``, min(``max_exposure_s``, trailing
+    limit)]; the trailing limit always wins. ``exposure_s`` given (e.g. from a log; per row, NaN
+    where unknown) replaces the plan where finite and only the S/N is evaluated there. Rows with
+    the target at or below the horizon or the Sun above ``max_sun_alt_deg`` get NaN predictions.
     """
     comet, point_source = _source_kind(geom_df, comet, point_source)
     missing = [c for c in _GEOMETRY_NEEDS + (("helio_dist_au", "obs_dist_au") if comet else ())
@@ -534,33 +563,39 @@ def photometry_columns(
         inst.sky_mag_per_arcsec2, col["alt_deg"], col["moon_alt_deg"], col["moon_sep_deg"],
         col["moon_illum"], inst.extinction_mag_per_airmass, band,
     )
+    if not point_source and aperture_arcsec is None and aperture_km is None:
+        aperture_km = COMA_APERTURE_KM  # coma: a fixed physical radius by default
     ap_arcsec, ap_km = aperture_radius_arcsec(
         col["km_per_arcsec"], aperture_arcsec=aperture_arcsec, aperture_km=aperture_km,
         default_arcsec=inst.seeing_arcsec,
     )
     n_pix = aperture_pixels(ap_arcsec, inst.pixel_scale_arcsec)
-    rate = source_rate_e_per_s(col["mag_pred"], inst.zero_point_mag, inst.extinction_mag_per_airmass,
-                               col["airmass"])
+    # Magnitude of the light inside the aperture.
     if point_source:
-        rate = rate * gaussian_enclosed_fraction(ap_arcsec, inst.seeing_arcsec)
+        mag_in_aperture = col["mag_pred"] - 2.5 * np.log10(gaussian_enclosed_fraction(ap_arcsec, inst.seeing_arcsec))
+    else:
+        mag_in_aperture = coma_aperture_mag(col["mag_pred"], ap_km, coma_radius_km)
+    rate = source_rate_e_per_s(mag_in_aperture, inst.zero_point_mag, inst.extinction_mag_per_airmass,
+                               col["airmass"])
     sky_rate = sky_rate_e_per_s_pix(sky, inst.zero_point_mag, inst.pixel_scale_arcsec)
     noise = dict(dark_e_per_s_pix=inst.dark_e_per_s, read_noise_e=inst.read_noise_e, n_pix=n_pix,
                  gain_e_per_adu=inst.gain_e_per_adu)
 
     trail = trail_limit_s(col["motion_arcsec_min"], inst.seeing_arcsec, trail_fraction,
                           inst.nonsidereal_tracking)
-    if exposure_s is None:
-        wanted = exposure_for_snr_s(snr_target, rate, sky_rate, **noise)
-        upper = np.minimum(max_exposure_s, trail)
-        t = np.minimum(np.maximum(wanted, min_exposure_s), upper)
-        # What set the exposure: the S/N goal, the floor (S/N above goal), the trailing cap or the ceiling.
-        limited = np.select(
-            [np.isclose(t, wanted, rtol=1e-12, atol=0.0), t > wanted, t == trail],
-            ["snr", "min_exposure", "trailing"], "max_exposure",
-        )
-    else:
-        t = np.broadcast_to(np.asarray(exposure_s, dtype=float), rate.shape).copy()
-        limited = np.full(rate.shape, "given", dtype=object)
+    wanted = exposure_for_snr_s(snr_target, rate, sky_rate, **noise)
+    upper = np.minimum(max_exposure_s, trail)
+    t = np.minimum(np.maximum(wanted, min_exposure_s), upper)
+    # What set the exposure: the S/N goal, the floor (S/N above goal), the trailing cap or the ceiling.
+    limited = np.select(
+        [np.isclose(t, wanted, rtol=1e-12, atol=0.0), t > wanted, t == trail],
+        ["snr", "min_exposure", "trailing"], "max_exposure",
+    ).astype(object)
+    if exposure_s is not None:  # logged exposures where given (finite), the plan elsewhere
+        given = np.broadcast_to(np.asarray(exposure_s, dtype=float), rate.shape)
+        known = np.isfinite(given) & (given > 0)
+        t = np.where(known, given, t)
+        limited = np.where(known, "given", limited)
     snr = ccd_snr(rate, sky_rate, exposure_s=t, **noise)
     with np.errstate(divide="ignore", invalid="ignore"):
         # Independent frames add in quadrature: n frames give √n × the S/N of one.
@@ -581,7 +616,7 @@ def photometry_columns(
     out["n_exposures_per_hour"] = pd.array(np.where(usable, per_hour, nan), dtype="Int64")
     if comet:
         afrho = afrho_cm(
-            col["mag_pred"], SUN_MAG_BY_BAND[band], geom_df["helio_dist_au"].to_numpy(dtype=float),
+            mag_in_aperture, SUN_MAG_BY_BAND[band], geom_df["helio_dist_au"].to_numpy(dtype=float),
             geom_df["obs_dist_au"].to_numpy(dtype=float), ap_km,
         )
         out["afrho_cm"] = np.full(afrho.shape, np.nan) if point_source else afrho
@@ -614,25 +649,30 @@ def mag_err_from_geometry(
 
 
 def mag_err_for_times(
-    target: Any,
+    target: Target,
     times_utc: np.ndarray,
-    site_names: Sequence[str],
+    site_names: Sequence[str] | None,
     sites: Sequence[Site],
     *,
-    comet: bool | None = None,
     exposure_s: np.ndarray | None = None,
+    fallback_mag_err: float | None = None,
     **kwargs: Any,
 ) -> np.ndarray:
     """Modelled photometric error (mag) of each observation time, for injection–recovery.
 
-    ``site_names[i]`` names the site of ``times_utc[i]``; ``exposure_s`` (optional, per point)
-    takes the logged exposures instead of the planned ones. Points at a site without an
-    instrument, unknown to ``sites``, or with no prediction (target down, daylight) are NaN: the
-    caller falls back to its constant error there. Geometry from ``planner.ephemeris.geometry``.
+    ``site_names[i]`` names the site of ``times_utc[i]`` (None: all at the one site given);
+    ``exposure_s`` (optional, per point, NaN where unknown) takes logged exposures instead of the
+    planned ones. Points at a site without an instrument or unknown to ``sites``, or with no
+    prediction (target down, Sun up), get ``fallback_mag_err`` (NaN if None). Geometry from
+    ``planner.ephemeris.geometry``; the other keywords go to :func:`photometry_columns`.
     """
-    from planner.ephemeris import geometry  # geometry imports nothing from here; kept lazy
+    from planner.ephemeris import geometry  # lazy: ephemeris → sites → photometry at import time
 
     times = np.asarray(times_utc, dtype="datetime64[ns]")
+    if site_names is None:
+        if len(sites) != 1:
+            raise ValueError("times without site names need exactly one site")
+        site_names = [sites[0].name] * times.size
     names = np.asarray(site_names, dtype=object)
     if names.shape != times.shape:
         raise ValueError(f"{names.size} site names for {times.size} times")
@@ -648,5 +688,7 @@ def mag_err_for_times(
         extra = dict(kwargs)
         if exp is not None:
             extra["exposure_s"] = exp[idx]
-        out[idx] = mag_err_from_geometry(geom, site.instrument, comet=comet, **extra)
+        out[idx] = mag_err_from_geometry(geom, site.instrument, **extra)
+    if fallback_mag_err is not None:
+        out = np.where(np.isfinite(out), out, float(fallback_mag_err))
     return out

@@ -412,10 +412,26 @@ def test_comet_columns_and_fixed_km_aperture():
     out = photometry_columns(g, inst, comet=True, aperture_km=5000.0)
     assert out["aperture_km"].tolist() == pytest.approx([5000.0, 5000.0])
     assert out["aperture_arcsec"].iloc[0] == pytest.approx(2 * out["aperture_arcsec"].iloc[1])
-    assert "afrho_cm" in out
-    assert out["afrho_cm"].to_numpy() == pytest.approx(
-        afrho_cm(15.0, SUN_MAG_BY_BAND["R"], 1.5, np.array([1.0, 2.0]), 5000.0))
     assert "afrho_cm" not in photometry_columns(g, inst, comet=False)
+    # Default coma aperture: a fixed 10 000 km radius.
+    assert photometry_columns(g, inst, comet=True)["aperture_km"].tolist() == pytest.approx([1e4, 1e4])
+
+
+def test_afrho_of_a_1_over_rho_coma_does_not_depend_on_the_aperture():
+    # A'Hearn et al. (1984): for a steady 1/ρ coma the flux inside ρ grows as ρ, so Afρ is the same in
+    # every aperture. With the total magnitude counted out to ρ_c = 20 000 km, Afρ equals the formula
+    # evaluated at ρ = ρ_c with the total magnitude: r = 1.5, Δ = 1 au, m = 15, m_sun(R) = −27.152:
+    # (2 × 1.495978707e13 × 1.5)² / 2e9 × 10^(0.4 × (−27.152 − 15)) = 2.014157e27 / 2e9 × 10^−16.8608.
+    inst = Instrument(aperture_m=1.0, pixel_scale_arcsec=0.4, zero_point_mag=24.0, seeing_arcsec=1.2)
+    g = _geom(1)
+    by_aperture = [photometry_columns(g, inst, comet=True, aperture_km=km)["afrho_cm"].iloc[0]
+                   for km in (2000.0, 5000.0, 15_000.0)]
+    expected = 2.014157e27 / 2e9 * 10 ** -16.8608
+    assert by_aperture == pytest.approx([expected] * 3, rel=1e-5)
+    # And the magnitude inside 5000 km is 2.5 log10(4) = 1.505 mag fainter than the total.
+    from planner.photometry import coma_aperture_mag
+    assert float(coma_aperture_mag(15.0, 5000.0, 20_000.0)) == pytest.approx(16.50515, abs=1e-5)
+    assert float(coma_aperture_mag(15.0, 50_000.0, 20_000.0)) == pytest.approx(15.0)
 
 
 def test_missing_geometry_column_is_named():
@@ -437,15 +453,16 @@ def test_source_kind_from_the_brightness_law():
     g = _geom(1)
     with pytest.raises(ValueError, match="comet"):
         photometry_columns(g, inst)
-    g.attrs["mag_law"] = "comet_total"  # coma light: the whole magnitude counts inside the aperture
+    g.attrs["mag_law"] = "comet_total"  # coma light, in a fixed 10 000 km aperture by default
     total = photometry_columns(g, inst, exposure_s=30.0)
-    assert np.isfinite(total["afrho_cm"].iloc[0])
-    g.attrs["mag_law"] = "comet_nuclear"  # a bare nucleus: point source, no Afρ
+    assert np.isfinite(total["afrho_cm"].iloc[0]) and total["aperture_km"].iloc[0] == pytest.approx(1e4)
+    g.attrs["mag_law"] = "comet_nuclear"  # a bare nucleus: point source in a seeing-sized aperture, no Afρ
     nuclear = photometry_columns(g, inst, exposure_s=30.0)
-    assert np.isnan(nuclear["afrho_cm"].iloc[0])
-    assert nuclear["snr_pred"].iloc[0] < total["snr_pred"].iloc[0]  # only 94 % of the PSF inside r = FWHM
-    g.attrs["mag_law"] = "asteroid_hg"
-    assert "afrho_cm" not in photometry_columns(g, inst)
+    assert np.isnan(nuclear["afrho_cm"].iloc[0]) and nuclear["aperture_arcsec"].iloc[0] == pytest.approx(1.2)
+    g.attrs["mag_law"] = "asteroid_hg"  # the same point-source photometry, no Afρ column
+    asteroid = photometry_columns(g, inst, exposure_s=30.0)
+    assert "afrho_cm" not in asteroid
+    assert asteroid["snr_pred"].iloc[0] == pytest.approx(nuclear["snr_pred"].iloc[0])
 
 
 def test_add_photometry_joins_instrument_sites_only(tmp_path):
@@ -461,3 +478,77 @@ def test_add_photometry_joins_instrument_sites_only(tmp_path):
     assert set(PHOTOMETRY_COLUMNS) <= set(out[with_inst.name].columns)
     assert out[with_inst.name].attrs["mag_law"] == "asteroid_hg"
     assert "snr_pred" not in out[bare.name]
+
+
+# ---------------------------------------------------------------- with real geometry (demo comet)
+
+DEMO_TARGET = "demo_targets/c2034-b3-quillfeather.toml"
+
+
+def test_mag_err_for_times_on_the_demo_comet(root):
+    from planner.ephemeris import geometry
+    from planner.photometry import mag_err_for_times
+    from planner.targets import load_target
+
+    tgt = load_target(root / DEMO_TARGET)
+    karoo, salmon = load_site(root / "sites/karoo-ridge.toml"), load_site(root / "sites/salmon-gum.toml")
+    # Karoo: comet high at 00:00 UTC, set by 06:00 (see the ephem table); Salmon Gum: up at 12:00.
+    times = np.array(["2034-03-19T00:00", "2034-03-19T06:00", "2034-03-19T12:00", "2034-03-19T12:00"],
+                     dtype="datetime64[ns]")
+    names = ["Karoo Ridge", "Karoo Ridge", "Salmon Gum", "Elsewhere"]
+    err = mag_err_for_times(tgt, times, names, [karoo, salmon])
+    assert np.isfinite(err[0]) and np.isnan(err[1]) and np.isfinite(err[2]) and np.isnan(err[3])
+    # The same numbers as the table route for those epochs.
+    ref = photometry_columns(geometry(tgt, times[:1], [karoo])["Karoo Ridge"], karoo.instrument)
+    assert err[0] == pytest.approx(ref["mag_err_pred"].iloc[0])
+    # Planned exposures reach the default S/N goal of 50: σ = 1.0857/50.
+    assert err[0] == pytest.approx(1.0857 / 50, rel=1e-3)
+    filled = mag_err_for_times(tgt, times, names, [karoo, salmon], fallback_mag_err=0.03)
+    assert filled[1] == 0.03 and filled[3] == 0.03 and filled[0] == err[0]
+    # Logged exposures: a longer exposure gives a smaller error; NaN keeps the planned one.
+    logged = mag_err_for_times(tgt, times, names, [karoo, salmon], exposure_s=[120.0, np.nan, np.nan, 5.0])
+    assert logged[0] < err[0] and logged[2] == err[2]
+    with pytest.raises(ValueError, match="one site"):
+        mag_err_for_times(tgt, times, None, [karoo, salmon])
+
+
+@pytest.mark.parametrize("path", SITES, ids=lambda p: p.stem)
+def test_demo_comet_plausible_at_every_site(root, path):
+    # The demo comet (total magnitude ≈ 12.2, Δ ≈ 0.59 au) in a 10 000 km aperture, on the night of
+    # 2034-03-19, sampled hourly: whenever it is up in the dark, one exposure of seconds to minutes
+    # reaches S/N 50 (common practice for a 12th-magnitude comet on 0.5–2 m telescopes), well inside
+    # the trailing limit at ≈ 2.6″/min, and Afρ is the same at every site (a property of the comet).
+    from planner.ephemeris import geometry
+    from planner.photometry import add_photometry
+    from planner.targets import load_target
+    from planner.timegrid import time_grid
+
+    tgt = load_target(root / DEMO_TARGET)
+    site = load_site(path)
+    times = time_grid(np.datetime64("2034-03-19T00:00"), np.datetime64("2034-03-20T00:00"), 3600.0)
+    frame = add_photometry(geometry(tgt, times, [site]), [site])[site.name]
+    dark = frame[frame["snr_pred"].notna()]
+    assert len(dark) >= 4
+    assert dark["exposure_s"].between(1.0, 120.0).all()
+    assert (dark["exposure_s"] <= dark["trail_limit_s"]).all()
+    assert (dark["snr_pred"] >= 50.0 * (1 - 1e-9)).all()
+    assert frame["afrho_cm"].between(60.0, 70.0).all()  # same comet, same number at every site
+
+
+def test_ephem_command_adds_photometry_for_instrument_sites(root, tmp_path, monkeypatch):
+    from planner.cli import main
+
+    monkeypatch.chdir(root)
+    bare = tmp_path / "bare.toml"
+    bare.write_text('name = "No Camera"\nlatitude_deg = -30\nlongitude_deg = -70\n')
+    out = tmp_path / "e.csv"
+    with pytest.raises(SystemExit) as exc:
+        main(["ephem", "--target", DEMO_TARGET, "--site", "sites/karoo-ridge.toml", "--site", str(bare),
+              "--start", "2034-03-19T00:00", "--stop", "2034-03-19T02:00", "--format", "csv", "--out", str(out),
+              "--snr", "100"])
+    assert exc.value.code in (0, None)
+    df = pd.read_csv(out)
+    karoo = df[df["site"] == "Karoo Ridge"]
+    assert karoo["snr_pred"].to_numpy() == pytest.approx(100.0, rel=1e-6)
+    assert df[df["site"] == "No Camera"]["snr_pred"].isna().all()
+    assert {"exposure_s", "trail_limit_s", "aperture_arcsec", "aperture_km", "afrho_cm"} <= set(df.columns)
