@@ -639,6 +639,41 @@ def add_photometry(frames: dict[str, pd.DataFrame], sites: Sequence[Site], **kwa
     return out
 
 
+def window_photometry(
+    windows_df: pd.DataFrame, target: Target, sites: Sequence[Site], *, time_column: str = "best_utc",
+    **kwargs: Any,
+) -> pd.DataFrame:
+    """Photometry columns for each observing window (``planner.windows.observable_windows`` rows),
+    evaluated at ``time_column`` (the window's highest altitude by default), plus
+    ``n_exposures_window``: whole exposures in min(``hours``, ``night_budget_h``) after one block
+    overhead. One ``geometry()`` call per site, vectorised over its windows. Rows without a time
+    (nights with no window) or at sites without an instrument are left blank.
+    """
+    from planner.ephemeris import geometry  # lazy: ephemeris → sites → photometry at import time
+
+    parts = []
+    by_name = {s.name: s for s in sites}
+    for name, rows in windows_df.groupby("site", sort=False):
+        site = by_name.get(name)
+        rows = rows[rows[time_column].notna()]
+        if site is None or site.instrument is None or rows.empty:
+            continue
+        times = rows[time_column].to_numpy(dtype="datetime64[ns]")
+        geom = geometry(target, times, [site])[site.name]
+        geom.index = rows.index
+        phot = photometry_columns(geom, site.instrument, **kwargs)
+        block_h = rows["hours"].to_numpy(dtype=float)
+        if "night_budget_h" in rows:
+            block_h = np.fmin(block_h, rows["night_budget_h"].to_numpy(dtype=float))
+        n = exposures_per_block(block_h * 3600.0, phot["exposure_s"].to_numpy(dtype=float),
+                                site.instrument.readout_s, site.instrument.overhead_s)
+        phot["n_exposures_window"] = pd.array(np.where(phot["exposure_s"].notna(), n, np.nan), dtype="Int64")
+        parts.append(phot)
+    if not parts:
+        return pd.DataFrame(index=windows_df.index)
+    return pd.concat(parts).reindex(windows_df.index)
+
+
 def mag_err_from_geometry(
     geom_df: pd.DataFrame, instrument: Instrument, *, comet: bool | None = None, **kwargs: Any
 ) -> np.ndarray:

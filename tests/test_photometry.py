@@ -552,3 +552,28 @@ def test_ephem_command_adds_photometry_for_instrument_sites(root, tmp_path, monk
     assert karoo["snr_pred"].to_numpy() == pytest.approx(100.0, rel=1e-6)
     assert df[df["site"] == "No Camera"]["snr_pred"].isna().all()
     assert {"exposure_s", "trail_limit_s", "aperture_arcsec", "aperture_km", "afrho_cm"} <= set(df.columns)
+
+
+def test_window_photometry_on_the_demo_windows(root):
+    import datetime
+
+    from planner.photometry import window_photometry
+    from planner.targets import load_target
+    from planner.windows import observable_windows
+
+    tgt = load_target(root / DEMO_TARGET)
+    sites = [load_site(p) for p in SITES]
+    windows = observable_windows(tgt, sites, datetime.date(2034, 3, 19), 1)
+    # A night without a window (no best time) must pass through blank.
+    empty = windows.iloc[:1].copy()
+    empty["best_utc"] = pd.NaT
+    windows = pd.concat([windows, empty.assign(site="Karoo Ridge")], ignore_index=True)
+    phot = window_photometry(windows, tgt, sites)
+    assert list(phot.index) == list(windows.index)
+    seen = phot.iloc[:-1]
+    assert seen["snr_pred"].notna().all() and pd.isna(phot["snr_pred"].iloc[-1])
+    # Exposures in a window: (min(hours, budget) × 3600 − overhead) // (exposure + readout), by hand for one row.
+    row, w = seen.iloc[0], windows.iloc[0]
+    inst = sites[[s.name for s in sites].index(w["site"])].instrument
+    block_s = min(w["hours"], w["night_budget_h"]) * 3600.0
+    assert row["n_exposures_window"] == (block_s - inst.overhead_s) // (row["exposure_s"] + inst.readout_s)
