@@ -1,9 +1,11 @@
 """Photometry and exposure planning: sky brightness with moonlight, CCD signal-to-noise, exposure
 time under a trailing limit, photometric apertures of fixed angular or physical size, and Afρ.
 
-Pure, vectorised functions over numpy arrays (broadcasting over epochs and sites); the one
-DataFrame entry point is :func:`photometry_columns`. Magnitudes follow Pogson (1856): a difference
-Δm is a flux ratio 10^(0.4 Δm).
+Pure, vectorised functions over numpy arrays (broadcasting over epochs and sites). Table entry
+points: :func:`photometry_columns` (one site's geometry table), :func:`add_photometry` (a whole
+``geometry()`` result), :func:`window_photometry` (observing windows) and :func:`mag_err_for_times`
+(per-point σ for the diagnostics). Magnitudes follow Pogson (1856): a difference Δm is a flux
+ratio 10^(0.4 Δm).
 
 Methods
 -------
@@ -11,7 +13,8 @@ Methods
   ("A model of the brightness of moonlight"), their eqs. 1–3, 15, 16–21.
 - Signal-to-noise: the CCD equation of Merline, W. J. & Howell, S. B. (1995), Experimental
   Astronomy 6, 163, as given in Howell, S. B. (2006), Handbook of CCD Astronomy, 2nd ed., §4.4.
-- Dust production proxy Afρ: A'Hearn, M. F. et al. (1984), AJ 89, 579.
+- Dust production proxy Afρ: A'Hearn, M. F. et al. (1984), AJ 89, 579; the same paper's steady
+  1/ρ coma sets how a comet's total magnitude divides among apertures.
 
 Band conventions
 ----------------
