@@ -46,6 +46,7 @@ from planner.photometry import (
 )
 from planner.sites import Instrument, load_site
 
+rates = st.floats(1e-2, 1e6)
 SITES = sorted((Path(__file__).resolve().parent.parent / "sites").glob("*.toml"))
 
 
@@ -200,6 +201,34 @@ def test_ccd_equation_by_hand():
     assert float(source_rate_e_per_s(15.0, 25.0, 0.2, 1.5)) == pytest.approx(7585.78, abs=0.01)
 
 
+def test_ccd_equation_against_simulated_exposures():
+    # Independent route: simulate the measurement itself. Photon counts are Poisson (source + sky +
+    # dark in n_pix pixels), read noise Gaussian per pixel, the sky and dark level known and
+    # subtracted (n_B → ∞). The scatter of the measured counts must match the CCD equation's noise
+    # (Merline & Howell 1995): N* = 4000 e-, sky 150 e-/pix, dark 2 e-/pix, R = 8 e-, n_pix = 40.
+    rng = np.random.default_rng(1995)
+    n_star, sky, dark, read, npix, trials = 4000.0, 150.0, 2.0, 8.0, 40, 200_000
+    counts = rng.poisson(n_star + npix * (sky + dark), trials) + rng.normal(0.0, read * math.sqrt(npix), trials)
+    measured = counts - npix * (sky + dark)
+    empirical_snr = n_star / measured.std()
+    predicted = float(ccd_snr(n_star, sky, dark, read, npix, 1.0))
+    assert predicted == pytest.approx(n_star / math.sqrt(n_star + npix * (sky + dark + read**2)))
+    assert empirical_snr == pytest.approx(predicted, rel=0.01)  # 200 000 trials: std known to ~0.16 %
+    assert measured.mean() == pytest.approx(n_star, rel=0.002)
+
+
+@settings(max_examples=100, deadline=None)
+@given(src=rates, sky=st.floats(0.0, 1e4), read=st.floats(0.0, 30.0), t=st.floats(0.01, 1e4),
+       factor=st.floats(1.01, 10.0))
+def test_snr_grows_with_exposure(src, sky, read, t, factor):
+    # Howell (2006) §4.4: every term of the CCD equation but the read noise grows as t, so S/N rises
+    # monotonically with exposure, never faster than t (read-noise limit) nor slower than √t.
+    s1 = float(ccd_snr(src, sky, 0.01, read, 20.0, t))
+    s2 = float(ccd_snr(src, sky, 0.01, read, 20.0, t * factor))
+    assert s1 < s2 <= s1 * factor * (1 + 1e-12)
+    assert s2 >= s1 * math.sqrt(factor) * (1 - 1e-12)
+
+
 def test_bright_and_faint_limits():
     # Howell (2006) §4.4: a bright source is photon-limited, S/N → √N*; a faint one is
     # background-limited, S/N ∝ N* / √(n_pix N_S) and grows as √t.
@@ -213,8 +242,6 @@ def test_gaussian_enclosed_fraction():
     # Gaussian PSF: half the light lies within r = FWHM/2; 1 − 2^−4 = 0.9375 within r = FWHM.
     assert gaussian_enclosed_fraction([1.0, 2.0], 2.0) == pytest.approx([0.5, 0.9375])
 
-
-rates = st.floats(1e-2, 1e6)
 
 
 @settings(max_examples=300, deadline=None)
