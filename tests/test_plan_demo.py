@@ -185,3 +185,20 @@ def test_greedy_against_exact_on_a_demo_sub_instance(demo, record_property):
     assert ex["greedy_ratio"] >= core.objective["guarantee"]["ratio"]
     record_property("demo_sub_instance_greedy_over_exact", ex["greedy_ratio"])
     print(f"greedy/exact on the demo sub-instance: {ex['greedy_ratio']:.4f}")
+
+
+def test_a_failure_while_writing_leaves_the_old_plan_untouched(demo, tmp_path, monkeypatch):
+    _, r = demo
+    out = tmp_path / "plan"
+    out.mkdir()
+    (out / "plan.csv").write_text("old plan\n")
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("disk full")
+
+    monkeypatch.setattr("planner.planfiles.site_sheet", broken)
+    with pytest.raises(RuntimeError):
+        write_plan_folder(r, out, force=True)
+    assert sorted(p.name for p in out.iterdir()) == ["plan.csv"]
+    assert (out / "plan.csv").read_text() == "old plan\n"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["plan"]  # no temporary folder left behind
