@@ -17,10 +17,6 @@ from planner.planfiles import write_plan_folder
 from planner.replan import read_done_log
 from planner.schedule import plan_campaign, schedule_core
 
-# Until the windows and photometry branches are merged, these modules are absent: skip, never fake.
-pytest.importorskip("planner.windows")
-pytest.importorskip("planner.photometry")
-
 
 @pytest.fixture(scope="module")
 def demo(request):
