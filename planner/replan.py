@@ -1,9 +1,8 @@
 """Re-planning from a log of what was done: observed times and lost nights.
 
-The log is a CSV file (read, never written): ``time_utc`` (mid-exposure, ISO 8601 UTC) and optional
-``site``, ``exposure_s``, ``mag_err`` like any observation log, plus two columns of our own for
-re-planning: ``status`` (``observed``, the default, or ``lost``) and ``night`` (local date of the
-evening, for ``lost`` rows; a ``lost`` row with no ``site`` loses that night at every site).
+The log is an observation log (read, never written) in the one format of :mod:`planner.obslog`:
+``time_utc``, ``site``, ``exposure_s``, ``mag_err``, ``status`` (``observed`` or ``lost``) and
+``night`` (a ``lost`` row with no ``site`` loses that night at every site).
 
 What it means for the plan: nothing is scheduled before the last logged exposure ends; lost
 site-nights are skipped; time already observed at a site comes off that site-night's budget and
@@ -21,8 +20,8 @@ import numpy as np
 import pandas as pd
 
 from planner.errors import InputError
+from planner.obslog import read_observation_log
 from planner.sites import Site
-from planner.timegrid import parse_utc
 
 #: Observed times closer than this belong to one run (one visit).
 RUN_GAP_S = 900.0
@@ -48,55 +47,23 @@ class DoneLog:
 
 
 def read_done_log(path: str | Path, sites: tuple[Site, ...] | list[Site]) -> DoneLog:
-    """Read and validate a log of observed times and lost nights (the file is only read)."""
-    p = Path(path)
-    if not p.is_file():
-        raise InputError(str(p), "-", "file not found")
-    try:
-        df = pd.read_csv(p, dtype=str, keep_default_na=False, comment="#")
-    except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError) as exc:
-        raise InputError(str(p), "-", f"not a readable CSV file ({str(exc).splitlines()[0]})") from None
-    cols = [c.strip() for c in df.columns]
-    df.columns = cols
-    if "time_utc" not in cols:
-        raise InputError(str(p), "time_utc", "missing column (mid-exposure times, ISO 8601 UTC)")
+    """Read a log of observed times and lost nights (planner.obslog, the one log reader; the file is
+    only read) and check its site names against the campaign's. Observed rows with no exposure take
+    a default of 60 s; lost rows with no site stand for every campaign site."""
+    log = read_observation_log(path)
     names = {s.name for s in sites}
-    times, site_col, exp_col, err_col, lost = [], [], [], [], set()
-    for i, row in enumerate(df.to_dict("records")):
-        line = i + 2
-        status = (row.get("status") or "observed").strip().lower()
-        site = (row.get("site") or "").strip()
+    known = ", ".join(sorted(names))
+    for site, n in zip(log.site_or().tolist(), log.rows.tolist(), strict=True):
         if site and site not in names:
-            raise InputError(str(p), f"line {line}: site",
-                             f"{site!r} is not a campaign site ({', '.join(sorted(names))})")
-        if status == "lost":
-            text = (row.get("night") or "").strip()
-            try:
-                night = date.fromisoformat(text)
-            except ValueError:
-                raise InputError(str(p), f"line {line}: night",
-                                 f"{text!r}: a lost row needs the local date of the evening, e.g. 2034-03-17") from None
-            for name in ([site] if site else sorted(names)):
-                lost.add((name, night))
-            continue
-        if status != "observed":
-            raise InputError(str(p), f"line {line}: status", f"{status!r} is not observed or lost")
-        times.append(parse_utc(row["time_utc"], str(p), f"line {line}: time_utc"))
-        site_col.append(site)
-        exp_text = (row.get("exposure_s") or "").strip()
-        err_text = (row.get("mag_err") or "").strip()
-        try:
-            exp = float(exp_text) if exp_text else _DEFAULT_EXPOSURE_S
-            err = float(err_text) if err_text else np.nan
-        except ValueError:
-            raise InputError(str(p), f"line {line}: exposure_s/mag_err", "not a number") from None
-        if not (0.0 < exp < 86400.0):
-            raise InputError(str(p), f"line {line}: exposure_s", f"{exp:g} is outside (0, 86400)")
-        exp_col.append(exp)
-        err_col.append(err)
-    return DoneLog(path=str(p), times_utc=np.array(times, dtype="datetime64[ns]"),
-                   site=np.array(site_col, dtype=object),
-                   exposure_s=np.array(exp_col, dtype=float), mag_err=np.array(err_col, dtype=float), lost=lost)
+            raise InputError(log.path, f"site (row {n})", f"{site!r} is not a campaign site ({known})")
+    lost: set[tuple[str, date]] = set()
+    for row in log.lost:
+        if row.site and row.site not in names:
+            raise InputError(log.path, f"site (row {row.row})", f"{row.site!r} is not a campaign site ({known})")
+        for name in ([row.site] if row.site else sorted(names)):
+            lost.add((name, row.night))
+    return DoneLog(path=log.path, times_utc=log.times_utc, site=log.site_or(),
+                   exposure_s=log.exposure_or(_DEFAULT_EXPOSURE_S), mag_err=log.mag_err_or(np.nan), lost=lost)
 
 
 def evening_date(times_utc: np.ndarray, site: Site) -> list[date]:

@@ -150,7 +150,7 @@ def render_table(d: dict) -> str:
 def register(app: typer.Typer) -> None:
     @app.command("check")
     def check(
-        times_csv: Annotated[Path, typer.Argument(help="CSV log: time_utc, optional site, exposure_s, mag_err")],
+        times_csv: Annotated[Path, typer.Argument(help="observation log CSV (docs/formats.md): time_utc, optional site, exposure_s, mag_err, status, night")],
         min_period: Annotated[str, typer.Option("--min-period", help="shortest rotation period (2h, 90m)")] = "2h",
         max_period: Annotated[str, typer.Option("--max-period", help="longest rotation period (30h, 2d)")] = "30h",
         target: Annotated[Path | None, typer.Option("--target", help="target file: adds the geometric trend "
@@ -183,6 +183,8 @@ def register(app: typer.Typer) -> None:
         if p_max < p_min:
             raise InputError("command line", "--max-period", "is shorter than --min-period")
         log = read_observation_log(times_csv)
+        if log.times_utc.size == 0:
+            raise InputError(str(times_csv), "status", f"no observed rows to check ({len(log.lost)} lost rows only)")
         tgt = None
         if target is not None:
             from planner.targets import load_target
@@ -201,6 +203,8 @@ def register(app: typer.Typer) -> None:
             if bar is not None:
                 bar.close()
         d = result.to_dict()
+        if log.lost:
+            d["notes"].append(f"the log's {len(log.lost)} lost site-night row(s) were skipped (no times to check)")
         text = json.dumps(d, indent=1, allow_nan=False) + "\n" if fmt == "json" else render_table(d)
         if plot is not None:
             from planner.plots_check import write_check_plots
