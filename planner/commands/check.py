@@ -150,7 +150,8 @@ def render_table(d: dict) -> str:
 def register(app: typer.Typer) -> None:
     @app.command("check")
     def check(
-        times_csv: Annotated[Path, typer.Argument(help="observation log CSV: time_utc, optional site, exposure_s, mag_err, status, night")],
+        times_csv: Annotated[Path, typer.Argument(help="observation log CSV: time_utc, optional site, "
+                                                  "exposure_s, mag_err, status, night")],
         min_period: Annotated[str, typer.Option("--min-period", help="shortest rotation period (2h, 90m)")] = "2h",
         max_period: Annotated[str, typer.Option("--max-period", help="longest rotation period (30h, 2d)")] = "30h",
         target: Annotated[Path | None, typer.Option("--target", help="target file: adds the geometric trend "
