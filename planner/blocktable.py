@@ -29,13 +29,14 @@ DEFAULT_READOUT_S = 10.0
 
 def _empty() -> tuple[pd.DataFrame, pd.DataFrame]:
     return (pd.DataFrame({c: [] for c in BLOCK_COLUMNS}),
-            pd.DataFrame({"time_utc": np.array([], dtype="datetime64[ns]"), "site": [], "mag_err": []}))
+            pd.DataFrame({"time_utc": np.array([], dtype="datetime64[ns]"), "site": [], "mag_err": [], "airmass": []}))
 
 
 def block_table(visits: list[Visit], grid: SlotGrid, target, sites: tuple[Site, ...] | list[Site],
                 snr_target: float, min_exposure_s: float = 30.0,
                 max_exposure_s: float = 300.0) -> tuple[pd.DataFrame, pd.DataFrame]:
-    """One row per visit (BLOCK_COLUMNS), and the planned exposures (time_utc, site, mag_err)."""
+    """One row per visit (BLOCK_COLUMNS), and the planned exposures (time_utc, site, mag_err, airmass;
+    the airmass interpolated between the slot-boundary samples)."""
     from planner.ephemeris import geometry
     from planner.nights import local_iso
     from planner.photometry import exposures_per_block, photometry_columns
@@ -115,7 +116,11 @@ def block_table(visits: list[Visit], grid: SlotGrid, target, sites: tuple[Site, 
                 cycle_ns = np.int64(round((plan_exp[k] + readout) * 1e9))
                 half_ns = np.int64(round(plan_exp[k] * 0.5e9))
                 t_exp = t_sci[k] + (np.arange(n, dtype=np.int64) * cycle_ns + half_ns).astype("timedelta64[ns]")
-                exposures.append(pd.DataFrame({"time_utc": t_exp, "site": name, "mag_err": float(err[k])}))
+                sel = which == k
+                t_s = (t_samples[sel] - grid.t_ref).astype(np.int64)
+                x_exp = np.interp((t_exp - grid.t_ref).astype(np.int64), t_s, samples["airmass"].to_numpy(float)[sel])
+                exposures.append(pd.DataFrame({"time_utc": t_exp, "site": name, "mag_err": float(err[k]),
+                                               "airmass": x_exp}))
     table = pd.DataFrame(rows).sort_values("_order").drop(columns="_order").reset_index(drop=True)
     table = table[list(BLOCK_COLUMNS)]
     exp = pd.concat(exposures, ignore_index=True) if exposures else _empty()[1]
@@ -123,7 +128,8 @@ def block_table(visits: list[Visit], grid: SlotGrid, target, sites: tuple[Site, 
 
 
 def binned_points(exposures: pd.DataFrame, t_ref: np.datetime64, bin_s: float) -> pd.DataFrame:
-    """Consecutive exposures of one site combined per ``bin_s`` slot: mean time, error / √n.
+    """Consecutive exposures of one site combined per ``bin_s`` slot: mean time, error / √n (and the
+    mean airmass when the exposures carry one).
 
     Light-curve points of a slowly rotating body are commonly stacks of consecutive frames
     (common practice); the diagnostics run on these points, which keeps them fast without
@@ -136,52 +142,14 @@ def binned_points(exposures: pd.DataFrame, t_ref: np.datetime64, bin_s: float) -
     key = ns // np.int64(round(bin_s * 1e9))
     df = pd.DataFrame({"site": exposures["site"].to_numpy(), "key": key, "ns": ns,
                        "w": 1.0 / np.square(exposures["mag_err"].to_numpy(dtype=float))})
+    if "airmass" in exposures:
+        df["airmass"] = exposures["airmass"].to_numpy(dtype=float)
     g = df.groupby(["site", "key"], sort=False)
     mean_ns = g["ns"].mean().round().astype(np.int64)
     w = g["w"].sum()
     out = pd.DataFrame({"time_utc": np.datetime64(t_ref, "ns") + mean_ns.to_numpy().astype("timedelta64[ns]"),
                         "site": [s for s, _ in mean_ns.index], "mag_err": 1.0 / np.sqrt(w.to_numpy()),
                         "n_frames": g.size().to_numpy()})
+    if "airmass" in df:
+        out["airmass"] = g["airmass"].mean().to_numpy()
     return out.sort_values("time_utc", kind="stable").reset_index(drop=True)
-
-
-def part_weights(grid: SlotGrid, windows: pd.DataFrame, target, sites: tuple[Site, ...] | list[Site],
-                 snr_target: float, min_exposure_s: float = 30.0, max_exposure_s: float = 300.0) -> np.ndarray:
-    """Relative weight 1/σ² of one science slot at each site-night (mean 1), from the predicted
-    per-exposure error at the window's highest-altitude time times the frames one slot holds.
-
-    Feeds the weighted spectral window of the objective so that it matches the ``check`` diagnostics
-    (which weight by 1/σ²). Site-nights without a prediction get the median weight.
-    """
-    from planner.ephemeris import geometry
-    from planner.photometry import photometry_columns
-
-    n = len(grid.parts)
-    if n == 0:
-        return np.ones(0)
-    by_name = {s.name: s for s in sites}
-    w = windows[windows["best_utc"].notna()].copy()
-    w["_night"] = pd.to_datetime(w["night"]).dt.date
-    best = {}
-    for (site, night), rows in w.groupby(["site", "_night"]):
-        best[(site, night)] = np.datetime64(rows.loc[rows["max_alt_deg"].idxmax(), "best_utc"], "ns")
-    out = np.full(n, np.nan)
-    comet = getattr(target, "kind", "comet") == "comet"
-    for name in dict.fromkeys(p.site for p in grid.parts):  # one geometry call per site
-        site = by_name[name]
-        idx = [i for i, p in enumerate(grid.parts) if p.site == name and (p.site, p.night) in best]
-        if not idx or site.instrument is None:
-            continue
-        times = np.array([best[(grid.parts[i].site, grid.parts[i].night)] for i in idx], dtype="datetime64[ns]")
-        geo = geometry(target, times, [site])[name]
-        phot = photometry_columns(geo, site.instrument, comet=comet, snr_target=snr_target,
-                                  min_exposure_s=min_exposure_s, max_exposure_s=max_exposure_s)
-        err = phot["mag_err_pred"].to_numpy(dtype=float)
-        frames = np.maximum(np.floor(grid.slot_s / (phot["exposure_s"].to_numpy(dtype=float)
-                                                     + site.instrument.readout_s)), 1.0)
-        out[idx] = frames / np.square(err)
-    finite = np.isfinite(out) & (out > 0)
-    if not finite.any():
-        return np.ones(n)
-    out[~finite] = np.median(out[finite])
-    return out / out.mean()

@@ -24,9 +24,9 @@ _TOP_KEYS = {"name", "target", "sites", "first_night", "nights", "seed", "rotati
 _ROTATION_KEYS = {"min_period_h", "max_period_h", "double_peaked", "amplitude_mag", "phase_bins", "oversample"}
 _BLOCK_KEYS = {"slot_min", "min_block_h", "max_block_h", "setup_min", "max_per_night"}
 _CADENCE_KEYS = {"max_gap_h"}
-_WEIGHT_KEYS = {"coverage", "robustness", "alias", "cadence", "hours"}
+_WEIGHT_KEYS = {"coverage", "robustness", "alias", "cadence", "hours", "quality"}
 _WEATHER_KEYS = {"trials"}
-_PHOTOMETRY_KEYS = {"snr_target", "min_exposure_s", "max_exposure_s"}
+_PHOTOMETRY_KEYS = {"snr_target", "min_exposure_s", "max_exposure_s", "max_airmass", "sys_err_mag_per_airmass"}
 _DIAGNOSTICS_KEYS = {"trials"}
 _OVERRIDE_KEYS = {"hours_per_night", "blocks", "clear_fraction", "total_hours"}
 
@@ -71,6 +71,8 @@ class Weights:
     alias: float = 0.5
     cadence: float = 0.5
     hours: float = 0.1
+    #: Photometric quality of the time used (planner.quality): favours low airmass and precise sites.
+    quality: float = 1.0
 
 
 @dataclass(frozen=True)
@@ -94,6 +96,10 @@ class Campaign:
     #: targets (scintillation, data volume; common practice); trailing may still cut below the floor.
     min_exposure_s: float = 30.0
     max_exposure_s: float = 300.0
+    #: Soft airmass limit: slots above it earn no quality credit (common practice: X below ~2).
+    max_airmass: float = 2.0
+    #: Photometric error per unit airmass left by extinction changes (planner.quality), mag.
+    sys_err_mag_per_airmass: float = 0.005
     #: Injection–recovery trials per diagnostics run (phasewise check); 0 skips them.
     check_trials: int = 100
     #: Whole-campaign hour budget per site name (absent: no budget beyond the nightly allocation).
@@ -249,6 +255,8 @@ def load_campaign(path: str | Path) -> Campaign:
         check_trials=dg_f.int("trials", 100, lo=0, hi=100_000),
         min_exposure_s=min_exp,
         max_exposure_s=max_exp,
+        max_airmass=ph_f.float("max_airmass", 2.0, lo=1.0, hi=40.0),
+        sys_err_mag_per_airmass=ph_f.float("sys_err_mag_per_airmass", 0.005, lo=0.0, lo_open=True, hi=1.0),
         total_hours=total_hours,
     )
 

@@ -1,4 +1,4 @@
-"""Local search on the full objective (coverage, weather-expected coverage, alias and cadence terms).
+"""Local search on the full objective (coverage, weather-expected coverage, alias, cadence, hours and quality).
 
 Starting from the greedy's visits, try — in an order drawn from the campaign's seed — to move a
 visit (shift it along the night), grow or shrink it at either end, swap it for a visit in another
@@ -69,9 +69,18 @@ def _neighbours(v: Visit) -> list[Visit]:
     return out
 
 
+def element_credit(state: PlanState) -> tuple[float, np.ndarray]:
+    """Weight of one coverage cell and each greedy element's slot credit (quality and hours), as the greedy
+    scores them: candidates are ranked by ``cell_weight · new cells + credit``."""
+    c = state.model.slot_credit()
+    cum = np.concatenate([[0.0], np.cumsum(c.value)])
+    return c.cell_weight, cum[c.elem_i1] - cum[c.elem_i0]
+
+
 def _candidates(state: PlanState, packed: np.ndarray, rng: np.random.Generator,
-                ignore: Visit | None) -> list[Visit]:
-    """Greedy elements that could be added now: the best by coverage gain plus a few at random."""
+                ignore: Visit | None, credit: tuple[float, np.ndarray] | None = None) -> list[Visit]:
+    """Greedy elements that could be added now: the best by the greedy's gain (coverage plus slot
+    credit; an element never overlaps a kept visit of its site-night) plus a few at random."""
     grid = state.model.grid
     if grid.n_elements == 0:
         return []
@@ -82,7 +91,9 @@ def _candidates(state: PlanState, packed: np.ndarray, rng: np.random.Generator,
         cov_packed = pack_cells(covered)
     else:
         cov_packed = state.covered_packed()
-    gains = coverage_gains(packed, cov_packed)
+    gains = coverage_gains(packed, cov_packed).astype(float)
+    if credit is not None:
+        gains = credit[0] * gains + credit[1]
     # Cheap vectorised screen: the site-night has room for another visit of its unit length.
     others = [v for v in state.visits if v != ignore]
     n_in = np.zeros(len(grid.parts), dtype=np.int64)
@@ -119,6 +130,7 @@ def local_search(state: PlanState, packed: np.ndarray, seed: int, max_evaluation
     grid = state.model.grid
     rng = np.random.default_rng(seed)
     stats = SearchStats()
+    credit = element_credit(state)
 
     def try_moves(remove: list[Visit], options: list[Visit]) -> bool:
         for new in options:
@@ -137,7 +149,7 @@ def local_search(state: PlanState, packed: np.ndarray, seed: int, max_evaluation
         stats.passes += 1
         improved = False
         # Add where time is left.
-        while try_moves([], _candidates(state, packed, rng, None)):
+        while try_moves([], _candidates(state, packed, rng, None, credit)):
             improved = True
         visits = list(state.visits)
         for i in rng.permutation(len(visits)):
@@ -149,7 +161,7 @@ def local_search(state: PlanState, packed: np.ndarray, seed: int, max_evaluation
             if try_moves([v], options):
                 improved = True
                 continue
-            if try_moves([v], _candidates(state, packed, rng, v)):
+            if try_moves([v], _candidates(state, packed, rng, v, credit)):
                 improved = True
         if not improved:
             break

@@ -214,6 +214,7 @@ class Terms:
     excess_gap_h: float
     gap_fraction: float
     hours_fraction: float
+    quality: float
     total: float
 
     def to_dict(self) -> dict[str, float]:

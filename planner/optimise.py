@@ -1,4 +1,4 @@
-"""The optimiser: lazy greedy on coverage, merge into visits, then local search on the full objective.
+"""The optimiser: lazy greedy on coverage plus slot credit, merge into visits, then local search on the full objective.
 
 See :mod:`planner.greedy` for the ground set, constraints and the guarantee that holds, and
 :mod:`planner.localsearch` for the moves. Pure: slot grid and model in, visits out.
@@ -31,11 +31,12 @@ class Optimised:
 
 
 def optimise(model: PlanModel, seed: int, max_evaluations: int = 6000) -> Optimised:
-    """Greedy (lazy gains) on the coverage term, then local search on the full objective."""
+    """Greedy (lazy gains) on coverage plus the slots' quality and hours credit, then local search on the
+    full objective."""
     t0 = time.perf_counter()
     packed = model.element_packed()
     t1 = time.perf_counter()
-    g = greedy_lazy(model.grid, packed, pack_cells(model.done_cells))
+    g = greedy_lazy(model.grid, packed, pack_cells(model.done_cells), model.slot_credit())
     t2 = time.perf_counter()
     greedy_visits = merge_elements(model.grid, g.elements)
     state = PlanState(model, greedy_visits)

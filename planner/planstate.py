@@ -21,9 +21,19 @@ from planner.objective import (
     pack_cells,
     point_mask,
     point_window_sum,
-    window_sum,
 )
 from planner.slots import SlotGrid
+
+
+@dataclass(frozen=True)
+class SlotCredit:
+    """The greedy's per-slot credit: ``value`` per flat slot (quality and hours shares), each
+    element's science-slot range ``[elem_i0, elem_i1)`` in that layout, and the weight of one cell."""
+
+    value: np.ndarray
+    elem_i0: np.ndarray
+    elem_i1: np.ndarray
+    cell_weight: float
 
 #: Chance a site-night is clear is kept inside (0, 1) so log-survival stays finite.
 _CLEAR_CLIP = (1e-6, 1.0 - 1e-9)
@@ -56,7 +66,7 @@ class Done:
 class PlanModel:
     def __init__(self, grid: SlotGrid, periods_h: np.ndarray, n_bins: int, freq_per_day: np.ndarray,
                  weights: Weights, max_gap_h: float, done: Done | None = None,
-                 part_weight: np.ndarray | None = None) -> None:
+                 slot_weight: list[np.ndarray] | None = None, slot_quality: list[np.ndarray] | None = None) -> None:
         self.grid = grid
         self.periods_h = np.asarray(periods_h, dtype=float)
         self.n_bins = int(n_bins)
@@ -71,10 +81,25 @@ class PlanModel:
             else np.zeros(0)
         self.done_phasor = point_window_sum((done_slots + 0.5) * grid.slot_h, self.freq_per_day)
         self.done_n = float(done_slots.size)
-        #: Weight of one science slot per site-night in the spectral window (1/σ², mean 1), as in a
-        #: weighted window W = Σ w e^{2πiνt} / Σ w; already-observed slots weigh 1.
-        self.part_weight = (np.ones(len(grid.parts)) if part_weight is None
-                            else np.asarray(part_weight, dtype=float))
+        # Quality of every slot (planner.quality), parts laid end to end over their slot spans.
+        self.part_lo, self.part_off, n_flat = grid.part_spans()
+        q_flat = self._flat(slot_quality, n_flat, "slot_quality", 1.0)
+        self.slot_quality = q_flat
+        self._quality_cum = np.concatenate([[0.0], np.cumsum(q_flat)])
+        #: Weight of each science slot in the spectral window (its precision 1/σ², mean 1), as in a
+        #: weighted window W = Σ w e^{2πiνt} / Σ w (what ``check`` computes); already-observed slots weigh 1.
+        self.slot_weight = self._flat(slot_weight, n_flat, "slot_weight", 1.0)
+        sizes = [p.intervals[-1][1] - p.intervals[0][0] for p in grid.parts]
+        slots = (np.concatenate([np.arange(a, a + n) for a, n in zip(self.part_lo, sizes, strict=True)])
+                 if sizes else np.zeros(0))
+        #: Centre of every flat slot, hours from t_ref.
+        self.slot_centre_h = (slots + 0.5) * grid.slot_h
+        # Prefix sums of w·e^{2πiνt} and of w: any visit's window sum in O(frequencies).
+        phasors = self.slot_weight[:, None] * np.exp(2j * np.pi * np.outer(self.slot_centre_h / 24.0,
+                                                                           self.freq_per_day))
+        self._phasor_cum = np.vstack([np.zeros((1, self.freq_per_day.size), dtype=complex),
+                                      np.cumsum(phasors, axis=0)])
+        self._weight_cum = np.concatenate([[0.0], np.cumsum(self.slot_weight)])
         clear = np.array([p.clear_fraction for p in grid.parts], dtype=float)
         self.log_cloudy = np.log1p(-np.clip(clear, *_CLEAR_CLIP))
         lo, hi = grid.span_slots
@@ -88,6 +113,15 @@ class PlanModel:
             per_site[p.site_index] = per_site.get(p.site_index, 0) + p.budget_slots
         self.budget_slots = int(sum(min(v, grid.site_budget_slots.get(k, v)) for k, v in per_site.items()))
 
+    @staticmethod
+    def _flat(arrays: list[np.ndarray] | None, n_flat: int, name: str, default: float) -> np.ndarray:
+        if arrays is None:
+            return np.full(n_flat, default)
+        flat = np.concatenate([np.asarray(a, dtype=float) for a in arrays]) if arrays else np.zeros(0)
+        if flat.size != n_flat:
+            raise ValueError(f"{name} holds {flat.size} slots, the site-nights span {n_flat}")
+        return flat
+
     # --- per-visit pieces -------------------------------------------------------------------------
     def science_h(self, start: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         return self.grid.science_hours(start, length)
@@ -96,10 +130,45 @@ class PlanModel:
         t0, t1 = self.science_h(starts, lengths)
         return arc_mask(t0, t1, self.periods_h, self.n_bins)
 
-    def visit_phasors(self, starts: np.ndarray, lengths: np.ndarray) -> np.ndarray:
-        s = np.asarray(starts) + self.grid.setup_slots
-        n = np.asarray(lengths) - self.grid.setup_slots
-        return window_sum(s * self.grid.slot_h, n, self.grid.slot_h, self.freq_per_day)
+    def visit_phasors(self, parts: np.ndarray, starts: np.ndarray, lengths: np.ndarray) -> tuple[np.ndarray,
+                                                                                                  np.ndarray]:
+        """Weighted window sums Σ w e^{2πiνt} over each visit's science slots (N, F), and Σ w (N,)."""
+        i0, i1 = self.science_flat(parts, starts, lengths)
+        return self._phasor_cum[i1] - self._phasor_cum[i0], self._weight_cum[i1] - self._weight_cum[i0]
+
+    def visit_phasors_slow(self, part: int, start: int, length: int) -> tuple[np.ndarray, float]:
+        """Slow twin of :meth:`visit_phasors` for one visit: add each science slot's phasor in turn."""
+        a, b = self.science_flat(np.array([part]), np.array([start]), np.array([length]))
+        i0, i1 = int(a[0]), int(b[0])
+        total = np.zeros(self.freq_per_day.size, dtype=complex)
+        weight = 0.0
+        for i in range(i0, i1):
+            total += self.slot_weight[i] * np.exp(2j * np.pi * self.freq_per_day * self.slot_centre_h[i] / 24.0)
+            weight += float(self.slot_weight[i])
+        return total, weight
+
+    def science_flat(self, part: np.ndarray, start: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Flat index range ``[i0, i1)`` (``slot_quality`` layout) of the science slots of visits."""
+        p = np.asarray(part, dtype=np.int64)
+        base = self.part_off[p] - self.part_lo[p]
+        st = np.asarray(start, dtype=np.int64)
+        return base + st + self.grid.setup_slots, base + st + np.asarray(length, dtype=np.int64)
+
+    def quality_sum(self, visits: list[Visit]) -> float:
+        """Σ slot quality over the science slots of visits (visits of one site-night never overlap)."""
+        if not visits:
+            return 0.0
+        i0, i1 = self.science_flat(np.array([v.part for v in visits]), np.array([v.start for v in visits]),
+                                   np.array([v.length for v in visits]))
+        return float(np.sum(self._quality_cum[i1] - self._quality_cum[i0]))
+
+    def slot_credit(self) -> SlotCredit:
+        """What the greedy adds to coverage: each science slot's share of the quality and hours terms."""
+        g = self.grid
+        w = self.weights
+        value = (w.quality * self.slot_quality + w.hours) / max(self.budget_slots, 1)
+        i0, i1 = self.science_flat(g.elem_part, g.elem_start, g.elem_len)
+        return SlotCredit(value=value, elem_i0=i0, elem_i1=i1, cell_weight=w.coverage / max(self.n_cells, 1))
 
     def element_packed(self) -> np.ndarray:
         """Cells of every greedy element, packed (E, W); built once, in chunks to bound memory."""
@@ -116,15 +185,17 @@ class PlanModel:
         return self.visit_masks(g.elem_start[idx], g.elem_len[idx])
 
     # --- scoring from scratch (reference) --------------------------------------------------------
-    def combine(self, coverage: float, expected: float, alias: float, gap_h: float, used_slots: int) -> Terms:
+    def combine(self, coverage: float, expected: float, alias: float, gap_h: float, used_slots: int,
+                quality_slots: float = 0.0) -> Terms:
         span = max(self.span_h[1] - self.span_h[0], 1e-9)
         w = self.weights
         gap_frac = gap_h / span
         hours_frac = used_slots / max(self.budget_slots, 1)
+        quality = quality_slots / max(self.budget_slots, 1)
         total = (w.coverage * coverage + w.robustness * expected - w.alias * alias - w.cadence * gap_frac
-                 + w.hours * hours_frac)
+                 + w.hours * hours_frac + w.quality * quality)
         return Terms(coverage=coverage, expected_coverage=expected, alias=alias, excess_gap_h=gap_h,
-                     gap_fraction=gap_frac, hours_fraction=hours_frac, total=total)
+                     gap_fraction=gap_frac, hours_fraction=hours_frac, quality=quality, total=total)
 
     def intervals_h(self, visits: list[Visit]) -> np.ndarray:
         if not visits:
@@ -144,16 +215,17 @@ class PlanModel:
             m = self.visit_masks(np.array([v.start]), np.array([v.length]))[0]
             covered |= m
             per_part[v.part] = per_part.get(v.part, np.zeros_like(m)) | m
-            w = self.part_weight[v.part]
-            phasor = phasor + w * self.visit_phasors(np.array([v.start]), np.array([v.length]))[0]
-            n += w * (v.length - self.grid.setup_slots)
+            ph, w = self.visit_phasors_slow(v.part, v.start, v.length)
+            phasor = phasor + ph
+            n += w
         log_surv = np.zeros(covered.shape)
         for p, m in per_part.items():
             log_surv += m * self.log_cloudy[p]
         expected = np.where(self.done_cells, 1.0, 1.0 - np.exp(log_surv)).mean()
         alias = float(np.abs(phasor).max() / n) if n > 0 and phasor.size else 0.0
         gap = excess_gap_h(self.intervals_h(visits), self.span_h, self.max_gap_h)
-        return self.combine(float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits))
+        return self.combine(float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits),
+                            self.quality_sum(visits))
 
 
 class PlanState:
@@ -168,17 +240,17 @@ class PlanState:
         self.log_surv = np.zeros(shape)
         self.phasor = model.done_phasor.copy()
         self.n_slots = model.done_n
-        self._cache: dict[Visit, tuple[np.ndarray, np.ndarray]] = {}
+        self._cache: dict[Visit, tuple[np.ndarray, np.ndarray, float]] = {}
         for v in visits:
             self.apply([], [v])
         self.current = self.score([], [])
 
-    def _pieces(self, v: Visit) -> tuple[np.ndarray, np.ndarray]:
+    def _pieces(self, v: Visit) -> tuple[np.ndarray, np.ndarray, float]:
         hit = self._cache.get(v)
         if hit is None:
             m = self.model.visit_masks(np.array([v.start]), np.array([v.length]))[0]
-            ph = self.model.part_weight[v.part] * self.model.visit_phasors(np.array([v.start]), np.array([v.length]))[0]
-            hit = (m, ph)
+            ph, w = self.model.visit_phasors(np.array([v.part]), np.array([v.start]), np.array([v.length]))
+            hit = (m, ph[0], float(w[0]))
             if len(self._cache) > _CACHE_VISITS:
                 self._cache.clear()
             self._cache[v] = hit
@@ -192,10 +264,10 @@ class PlanState:
         touched: dict[int, np.ndarray] = {}
         for sign, group in ((-1, remove), (1, add)):
             for v in group:
-                m, ph = self._pieces(v)
+                m, ph, w = self._pieces(v)
                 counts += sign * m
                 phasor += sign * ph
-                n += sign * model.part_weight[v.part] * (v.length - model.grid.setup_slots)
+                n += sign * w
                 pc = touched.get(v.part)
                 if pc is None:
                     base = self.part_counts.get(v.part)
@@ -217,7 +289,8 @@ class PlanState:
         alias = float(np.abs(phasor).max() / n) if n > 0 and phasor.size else 0.0
         visits = [v for v in self.visits if v not in remove] + list(add)
         gap = excess_gap_h(model.intervals_h(visits), model.span_h, model.max_gap_h)
-        return model.combine(float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits))
+        return model.combine(float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits),
+                             model.quality_sum(visits))
 
     def apply(self, remove: list[Visit], add: list[Visit]) -> None:
         counts, phasor, n, touched, log_surv = self._updated(remove, add)

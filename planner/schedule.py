@@ -21,12 +21,13 @@ import numpy as np
 import pandas as pd
 
 from planner.baseline import baseline_visits
-from planner.blocktable import binned_points, block_table, part_weights
+from planner.blocktable import binned_points, block_table
 from planner.campaign import Campaign
 from planner.errors import InputError
 from planner.objective import alias_freq_grid
 from planner.optimise import optimise, total_slots
 from planner.planstate import Done, PlanModel, Visit
+from planner.quality import slot_precision
 from planner.replan import DoneLog, done_runs, read_done_log, used_hours
 from planner.robustness import weather_monte_carlo
 from planner.slots import SlotGrid, build_slots
@@ -86,9 +87,12 @@ def _hours_since(times_utc: np.ndarray, t_ref: np.datetime64) -> np.ndarray:
 
 def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | None = None, *,
                   exact: bool = False, exact_time_limit_s: float = 60.0, max_evaluations: int = 6000,
-                  weight_fn: Callable[[SlotGrid], np.ndarray] | None = None) -> PlanCore:
+                  precision_fn: Callable[[SlotGrid], tuple[list[np.ndarray], list[np.ndarray]]] | None = None
+                  ) -> PlanCore:
     """Optimise on a windows table: slots, greedy + local search, baseline, robustness, and the exact
-    optimum when asked. ``weight_fn(grid)`` gives each site-night's spectral-window weight (default 1)."""
+    optimum when asked. ``precision_fn(grid)`` gives, per site-night, the precision 1/σ² and airmass
+    of every slot of its span (planner.quality.slot_precision); they set the slots' quality and each
+    site-night's spectral-window weight. Without it every slot has quality 1 and weight 1."""
     from planner.coverage import period_grid_h
 
     t_ref = t_ref_for(campaign)
@@ -112,14 +116,17 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
     periods = period_grid_h(rot.min_period_h, rot.max_period_h, span_h, rot.oversample)
     freqs = alias_freq_grid(rot.min_period_h, rot.max_period_h, span_h, rot.double_peaked)
     freqs = freqs[freqs <= ALIAS_MAX_FREQ_PER_DAY]
+    weight = quality = None
+    if precision_fn is not None:
+        weight, quality = quality_and_weights(*precision_fn(grid), max_airmass=campaign.max_airmass)
     model = PlanModel(grid, periods, rot.phase_bins, freqs, campaign.weights, campaign.max_gap_h, done_model,
-                      part_weight=None if weight_fn is None else weight_fn(grid))
+                      slot_weight=weight, slot_quality=quality)
     opt = optimise(model, seed=campaign.seed, max_evaluations=max_evaluations)
     base = baseline_visits(grid, windows, total_slots(opt.visits))
     base_terms = model.terms(base)
     objective = {
         "definition": ("J = w_cov*coverage + w_rob*expected_coverage - w_alias*alias - w_cad*gap_fraction"
-                       " + w_hours*hours_fraction"),
+                       " + w_hours*hours_fraction + w_quality*quality"),
         "weights": {k: float(v) for k, v in campaign.weights.__dict__.items()},
         "heuristic": opt.terms.to_dict(),
         "greedy": {**opt.greedy_terms.to_dict(), "covered_cells": opt.greedy.covered_cells,
@@ -133,12 +140,16 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
     }
     if exact:
         from planner.exact import exact_coverage
+        from planner.greedy import greedy_lazy
+        from planner.objective import pack_cells
 
-        ex = exact_coverage(model, time_limit_s=exact_time_limit_s, greedy_cells=opt.greedy.covered_cells)
+        # The exact mode solves coverage alone, so it is measured against the coverage-only greedy.
+        cov_greedy = greedy_lazy(grid, model.element_packed(), pack_cells(model.done_cells))
+        ex = exact_coverage(model, time_limit_s=exact_time_limit_s, greedy_cells=cov_greedy.covered_cells)
         objective["exact"] = {
             "covered_cells": ex.covered_cells, "upper_bound_cells": ex.upper_bound_cells, "optimal": ex.optimal,
-            "seconds": ex.seconds, "status": ex.status,
-            "greedy_ratio": (opt.greedy.covered_cells / ex.upper_bound_cells
+            "seconds": ex.seconds, "status": ex.status, "coverage_greedy_cells": cov_greedy.covered_cells,
+            "greedy_ratio": (cov_greedy.covered_cells / ex.upper_bound_cells
                              if ex.upper_bound_cells and (ex.optimal or ex.covered_cells) else None),
         }
     trials = campaign.weather_trials
@@ -148,6 +159,22 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
     }
     return PlanCore(grid=grid, model=model, visits=opt.visits, baseline=base, objective=objective,
                     robustness=robustness)
+
+
+def quality_and_weights(precision: list[np.ndarray], airmass: list[np.ndarray], *,
+                        max_airmass: float) -> tuple[list[np.ndarray], list[np.ndarray]]:
+    """Per site-night slot arrays: spectral-window weight (precision 1/σ², mean 1 over the slots where it is
+    known, the mean elsewhere) and quality (planner.quality.slot_quality, 0 where unknown)."""
+    from planner.quality import slot_quality
+
+    flat = np.concatenate(precision) if precision else np.zeros(0)
+    finite = np.isfinite(flat) & (flat > 0)
+    if not finite.any():
+        return [np.ones(p.size) for p in precision], [np.zeros(p.size) for p in precision]
+    mean, best = float(flat[finite].mean()), float(flat[finite].max())
+    weight = [np.where(np.isfinite(p) & (p > 0), p, mean) / mean for p in precision]
+    quality = [slot_quality(p, x, max_airmass, best) for p, x in zip(precision, airmass, strict=True)]
+    return weight, quality
 
 
 def _worst_coverage(check: dict) -> float | None:
@@ -191,9 +218,12 @@ def geometry_sample(target, sites, grid: SlotGrid) -> pd.DataFrame:
 
 def _check(campaign: Campaign, exposures: pd.DataFrame, done: DoneLog | None, target, trials: int) -> dict:
     from planner.diagnostics import check_times
+    from planner.quality import point_sigma_mag
 
     times = exposures["time_utc"].to_numpy("datetime64[ns]")
     err = exposures["mag_err"].to_numpy(dtype=float)
+    if "airmass" in exposures:  # each point also carries the airmass-dependent error (planner.quality)
+        err = point_sigma_mag(err, 1, exposures["airmass"].to_numpy(dtype=float), campaign.sys_err_mag_per_airmass)
     site = exposures["site"].to_numpy(dtype=object)
     if done is not None and done.times_utc.size:
         times = np.concatenate([done.times_utc, times])
@@ -231,7 +261,9 @@ def plan_campaign(campaign: Campaign, done_log: str | Path | None = None, *, exa
     phot = dict(snr_target=campaign.snr_target, min_exposure_s=campaign.min_exposure_s,
                 max_exposure_s=campaign.max_exposure_s)
     core = schedule_core(campaign, windows, done, exact=exact, exact_time_limit_s=exact_time_limit_s,
-                         weight_fn=lambda grid: part_weights(grid, windows, target, campaign.sites, **phot))
+                         precision_fn=lambda grid: slot_precision(
+                             grid, target, campaign.sites, sys_err_mag_per_airmass=campaign.sys_err_mag_per_airmass,
+                             **phot))
     timings["schedule"] = time.perf_counter() - t
     t = time.perf_counter()
     blocks, exposures = block_table(core.visits, core.grid, target, campaign.sites, **phot)

@@ -68,6 +68,14 @@ class SlotGrid:
         ns = np.asarray(slot, dtype=np.int64) * np.int64(round(self.slot_s * 1e9))
         return self.t_ref + ns.astype("timedelta64[ns]")
 
+    def part_spans(self) -> tuple[np.ndarray, np.ndarray, int]:
+        """Flat layout of every site-night's slot span (first to last usable slot), parts end to end:
+        first slot per part, offset of that slot in the flat array, and the flat length."""
+        lo = np.array([p.intervals[0][0] for p in self.parts], dtype=np.int64)
+        size = np.array([p.intervals[-1][1] - p.intervals[0][0] for p in self.parts], dtype=np.int64)
+        off = np.concatenate([[0], np.cumsum(size)[:-1]]).astype(np.int64) if size.size else size
+        return lo, off, int(size.sum())
+
     def science_hours(self, start: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Science interval (hours from t_ref) of visits: the set-up takes the first slots."""
         s = np.asarray(start, dtype=float)
