@@ -589,10 +589,11 @@ def photometry_columns(
     wanted = exposure_for_snr_s(snr_target, rate, sky_rate, **noise)
     upper = np.minimum(max_exposure_s, trail)
     t = np.minimum(np.maximum(wanted, min_exposure_s), upper)
-    # What set the exposure: the S/N goal, the floor (S/N above goal), the trailing cap or the ceiling.
+    # What set the exposure: the S/N goal, the trailing cap (it wins even below the floor), the floor
+    # (S/N above goal) or the ceiling.
     limited = np.select(
-        [np.isclose(t, wanted, rtol=1e-12, atol=0.0), t > wanted, t == trail],
-        ["snr", "min_exposure", "trailing"], "max_exposure",
+        [np.isclose(t, wanted, rtol=1e-12, atol=0.0), t == trail, t > wanted],
+        ["snr", "trailing", "min_exposure"], "max_exposure",
     ).astype(object)
     if exposure_s is not None:  # logged exposures where given (finite), the plan elsewhere
         given = np.broadcast_to(np.asarray(exposure_s, dtype=float), rate.shape)

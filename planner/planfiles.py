@@ -19,9 +19,14 @@ from planner.schedule import PlanResult
 
 #: Files of a plan folder (the report helper reads exactly these names).
 PLAN_FILES = ("plan.csv", "plan.json", "baseline.csv", "diagnostics.json", "windows.csv", "geometry.csv",
-              "campaign.toml", "sheets/")
+              "nights.csv", "campaign.toml", "sheets/")
 SUN_CAUTION = ("Pointing near the Sun can destroy equipment and blind people: follow the observatory's own "
                "rules and licensed practice, which always prevail over this plan.")
+#: Units of the printed night-by-night table (under it).
+TABLE_LEGEND = ("columns: night = local evening date; local and UTC block start-end (hh:mm, incl. set-up); h = hours; "
+                "exp = exposures x seconds; RA, Dec in deg (mid-block); mot = sky motion arcsec/min at position "
+                "angle PA deg; alt = altitude range deg; X = airmass range; moon = Moon separation deg; "
+                "mag = predicted magnitude; S/N per exposure")
 #: Margin above a site's solar-elongation limit inside which a block gets a Sun caution (common practice).
 SUN_MARGIN_DEG = 10.0
 
@@ -99,7 +104,25 @@ def night_table(blocks: pd.DataFrame) -> str:
             f"{_fmt(r.alt_min_deg, '.0f', 3)}-{_fmt(r.alt_max_deg, '.0f', 3)} "
             f"{_fmt(r.airmass_min, '.2f', 4)}-{_fmt(r.airmass_max, '.2f', 4)} {_fmt(r.moon_sep_deg, '.0f', 4)} "
             f"{_fmt(r.mag_pred, '.1f', 5)} {_fmt(r.snr_pred, '.0f', 5)}")
+    lines.append(TABLE_LEGEND)
     return "\n".join(lines) + "\n"
+
+
+def nights_text(result: PlanResult) -> str:
+    """Hours planned against hours granted per site, then every site-night without a block and why."""
+    n = result.nights
+    if n is None or n.empty:
+        return ""
+    per = n.groupby("site", sort=False)[["planned_h", "budget_h"]].sum()
+    out = ["hours planned / usable allocation: "
+           + ", ".join(f"{site} {r.planned_h:.1f}/{r.budget_h:.1f}" for site, r in per.iterrows())]
+    empty = n[n["blocks"] == 0]
+    if len(empty):
+        out.append("site-nights without a block:")
+        out += [f"  {r.night}  {r.site}: {r.note}" for r in empty.itertuples(index=False)]
+    else:
+        out.append("every site has a block on every night")
+    return "\n".join(out) + "\n"
 
 
 def safety_text(result: PlanResult) -> str:
@@ -173,15 +196,16 @@ def _dec_dms(dec_deg: float) -> str:
     return f"{sign}{int(dd):02d}d{int(mm):02d}m{int(ss):02d}s"
 
 
-def _cautions(r, site) -> list[str]:
+def _cautions(r, site, max_airmass: float = 2.0) -> list[str]:
     out = []
     if math.isfinite(r.solar_elong_deg) and r.solar_elong_deg < site.min_solar_elong_deg + SUN_MARGIN_DEG:
         out.append(f"target only {r.solar_elong_deg:.0f} deg from the Sun: {SUN_CAUTION}")
     if math.isfinite(r.sun_alt_max_deg) and r.sun_alt_max_deg > -18.0:
         out.append(f"part of the block is in twilight (Sun up to {r.sun_alt_max_deg:.0f} deg): keep clear of the "
                    "Sun's side of the sky and watch the sky brightness")
-    if math.isfinite(r.airmass_max) and r.airmass_max > 2.0:
-        out.append(f"airmass reaches {r.airmass_max:.1f}: expect extinction changes; take comparison stars")
+    if math.isfinite(r.airmass_max) and r.airmass_max > max_airmass:
+        out.append(f"airmass reaches {r.airmass_max:.1f} (campaign limit {max_airmass:g}): expect extinction "
+                   "changes; take comparison stars")
     if math.isfinite(r.moon_sep_deg) and r.moon_sep_deg < 45.0 and r.moon_illum > 0.3:
         out.append(f"Moon {r.moon_sep_deg:.0f} deg away, {100 * r.moon_illum:.0f}% lit")
     if r.exposure_limited_by == "trailing":
@@ -205,11 +229,17 @@ def site_sheet(result: PlanResult, site) -> str:
         "SAFETY: " + SUN_CAUTION,
         "",
     ]
-    if b.empty:
-        lines.append("No blocks for this site in this plan.")
-        return "\n".join(lines) + "\n"
     t = table_for_files(b)
-    for night, rows in t.groupby("night", sort=True):
+    by_night = dict(tuple(t.groupby("night", sort=True)))
+    notes = result.nights[result.nights["site"] == site.name] if result.nights is not None and len(result.nights) \
+        else pd.DataFrame({"night": sorted(by_night), "note": ""})
+    if not len(notes) and not by_night:
+        lines.append("No blocks for this site in this plan.")
+    for night, note in zip(notes["night"], notes["note"], strict=True):
+        rows = by_night.get(night)
+        if rows is None:
+            lines += [f"Night of {night} (local evening date): no block. {note[:1].upper() + note[1:]}", ""]
+            continue
         lines.append(f"Night of {night} (local evening date)")
         for k, r in enumerate(rows.itertuples(index=False), 1):
             exp = (f"{r.n_exposures} x {r.exposure_s:.0f} s" if isinstance(r.exposure_s, float)
@@ -226,7 +256,7 @@ def site_sheet(result: PlanResult, site) -> str:
                 f"    exposures: {exp}; predicted mag {r.mag_pred:.1f}, S/N per exposure "
                 f"{_fmt(r.snr_pred, '.0f', 0).strip()}",
             ]
-            for c in _cautions(r, site):
+            for c in _cautions(r, site, camp.max_airmass):
                 lines.append(f"    CAUTION: {c}")
         lines.append("")
     return "\n".join(lines) + "\n"
@@ -250,6 +280,7 @@ def _write_folder(result: PlanResult, folder: Path) -> None:
     (folder / "diagnostics.json").write_text(json.dumps(diagnostics_json(result), indent=1) + "\n")
     table_for_files(result.windows).to_csv(folder / "windows.csv", index=False)
     table_for_files(result.geometry).to_csv(folder / "geometry.csv", index=False, float_format="%.6g")
+    result.nights.to_csv(folder / "nights.csv", index=False, float_format="%.4g")
     shutil.copyfile(result.campaign.path, folder / "campaign.toml")
     for site in result.campaign.sites:
         (folder / "sheets" / f"{slug(site.name)}.txt").write_text(site_sheet(result, site))

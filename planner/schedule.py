@@ -24,6 +24,7 @@ from planner.baseline import baseline_visits
 from planner.blocktable import binned_points, block_table
 from planner.campaign import Campaign
 from planner.errors import InputError
+from planner.nightnotes import night_notes
 from planner.objective import alias_freq_grid
 from planner.optimise import optimise, total_slots
 from planner.planstate import Done, PlanModel, Visit
@@ -62,6 +63,8 @@ class PlanResult:
     done_log: str | None = None
     replan: dict = field(default_factory=dict)
     timings_s: dict = field(default_factory=dict)
+    #: Every site and campaign night: blocks planned, or why none (planner.nightnotes.NOTE_COLUMNS).
+    nights: pd.DataFrame = field(default_factory=pd.DataFrame)
 
 
 @dataclass
@@ -74,6 +77,8 @@ class PlanCore:
     baseline: list[Visit]
     objective: dict
     robustness: dict
+    #: Every site and campaign night: blocks planned, or why none (planner.nightnotes).
+    nights: pd.DataFrame = field(default_factory=pd.DataFrame)
 
 
 def t_ref_for(campaign: Campaign) -> np.datetime64:
@@ -157,8 +162,10 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
         "plan": weather_monte_carlo(model, opt.visits, trials, campaign.seed).to_dict(),
         "baseline": weather_monte_carlo(model, base, trials, campaign.seed).to_dict(),
     }
+    nights = night_notes(campaign, windows, grid, model, opt.visits, lost=None if done is None else done.lost,
+                         not_before_utc=None if done is None else done.end_utc)
     return PlanCore(grid=grid, model=model, visits=opt.visits, baseline=base, objective=objective,
-                    robustness=robustness)
+                    robustness=robustness, nights=nights)
 
 
 def quality_and_weights(precision: list[np.ndarray], airmass: list[np.ndarray], *,
@@ -286,4 +293,4 @@ def plan_campaign(campaign: Campaign, done_log: str | Path | None = None, *, exa
                       objective=core.objective, robustness=core.robustness, windows=windows, geometry=geo,
                       comparison=compare(diagnostics["plan"], diagnostics["baseline"]), exposures=exposures,
                       baseline_exposures=base_exposures, done_log=None if done is None else done.path,
-                      replan=replan, timings_s=timings)
+                      replan=replan, timings_s=timings, nights=core.nights)

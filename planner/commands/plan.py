@@ -30,6 +30,7 @@ def register(app: typer.Typer) -> None:
         from planner.planfiles import (
             comparison_text,
             night_table,
+            nights_text,
             plan_json,
             safety_text,
             table_for_files,
@@ -58,6 +59,7 @@ def register(app: typer.Typer) -> None:
                              f"sites, {camp.nights} nights from {camp.first_night.isoformat()}"
                              + (f" (re-planned from {result.done_log})" if result.done_log else "") + "\n\n")
             sys.stdout.write(night_table(result.blocks))
+            sys.stdout.write(nights_text(result))
             sys.stdout.write(safety_text(result))
             sys.stdout.write("\n" + comparison_text(result))
             if out is not None:
