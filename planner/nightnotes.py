@@ -9,8 +9,10 @@ without a block the note says which of these holds (first match):
 - ``too short``: windows or allocation left (after anything already observed) are shorter than the
   shortest block, or fixed allocation blocks miss the window;
 - ``site budget``: the site's whole-campaign hours (``total_hours``) are already planned elsewhere;
-- ``not needed``: a block would fit, but the best one the optimiser could place lowers the
-  objective; the note gives the change and the term that makes it worse.
+- ``not needed``: a block would fit, but the best one lowers the objective; the note gives the
+  change and the term that makes it worse;
+- ``unplaced``: a block would raise the objective but the search stopped (evaluation budget)
+  before placing it; the note says so.
 """
 
 from __future__ import annotations
@@ -26,8 +28,8 @@ from planner.planstate import PlanModel, PlanState, Visit
 from planner.slots import SlotGrid
 
 NOTE_COLUMNS = ("site", "night", "blocks", "planned_h", "budget_h", "window_h", "status", "note")
-#: Placements tried per empty site-night when explaining it (spread over the night).
-_TRIES = 48
+#: Placements tried per empty site-night when explaining it (all of them up to this many, else spread).
+_TRIES = 400
 _TERM_WORDS = {"alias": ("alias", -1), "gap_fraction": ("cadence gaps", -1), "coverage": ("coverage", 1),
                "expected_coverage": ("weather-expected coverage", 1), "hours_fraction": ("hours", 1),
                "quality": ("quality", 1)}
@@ -69,7 +71,7 @@ def night_notes(campaign: Campaign, windows: pd.DataFrame, grid: SlotGrid, model
     """One row per site and campaign night (NOTE_COLUMNS): blocks and hours planned, the site-night's
     hour budget (allocation within the window, less anything observed; 0 when unusable), window hours,
     ``status`` (``planned``, ``lost``, ``past``, ``no window``, ``too short``, ``site budget``,
-    ``not needed``) and a one-line ``note`` for the observer."""
+    ``not needed``, ``unplaced``) and a one-line ``note`` for the observer."""
     lost = lost or set()
     nights = [campaign.first_night + timedelta(days=k) for k in range(campaign.nights)]
     w = windows.copy()
@@ -111,9 +113,13 @@ def night_notes(campaign: Campaign, windows: pd.DataFrame, grid: SlotGrid, model
                     status = "site budget"
                     note = (f"site budget: its campaign hours (total_hours = {campaign.total_hours.get(site.name)}) "
                             "are planned on other nights")
-                else:
+                elif delta <= 0:
                     status = "not needed"
                     note = (f"not needed: the best {v.length * grid.slot_h:.1f} h block here would change the "
                             f"objective by {delta:+.4f} ({_worst_term(model, terms)})")
+                else:
+                    status = "unplaced"
+                    note = (f"unplaced: the search stopped before placing a block here; a "
+                            f"{v.length * grid.slot_h:.1f} h block would raise the objective by {delta:+.4f}")
             rows.append({**row, "status": status, "note": note})
     return pd.DataFrame(rows, columns=list(NOTE_COLUMNS))

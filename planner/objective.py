@@ -5,7 +5,7 @@ interval ``[t0, t1]`` folded on a trial period ``P`` covers a circular arc of ro
 into ``n_bins`` equal bins, the *cells* (period, bin) it touches are what it contributes.
 
 Terms of the objective (all in [0, 1]; the plan maximises
-``J = w_cov·Cov + w_rob·ECov − w_alias·Alias − w_cad·Gap + w_hours·Hours``):
+``J = w_cov·Cov + w_rob·ECov − w_alias·Alias − w_cad·Gap + w_hours·Hours + w_quality·Quality``):
 
 - ``Cov``: fraction of (period, bin) cells touched by at least one visit. A coverage function, hence
   monotone submodular (Nemhauser, Wolsey & Fisher 1978): the greedy works on it.
@@ -14,10 +14,15 @@ Terms of the objective (all in [0, 1]; the plan maximises
   It rewards cells seen from several sites, so a period band held by one site only counts less.
 - ``Alias``: the highest spectral-window peak ``|W(ν)|`` (Deeming 1975, Ap&SS 36, 137) over the
   frequencies whose aliases land in the searched band, using science-slot centres as the times;
-  equal to the length of the mean unit phasor at ν (Eyer & Bartholdi 1999, A&AS 135, 1).
+  equal to the length of the mean unit phasor at ν (Eyer & Bartholdi 1999, A&AS 135, 1); each slot
+  weighted by its precision 1/σ², as ``check`` weights its window.
 - ``Gap``: hours of network-wide silence beyond ``max_gap_h``, as a fraction of the campaign span.
 - ``Hours``: telescope time used, as a fraction of what the allocations allow (granted time left
   unused is lost; more frames also sharpen the brightness trend). Modular, so the sum stays submodular.
+- ``Quality``: the science slots' photometric quality (planner.quality: precision 1/σ² with an
+  airmass-proportional extinction error, relative to the campaign's best slot, 0 above the soft
+  ``max_airmass``) summed, over the slots the allocations allow: favours precise, low-airmass time.
+  A weighted coverage of slots (non-negative weights), so it keeps the greedy's function submodular.
 
 Each vectorised kernel keeps a slow, obvious twin (suffix ``_slow``) that the tests compare against.
 """

@@ -406,6 +406,16 @@ def test_trailing_cap_respected(motion, mag, snr):
         assert math.sqrt(n) * out["snr_pred"].iloc[0] >= snr * (1 - 1e-9)
 
 
+def test_exposure_cut_below_the_floor_by_trailing_says_trailing():
+    # A bright fast mover: S/N goal met in well under a second, floor 30 s, but trailing by half the
+    # seeing (1.6" / 2 at 6"/min) allows only 8 s (hand computation): the trailing cap set the exposure.
+    inst = Instrument(aperture_m=0.6, pixel_scale_arcsec=0.6, seeing_arcsec=1.6)
+    out = photometry_columns(_geom(1, motion_arcsec_min=[6.0], mag_pred=[9.0]), inst, comet=False,
+                             snr_target=30.0, min_exposure_s=30.0)
+    assert out["exposure_s"].iloc[0] == pytest.approx(8.0, rel=1e-9)
+    assert out["exposure_limited_by"].iloc[0] == "trailing"
+
+
 def test_nonsidereal_tracking_lifts_the_trail_cap():
     fast = _geom(1, motion_arcsec_min=[30.0], mag_pred=[19.0])
     sidereal = Instrument(aperture_m=0.6, pixel_scale_arcsec=0.6, seeing_arcsec=1.6)

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+from datetime import timedelta
 
 import numpy as np
 import pandas as pd
@@ -198,3 +199,21 @@ def test_a_failure_while_writing_leaves_the_old_plan_untouched(demo, tmp_path, m
     assert sorted(p.name for p in out.iterdir()) == ["plan.csv"]
     assert (out / "plan.csv").read_text() == "old plan\n"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["plan"]  # no temporary folder left behind
+
+
+def test_demo_uses_granted_time_at_low_airmass_and_explains_every_night(demo, tmp_path):
+    campaign, r = demo
+    # Every site-night of the campaign has a line; the demo week has windows everywhere.
+    assert len(r.nights) == len(campaign.sites) * campaign.nights
+    assert set(r.nights["status"]) <= {"planned", "not needed", "unplaced", "no window", "too short"}
+    per_site = r.nights.groupby("site")[["planned_h", "budget_h"]].sum()
+    # Granted time is used unless a note says why not (here it all is: the quality term rewards it).
+    assert (per_site["planned_h"] >= per_site["budget_h"] - 1e-9).all()
+    # Photometrists keep X below ~2 where they can (common practice): the demo windows allow it.
+    assert r.blocks["airmass_max"].max() <= campaign.max_airmass + 0.02
+    out = write_plan_folder(r, tmp_path / "plan")
+    nights = pd.read_csv(out / "nights.csv")
+    assert list(nights.columns)[:3] == ["site", "night", "blocks"]
+    sheet = (out / "sheets" / "kahili-summit.txt").read_text()
+    for k in range(campaign.nights):
+        assert f"Night of {(campaign.first_night + timedelta(days=k)).isoformat()}" in sheet
