@@ -3,6 +3,7 @@
 Observers granted time expect to be told how to use it, or why it is not needed. For a site-night
 without a block the note says which of these holds (first match):
 
+- ``observed``: the log holds observations that night and no usable time is left;
 - ``lost``: the observation log marks it lost;
 - ``past``: re-planning, and the night ended before the log's last exposure;
 - ``no window``: the target is not observable (the windows table's reason);
@@ -27,7 +28,7 @@ from planner.localsearch import fits
 from planner.planstate import PlanModel, PlanState, Visit
 from planner.slots import SlotGrid
 
-NOTE_COLUMNS = ("site", "night", "blocks", "planned_h", "budget_h", "window_h", "status", "note")
+NOTE_COLUMNS = ("site", "night", "blocks", "planned_h", "budget_h", "observed_h", "window_h", "status", "note")
 #: Placements tried per empty site-night when explaining it (all of them up to this many, else spread).
 _TRIES = 400
 _TERM_WORDS = {"alias": ("alias", -1), "gap_fraction": ("cadence gaps", -1), "coverage": ("coverage", 1),
@@ -67,12 +68,15 @@ def _worst_term(model: PlanModel, terms: dict) -> str:
 
 def night_notes(campaign: Campaign, windows: pd.DataFrame, grid: SlotGrid, model: PlanModel,
                 visits: list[Visit], lost: set[tuple[str, date]] | None = None,
-                not_before_utc: np.datetime64 | None = None) -> pd.DataFrame:
+                not_before_utc: np.datetime64 | None = None,
+                observed_h: dict[tuple[str, date], float] | None = None) -> pd.DataFrame:
     """One row per site and campaign night (NOTE_COLUMNS): blocks and hours planned, the site-night's
-    hour budget (allocation within the window, less anything observed; 0 when unusable), window hours,
-    ``status`` (``planned``, ``lost``, ``past``, ``no window``, ``too short``, ``site budget``,
+    hour budget (allocation within the window, less anything observed; 0 when unusable), hours
+    already observed (``observed_h``, from the log), window hours,
+    ``status`` (``planned``, ``observed``, ``lost``, ``past``, ``no window``, ``too short``, ``site budget``,
     ``not needed``, ``unplaced``) and a one-line ``note`` for the observer."""
     lost = lost or set()
+    observed_h = observed_h or {}
     nights = [campaign.first_night + timedelta(days=k) for k in range(campaign.nights)]
     w = windows.copy()
     w["_night"] = pd.to_datetime(w["night"]).dt.date
@@ -92,9 +96,12 @@ def night_notes(campaign: Campaign, windows: pd.DataFrame, grid: SlotGrid, model
             mine = planned.get(pi, []) if pi is not None else []
             row = dict(site=site.name, night=night.isoformat(), blocks=len(mine),
                        planned_h=sum(v.length for v in mine) * grid.slot_h,
-                       budget_h=0.0 if pi is None else grid.parts[pi].budget_slots * grid.slot_h, window_h=window_h)
+                       budget_h=0.0 if pi is None else grid.parts[pi].budget_slots * grid.slot_h,
+                       observed_h=float(observed_h.get((site.name, night), 0.0)), window_h=window_h)
             if mine:
                 status, note = "planned", f"{len(mine)} block(s), {row['planned_h']:.2f} h"
+            elif row["observed_h"] > 0 and pi is None:
+                status, note = "observed", f"observed: {row['observed_h']:.2f} h in the log, no time left to plan"
             elif (site.name, night) in lost:
                 status, note = "lost", "lost (observation log): nothing planned"
             elif (not_before_utc is not None and len(open_)

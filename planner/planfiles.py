@@ -23,9 +23,9 @@ PLAN_FILES = ("plan.csv", "plan.json", "baseline.csv", "diagnostics.json", "wind
 SUN_CAUTION = ("Pointing near the Sun can destroy equipment and blind people: follow the observatory's own "
                "rules and licensed practice, which always prevail over this plan.")
 #: Units of the printed night-by-night table (under it).
-TABLE_LEGEND = ("columns: night = local evening date; local and UTC block start-end (hh:mm, incl. set-up); h = hours; "
-                "exp = exposures x seconds; RA, Dec in deg (mid-block); mot = sky motion arcsec/min at position "
-                "angle PA deg; alt = altitude range deg; X = airmass range; moon = Moon separation deg; "
+TABLE_LEGEND = ("columns: night = local evening date; local, UTC = block start-end (hh:mm, set-up included); "
+                "h = hours;\n  exp = exposures x seconds; RA, Dec in deg (mid-block); mot = sky motion arcsec/min "
+                "towards PA deg;\n  alt = altitude range deg; X = airmass range; moon = Moon separation deg; "
                 "mag = predicted magnitude; S/N per exposure")
 #: Margin above a site's solar-elongation limit inside which a block gets a Sun caution (common practice).
 SUN_MARGIN_DEG = 10.0
@@ -113,10 +113,12 @@ def nights_text(result: PlanResult) -> str:
     n = result.nights
     if n is None or n.empty:
         return ""
-    per = n.groupby("site", sort=False)[["planned_h", "budget_h"]].sum()
-    out = ["hours planned / usable allocation: "
-           + ", ".join(f"{site} {r.planned_h:.1f}/{r.budget_h:.1f}" for site, r in per.iterrows())]
-    empty = n[n["blocks"] == 0]
+    per = n.groupby("site", sort=False)[["planned_h", "budget_h", "observed_h"]].sum()
+    done = per["observed_h"].sum() > 0
+    out = ["hours planned / usable allocation" + (" (+ already observed)" if done else "") + ": "
+           + ", ".join(f"{site} {r.planned_h:.1f}/{r.budget_h:.1f}" + (f" (+{r.observed_h:.1f})" if done else "")
+                       for site, r in per.iterrows())]
+    empty = n[n["blocks"] == 0].sort_values("night", kind="stable")
     if len(empty):
         out.append("site-nights without a block:")
         out += [f"  {r.night}  {r.site}: {r.note}" for r in empty.itertuples(index=False)]

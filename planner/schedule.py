@@ -163,7 +163,7 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
         "baseline": weather_monte_carlo(model, base, trials, campaign.seed).to_dict(),
     }
     nights = night_notes(campaign, windows, grid, model, opt.visits, lost=None if done is None else done.lost,
-                         not_before_utc=None if done is None else done.end_utc)
+                         not_before_utc=None if done is None else done.end_utc, observed_h=kwargs.get("used_h"))
     return PlanCore(grid=grid, model=model, visits=opt.visits, baseline=base, objective=objective,
                     robustness=robustness, nights=nights)
 

@@ -133,6 +133,12 @@ def test_replanning_keeps_the_log_and_plans_only_what_is_left(demo, tmp_path):
         assert not (part.site == "Karoo Ridge" and part.night.isoformat() == "2034-03-18")
     # Logged times count as covered before anything new is planned.
     assert core.model.terms([]).coverage > 0.0
+    # Every site-night still has a line: the lost one says so, nights with logged time say how much.
+    n = core.nights.set_index(["site", "night"])
+    assert n.loc[("Karoo Ridge", "2034-03-18"), "status"] == "lost"
+    logged = n[n["observed_h"] > 0]
+    assert len(logged) and set(logged["status"]) <= {"observed", "planned"}
+    assert (logged.loc[logged["status"] == "observed", "note"].str.contains(" h in the log")).all()
 
 
 @pytest.mark.filterwarnings("ignore::erfa.ErfaWarning", "ignore::astropy.utils.exceptions.AstropyWarning")
