@@ -169,8 +169,9 @@ def comparison_text(result: PlanResult) -> str:
             line += f"; exact mode: {ex['status']}"
         else:
             kind = "optimum" if ex["optimal"] else "upper bound"
-            line += (f"; exact {kind} {ex['upper_bound_cells']:.0f} cells vs greedy "
-                     f"{obj['greedy']['covered_cells']} (ratio {ex['greedy_ratio']:.3f}; {ex['status']})")
+            line += (f"; exact {kind} {ex['upper_bound_cells']:.0f} cells vs coverage-only greedy "
+                     f"{ex.get('coverage_greedy_cells', obj['greedy']['covered_cells'])} "
+                     f"(ratio {ex['greedy_ratio']:.3f}; {ex['status']})")
     out.append(line)
     bands = rob["plan"]["single_site_bands_h"]
     if bands:
