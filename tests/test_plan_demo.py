@@ -108,6 +108,7 @@ def test_plan_command_prints_the_table_and_comparison(demo, tmp_path, capsys, mo
     assert _run(["plan", str(campaign.path), "--format", "json"]) == 0
     doc = json.loads(capsys.readouterr().out)
     assert len(doc["blocks"]) == len(r.blocks) and "comparison" in doc
+    assert len(doc["nights"]) == len(campaign.sites) * campaign.nights
     assert _run(["plan", str(campaign.path), "--out", str(tmp_path / "p")]) == 2
     assert capsys.readouterr().err.strip().endswith("folder is not empty (use --force to replace it)")
 

@@ -49,10 +49,10 @@ def register(app: typer.Typer) -> None:
         if fmt == "csv":
             sys.stdout.write(table_for_files(result.blocks).to_csv(index=False))
         elif fmt == "json":
-            from planner.planfiles import _clean
+            from planner.planfiles import _clean, records
 
             doc = {**plan_json(result), "comparison": result.comparison, "objective": result.objective,
-                   "robustness": result.robustness}
+                   "robustness": result.robustness, "nights": records(result.nights)}
             sys.stdout.write(json.dumps(_clean(doc), indent=1) + "\n")
         else:
             sys.stdout.write(f"{camp.name}: {len(result.blocks)} blocks at {result.blocks['site'].nunique()} "
