@@ -1,0 +1,416 @@
+"""The HTML campaign report: renders in a real browser, escapes user text, shows the files' numbers.
+
+The plan folder comes from tests/planfolder.py (hand-made, with the scheduler's file names and
+columns). The browser test drives headless Chromium (Debian packages chromium, chromium-driver)
+over the DevTools pipe; without Chromium it skips with a message saying what to install.
+"""
+
+from __future__ import annotations
+
+import base64
+import csv
+import io
+import json
+import math
+import re
+import subprocess
+import sys
+from datetime import datetime
+from html.parser import HTMLParser
+from pathlib import Path
+
+import numpy as np
+import pytest
+from browser import Browser, find_chromium
+from matplotlib.image import imread
+from planfolder import make_plan_folder
+
+from planner import plots
+from planner.errors import InputError
+from planner.report import load_plan_folder, render_check_report, render_report, utc_offset_h, write_report
+
+FIGURE_IDS = [
+    "fig-geometry",
+    "fig-site-0",
+    "fig-site-1",
+    "fig-timeline",
+    "fig-coverage",
+    "fig-window",
+    "fig-recovery",
+    "fig-sensitivity",
+]
+MARKUP_TARGET = '<script>document.title="owned"</script><b onclick="x()">Comet & "friends"</b>'
+MARKUP_SITE = '<img src="http://example.invalid/x.png" onerror="alert(1)">Ridge'
+
+
+@pytest.fixture(scope="module")
+def plan_dir(tmp_path_factory) -> Path:
+    d = make_plan_folder(tmp_path_factory.mktemp("plan"))
+    write_report(d)
+    return d
+
+
+@pytest.fixture(scope="module")
+def markup_dir(tmp_path_factory) -> Path:
+    d = make_plan_folder(
+        tmp_path_factory.mktemp("markup"),
+        target_name=MARKUP_TARGET,
+        site_names=[MARKUP_SITE, "Gum </td></tr></table> Flat"],
+        notes="<i>notes</i> & more",
+    )
+    write_report(d)
+    return d
+
+
+class _Collector(HTMLParser):
+    """Every element's attributes, plus the text inside each data-src span and each figure's image."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.spans: list[dict] = []
+        self.images: list[dict] = []
+        self.figures: list[str] = []
+        self.tags: list[str] = []
+        self._open: list[dict] = []
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        self.tags.append(tag)
+        if tag == "figure":
+            self.figures.append(a.get("id", ""))
+        if tag == "img":
+            self.images.append(a)
+        if tag == "span" and ("data-src" in a or "data-total" in a):
+            a["text"] = ""
+            self.spans.append(a)
+            self._open.append(a)
+        elif tag == "span":
+            self._open.append({})
+
+    def handle_endtag(self, tag):
+        if tag == "span" and self._open:
+            self._open.pop()
+
+    def handle_data(self, data):
+        for a in self._open:
+            if "text" in a:
+                a["text"] += data
+
+
+def _parse(html_text: str) -> _Collector:
+    c = _Collector()
+    c.feed(html_text)
+    return c
+
+
+# ---------------------------------------------------------------------------------------- browser
+
+
+def _chromium() -> str:
+    exe = find_chromium()
+    if exe is None:
+        pytest.skip(
+            "headless Chromium not found: install the Debian packages chromium and chromium-driver "
+            "(`apt-get install -y chromium chromium-driver`) to run the browser test"
+        )
+    return exe
+
+
+def test_report_renders_in_headless_chromium(plan_dir):
+    exe = _chromium()
+    with Browser(exe, width=1200, height=900) as b:
+        b.open(plan_dir / "report.html")
+        figures = b.evaluate(
+            "Array.from(document.querySelectorAll('figure')).map(f => { const i = f.querySelector('img');"
+            " const r = i.getBoundingClientRect(); return {id: f.id, complete: i.complete,"
+            " w: i.naturalWidth, h: i.naturalHeight, shown_w: r.width, shown_h: r.height}; })"
+        )
+        png = b.screenshot_png()
+        problems = b.problems()
+        urls = b.requested_urls()
+    assert problems == [], problems
+    # Self-contained: nothing but the file itself and its embedded data is requested.
+    assert all(u.startswith(("file://", "data:")) for u in urls), [u[:80] for u in urls]
+    assert [f["id"] for f in figures] == FIGURE_IDS
+    for f in figures:
+        assert f["complete"] and f["w"] > 100 and f["h"] > 100, f
+        assert f["shown_w"] > 100 and f["shown_h"] > 50, f
+    # The screenshot is a real page, not a blank one: its pixels vary (text, rules, figures).
+    image = imread(io.BytesIO(png))
+    assert image.shape[0] >= 800 and image.shape[1] >= 1000
+    grey = image[..., :3].mean(axis=2)
+    assert grey.std() > 0.05, grey.std()
+    assert (grey < 0.5).mean() > 0.005  # some dark ink: headings and text
+
+
+def test_every_embedded_figure_is_a_non_blank_png(plan_dir):
+    parsed = _parse((plan_dir / "report.html").read_text())
+    assert parsed.figures == FIGURE_IDS
+    assert len(parsed.images) == len(FIGURE_IDS)
+    for img in parsed.images:
+        assert img["src"].startswith("data:image/png;base64,")
+        assert img.get("alt")
+        pixels = imread(io.BytesIO(base64.b64decode(img["src"].split(",", 1)[1])))
+        assert pixels[..., :3].std() > 0.05
+
+
+def test_page_has_no_scripts_or_remote_resources(plan_dir):
+    text = (plan_dir / "report.html").read_text()
+    parsed = _parse(text)
+    assert "script" not in parsed.tags
+    assert not re.search(r"""(src|href)\s*=\s*["']?(https?:)?//""", text)
+    assert "@import" not in text and "url(" not in text
+
+
+# ---------------------------------------------------------------------------------------- escaping
+
+
+def test_markup_in_names_is_shown_as_text(markup_dir):
+    text = (markup_dir / "report.html").read_text()
+    parsed = _parse(text)
+    assert "script" not in parsed.tags
+    assert "<b onclick" not in text and '<img src="http://example.invalid' not in text
+    assert "&lt;script&gt;" in text and "&lt;img src=&quot;http://example.invalid" in text
+    assert "&lt;i&gt;notes&lt;/i&gt; &amp; more" in text
+    # Structure survives a site name that tries to close the table.
+    assert parsed.figures == FIGURE_IDS
+
+
+def test_markup_renders_as_text_in_browser(markup_dir):
+    exe = _chromium()
+    with Browser(exe) as b:
+        b.open(markup_dir / "report.html")
+        title = b.evaluate("document.title")
+        h1 = b.evaluate("document.querySelector('h1').textContent")
+        n_scripts = b.evaluate("document.scripts.length")
+        problems = b.problems()
+        urls = b.requested_urls()
+    assert title != "owned" and n_scripts == 0
+    assert MARKUP_TARGET in h1
+    assert problems == [], problems
+    assert not any("example.invalid" in u for u in urls)
+
+
+# ---------------------------------------------------------------------------------------- numbers
+
+
+def _lookup(obj, path: str):
+    for key in path.split("."):
+        obj = obj[int(key)] if isinstance(obj, list) else obj[key]
+    return obj
+
+
+def _rows(path: Path) -> list[dict]:
+    with path.open(newline="") as fh:
+        return list(csv.DictReader(fh))
+
+
+def _check_display(text: str, value: float) -> None:
+    """The rounded text shown must be the value rounded, not some other number."""
+    shown = text.strip().rstrip("h°c/d ").replace("−", "-").replace(" ", "")
+    if shown in ("—", ""):
+        assert value is None or (isinstance(value, float) and math.isnan(value))
+        return
+    digits = len(shown.split(".")[1]) if "." in shown and "e" not in shown else 0
+    tol = 0.5 * 10 ** (-digits) + 1e-12 if "e" not in shown else abs(value) * 1e-2
+    assert abs(float(shown) - value) <= tol, (text, value)
+
+
+def _assert_numbers_match(folder: Path) -> None:
+    text = (folder / "report.html").read_text()
+    diag = json.loads((folder / "diagnostics.json").read_text())
+    tables = {name: _rows(folder / name) for name in ("plan.csv", "geometry.csv")}
+    spans = _parse(text).spans
+    seen = set()
+    for s in spans:
+        if "data-src" not in s:
+            continue
+        file, _, where = s["data-src"].partition(":")
+        if file == "diagnostics.json":
+            expected = _lookup(diag, where)
+            assert json.loads(s["data-value"]) == expected, s
+            if isinstance(expected, (int, float)):
+                _check_display(s["text"], float(expected))
+        else:
+            row, column = where.split(":")
+            expected = tables[file][int(row)][column]
+            assert s["data-value"] == expected, s
+            try:
+                _check_display(s["text"], float(expected))
+            except ValueError:
+                pass  # times: the text is the clock part of the same string
+        seen.add(s["data-src"])
+    # Every headline number of both schedules is on the page.
+    for kind in ("plan", "baseline"):
+        for key in ("rate_sigma_mag_per_day", "min_detectable_mag_per_day", "longest_gap_h"):
+            assert f"diagnostics.json:{kind}.trend.{key}" in seen
+        for i, _ in enumerate(diag[kind]["window_peaks"]):
+            assert f"diagnostics.json:{kind}.window_peaks.{i}.height" in seen
+        for i, _ in enumerate(diag[kind]["bands"]):
+            assert f"diagnostics.json:{kind}.bands.{i}.min_period_h" in seen
+    # Every block of plan.csv is in the night-by-night table with its times and exposures.
+    for i, _ in enumerate(tables["plan.csv"]):
+        for column in ("start_utc", "end_utc", "start_local", "n_exposures", "exposure_s", "snr_pred"):
+            assert f"plan.csv:{i}:{column}" in seen
+
+    # Totals, recomputed here from plan.csv by another route (csv + datetime).
+    totals = {s["data-total"]: s["text"] for s in spans if "data-total" in s}
+    rows = tables["plan.csv"]
+
+    def hours(r: dict) -> float:
+        f = "%Y-%m-%dT%H:%M:%S"
+        a = datetime.strptime(r["start_utc"].rstrip("Z")[:19], f)
+        b = datetime.strptime(r["end_utc"].rstrip("Z")[:19], f)
+        return (b - a).total_seconds() / 3600
+
+    for site in sorted({r["site"] for r in rows}):
+        mine = [r for r in rows if r["site"] == site]
+        key = site.replace("&", "&amp;")
+        assert int(totals[f"plan-blocks:{key}"]) == len(mine)
+        assert float(totals[f"plan-hours:{key}"]) == pytest.approx(sum(hours(r) for r in mine), abs=0.005)
+        assert int(totals[f"plan-exposures:{key}"]) == sum(int(r["n_exposures"]) for r in mine)
+    assert int(totals["plan-blocks:all"]) == len(rows)
+
+
+def test_report_numbers_equal_the_files(plan_dir):
+    _assert_numbers_match(plan_dir)
+
+
+def test_report_numbers_equal_the_files_with_markup_names(markup_dir):
+    _assert_numbers_match(markup_dir)
+
+
+# ---------------------------------------------------------------------------------------- files, command
+
+
+def test_missing_plan_file_is_a_clear_input_error(tmp_path):
+    with pytest.raises(InputError, match="plan.csv"):
+        load_plan_folder(tmp_path)
+    bad = make_plan_folder(tmp_path / "bad")
+    (bad / "diagnostics.json").write_text("{not json")
+    with pytest.raises(InputError, match="diagnostics.json: -: not valid JSON"):
+        render_report(bad)
+    (bad / "diagnostics.json").write_text("{}")
+    with pytest.raises(InputError, match="diagnostics.json: plan: missing"):
+        render_report(bad)
+
+
+def test_report_command_rerenders_and_fails_cleanly(tmp_path, root):
+    d = make_plan_folder(tmp_path / "plan")
+    before = {p.name: p.read_bytes() for p in d.iterdir() if p.is_file()}
+    run = subprocess.run(
+        [sys.executable, "-m", "planner", "report", str(d)],
+        cwd=root,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    assert run.returncode == 0, run.stderr
+    assert "report.html" in run.stdout
+    assert (d / "report.html").read_text().startswith("<!DOCTYPE html>")
+    # Nothing else in the folder changed, and no temporary file was left behind.
+    assert {p.name: p.read_bytes() for p in d.iterdir() if p.is_file() and p.name != "report.html"} == before
+    assert not list(d.glob(".*part"))
+    run = subprocess.run(
+        [sys.executable, "-m", "planner", "report", str(tmp_path / "empty")],
+        cwd=root,
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
+    assert run.returncode == 2
+    assert run.stderr.startswith("error: ") and "Traceback" not in run.stderr
+
+
+def test_failed_render_keeps_the_previous_report(tmp_path):
+    d = make_plan_folder(tmp_path / "plan")
+    write_report(d)
+    good = (d / "report.html").read_bytes()
+    (d / "plan.csv").write_text("site,night\n")  # start_utc and end_utc missing
+    with pytest.raises(InputError, match="plan.csv: start_utc: column missing"):
+        write_report(d)
+    assert (d / "report.html").read_bytes() == good
+
+
+def test_local_clock_offset_from_paired_times():
+    import pandas as pd
+
+    df = pd.DataFrame(
+        {"start_utc": ["2034-03-16T08:30:00Z", ""], "start_local": ["2034-03-15T22:30:00-10:00", ""]}
+    )
+    assert utc_offset_h(df) == -10.0
+    naive = pd.DataFrame({"start_utc": ["2034-03-16T08:30:00Z"], "start_local": ["2034-03-16T19:30:00"]})
+    assert utc_offset_h(naive) == 11.0
+
+
+def test_check_report_for_a_log_of_times():
+    rng = np.random.default_rng(3)
+    t = np.datetime64("2034-03-16T20:00", "ns") + (np.sort(rng.uniform(0, 5 * 86400, 80)) * 1e9).astype(
+        "timedelta64[ns]"
+    )
+    check = {
+        "periods_h": [2.0, 5.0, 10.0, 20.0],
+        "coverage": [0.9, 0.8, 0.6, 0.4],
+        "window_peaks": [{"freq_per_day": 1.0, "height": 0.8}],
+        "bands": [
+            {
+                "min_period_h": 2.0,
+                "max_period_h": 20.0,
+                "verdict": "alias-prone",
+                "confusable_periods_h": [8.0],
+            }
+        ],
+        "recovery": [{"period_h": 2.0, "fraction": 0.9}, {"period_h": 20.0, "fraction": 0.5}],
+        "trend": {
+            "rate_sigma_mag_per_day": 0.002,
+            "min_detectable_mag_per_day": 0.006,
+            "longest_gap_h": 19.5,
+        },
+        "period_change": [{"period_h": 2.0, "min_detectable_change_h": 0.001}],
+    }
+    text = render_check_report(check, t, 120.0, title="Log <check>", source="log.csv")
+    parsed = _parse(text)
+    assert parsed.figures == ["fig-coverage", "fig-window", "fig-recovery", "fig-sensitivity"]
+    assert "Log &lt;check&gt;" in text
+    values = {s["data-src"]: s["data-value"] for s in parsed.spans if "data-src" in s}
+    assert values["diagnostics.json:trend.longest_gap_h"] == "19.5"
+
+
+# ---------------------------------------------------------------------------------------- figure kernels
+
+
+def test_phase_coverage_map_fast_matches_slow():
+    rng = np.random.default_rng(11)
+    epoch = np.datetime64("2034-03-16T00:00", "ns")
+    start = epoch + (rng.uniform(0, 6 * 86400, 12) * 1e9).astype("timedelta64[ns]")
+    end = start + (rng.uniform(600, 4 * 3600, 12) * 1e9).astype("timedelta64[ns]")
+    periods = 24.0 / np.linspace(0.8, 12.0, 37)
+    fast = plots.phase_coverage_map(periods, start, end, epoch, 40)
+    slow = plots.phase_coverage_map_slow(periods, start, end, epoch, 40)
+    assert np.array_equal(fast, slow)
+    assert 0 < fast.mean() < 1
+
+
+def test_phase_coverage_of_a_block_longer_than_the_period_is_complete():
+    epoch = np.datetime64("2034-03-16T00:00", "ns")
+    cov = plots.phase_coverage_map([2.0, 6.0], [epoch], [epoch + np.timedelta64(3, "h")], epoch, 30)
+    assert cov[0].all()  # 3 h block, 2 h period: every phase seen
+    assert cov[1].mean() == pytest.approx(0.5, abs=1 / 30)  # half the rotation of a 6 h period
+
+
+def test_spectral_window_of_daily_sampling():
+    # Deeming (1975), Ap&SS 36, 137: for times spaced exactly one day apart, |W| = 1 at 1 c/d and its
+    # multiples; for an even number N of such times |W(0.5 c/d)| = 0 (the unit vectors cancel in pairs).
+    t = np.datetime64("2034-03-16T22:00", "ns") + np.arange(10) * np.timedelta64(1, "D")
+    w = plots.spectral_window_amplitude(t, np.array([0.0, 0.5, 1.0, 2.0, 0.25]))
+    assert w[0] == pytest.approx(1.0) and w[2] == pytest.approx(1.0) and w[3] == pytest.approx(1.0)
+    assert w[1] == pytest.approx(0.0, abs=1e-12)
+    # |W(0.25)| by hand: the mean of i^k for k = 0..9 is (1 + i) / 10, of length sqrt(2) / 10.
+    assert w[4] == pytest.approx(math.sqrt(2) / 10, abs=1e-12)
+
+
+def test_darkness_levels_follow_the_twilight_definitions():
+    # Explanatory Supplement (Urban & Seidelmann 2013): civil −6°, nautical −12°, astronomical −18°;
+    # sunrise/sunset at −0.833° (upper limb with standard refraction).
+    idx = plots._darkness_index(np.array([10.0, -0.5, -3.0, -6.5, -12.5, -18.5, -40.0]))
+    assert idx.tolist() == [0, 0, 1, 2, 3, 4, 4]
