@@ -7,10 +7,11 @@ stay short and every message says what to fix.
 from __future__ import annotations
 
 import math
-import tomllib
 from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
+
+import tomllib
 
 from planner.errors import InputError
 
