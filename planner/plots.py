@@ -88,6 +88,11 @@ def new_figure(width_in: float, height_in: float) -> Figure:
     return fig
 
 
+def _floats(values) -> np.ndarray:
+    """JSON numbers to floats; null (a non-finite value in the check JSON) becomes NaN."""
+    return np.array([np.nan if v is None else float(v) for v in values], dtype=float)
+
+
 def _datetimes(values) -> np.ndarray:
     return pd.to_datetime(pd.Series(values), utc=True).dt.tz_localize(None).to_numpy(dtype="datetime64[ns]")
 
@@ -160,9 +165,7 @@ def geometry_figure(geometry: pd.DataFrame, seen_from: str, solar_caution_deg: f
 
 def _darkness_index(sun_alt_deg: np.ndarray) -> np.ndarray:
     """0 = day … 4 = night, from the Sun's altitude (Explanatory Supplement twilight definitions)."""
-    return np.searchsorted(
-        -np.asarray(DARKNESS_LEVELS_DEG), -np.asarray(sun_alt_deg, dtype=float), side="left"
-    )
+    return np.searchsorted(-np.asarray(DARKNESS_LEVELS_DEG), -np.asarray(sun_alt_deg, dtype=float), side="left")
 
 
 def site_nights_figure(
@@ -238,12 +241,8 @@ def site_nights_figure(
             ax.axvspan(a, b, ymin=0.0, ymax=1.0, facecolor=AMBER, alpha=0.55, edgecolor=INK, lw=1.2, zorder=2)
             ax.plot([a, b], [86, 86], color=INK, lw=5, solid_capstyle="butt", zorder=4)
         if w.empty:
-            reason = (
-                windows.loc[windows["night"].astype(str) == night, "reason"] if "reason" in windows else []
-            )
-            text = "no window" + (
-                f":\n{reason.iloc[0]}" if len(reason) and str(reason.iloc[0]) != "nan" else ""
-            )
+            reason = windows.loc[windows["night"].astype(str) == night, "reason"] if "reason" in windows else []
+            text = "no window" + (f":\n{reason.iloc[0]}" if len(reason) and str(reason.iloc[0]) != "nan" else "")
             ax.text(
                 0.5,
                 0.5,
@@ -262,9 +261,7 @@ def site_nights_figure(
         if i % ncols == 0:
             ax.set_ylabel("altitude (°)")
     sign = "+" if utc_offset_h >= 0 else "−"
-    fig.supxlabel(
-        f"local time at {site} (UTC{sign}{abs(utc_offset_h):g} h), evening of the date shown", fontsize=9
-    )
+    fig.supxlabel(f"local time at {site} (UTC{sign}{abs(utc_offset_h):g} h), evening of the date shown", fontsize=9)
     handles = [
         Patch(facecolor=g, edgecolor="#999999", label=nm)
         for g, nm in zip(DARKNESS_GREYS[1:], DARKNESS_NAMES[1:], strict=True)
@@ -288,9 +285,7 @@ def network_timeline_figure(
     ax = fig.subplots()
 
     def bars(df: pd.DataFrame, site: str) -> list[tuple[float, float]]:
-        d = df[
-            (df["site"].astype(str) == site) & df["start_utc"].notna() & (df["start_utc"].astype(str) != "")
-        ]
+        d = df[(df["site"].astype(str) == site) & df["start_utc"].notna() & (df["start_utc"].astype(str) != "")]
         a = mdates.date2num(_datetimes(d["start_utc"]))
         b = mdates.date2num(_datetimes(d["end_utc"]))
         return list(zip(a, b - a, strict=True))
@@ -298,12 +293,8 @@ def network_timeline_figure(
     for i, site in enumerate(sites):
         y = len(sites) - 1 - i
         color, hatch = SITE_STYLES[i % len(SITE_STYLES)]
-        ax.broken_barh(
-            bars(windows, site), (y - 0.42, 0.84), facecolors="none", edgecolors=TEAL, hatch="///", lw=0.8
-        )
-        ax.broken_barh(
-            bars(plan, site), (y - 0.02, 0.40), facecolors=color, edgecolors=INK, hatch=hatch, lw=1.0
-        )
+        ax.broken_barh(bars(windows, site), (y - 0.42, 0.84), facecolors="none", edgecolors=TEAL, hatch="///", lw=0.8)
+        ax.broken_barh(bars(plan, site), (y - 0.02, 0.40), facecolors=color, edgecolors=INK, hatch=hatch, lw=1.0)
         if baseline is not None:
             ax.broken_barh(
                 bars(baseline, site),
@@ -324,9 +315,7 @@ def network_timeline_figure(
         Patch(facecolor=INK, edgecolor=INK, label="plan block (upper half; site colour and hatch)"),
     ]
     if baseline is not None:
-        handles.append(
-            Patch(facecolor="white", edgecolor=INK, linestyle="--", label="baseline block (lower half)")
-        )
+        handles.append(Patch(facecolor="white", edgecolor=INK, linestyle="--", label="baseline block (lower half)"))
     fig.legend(handles=handles, loc="outside upper center", ncols=3, fontsize=8, frameon=False)
     return fig
 
@@ -383,9 +372,7 @@ def coverage_figure(periods_h: Sequence[float], series: Sequence[Series], epoch_
     periods = periods[order]
     edges = np.concatenate([[periods[0] * 0.995], 0.5 * (periods[1:] + periods[:-1]), [periods[-1] * 1.005]])
     fig = new_figure(3.0 * len(series) + 3.2, 4.6)
-    axes = fig.subplots(
-        1, len(series) + 1, sharey=True, gridspec_kw=dict(width_ratios=[3] * len(series) + [2.2])
-    )
+    axes = fig.subplots(1, len(series) + 1, sharey=True, gridspec_kw=dict(width_ratios=[3] * len(series) + [2.2]))
     cmap = ListedColormap(["#ffffff", INK])
     nbins = 120
     for ax, s in zip(axes[:-1], series, strict=False):
@@ -431,19 +418,24 @@ def spectral_window_amplitude(times_utc: np.ndarray, freq_per_day: np.ndarray) -
 
 
 def spectral_window_figure(series: Sequence[Series], max_freq_per_day: float = 5.0) -> Figure:
-    """|W(f)| of each schedule's exposure times, with the check's principal peaks marked and labelled."""
-    f = np.linspace(0.0, max_freq_per_day, 4001)
+    """|W(f)| of each schedule, with the check's principal peaks marked and labelled.
+
+    The curve is the check's own ``window`` (``freq_per_day``, ``height``) when it carries one; otherwise it
+    is computed from the schedule's exposure times.
+    """
+    grid = np.linspace(0.0, max_freq_per_day, 4001)
     fig = new_figure(8.5, 2.4 * len(series) + 0.6)
     axes = np.atleast_1d(fig.subplots(len(series), 1, sharex=True, squeeze=False)).ravel()
     for ax, s in zip(axes, series, strict=True):
         kw = s.line_kw()
         marker = kw.pop("marker")
         kw.pop("markersize")
-        ax.plot(
-            f,
-            spectral_window_amplitude(s.times_utc, f),
-            **{k: v for k, v in kw.items() if not k.startswith("marker")},
-        )
+        window = s.check.get("window") or {}
+        if window.get("freq_per_day") and window.get("height"):
+            f, w = _floats(window["freq_per_day"]), _floats(window["height"])
+        else:
+            f, w = grid, spectral_window_amplitude(s.times_utc, grid)
+        ax.plot(f, w, **{k: v for k, v in kw.items() if not k.startswith("marker")})
         peaks = [p for p in s.check.get("window_peaks", []) if p.get("freq_per_day", 0) <= max_freq_per_day]
         if peaks:
             pf = [p["freq_per_day"] for p in peaks]
@@ -459,9 +451,7 @@ def spectral_window_figure(series: Sequence[Series], max_freq_per_day: float = 5
                 label="principal peaks",
             )
             for x, y in zip(pf, ph, strict=True):
-                ax.annotate(
-                    f"{x:.3f} c/d\n{y:.2f}", (x, y), textcoords="offset points", xytext=(4, 6), fontsize=7
-                )
+                ax.annotate(f"{x:.3f} c/d\n{y:.2f}", (x, y), textcoords="offset points", xytext=(4, 6), fontsize=7)
         ax.set_ylim(0, 1.12)
         ax.set_ylabel("|W(f)|")
         ax.grid(True, color="#dddddd", lw=0.6)
@@ -486,7 +476,7 @@ def recovery_figure(
     for s in series:
         rec = s.check.get("recovery", [])
         if rec:
-            ax.plot([r["period_h"] for r in rec], [r["fraction"] for r in rec], **s.line_kw())
+            ax.plot(_floats([r["period_h"] for r in rec]), _floats([r["fraction"] for r in rec]), **s.line_kw())
     ax.set_xscale("log")
     ax.set_ylim(-0.02, 1.05)
     ax.set_ylabel("recovered fraction")
@@ -523,7 +513,9 @@ def sensitivity_figure(series: Sequence[Series]) -> Figure:
         pc = s.check.get("period_change", [])
         if pc:
             ax.plot(
-                [r["period_h"] for r in pc], [r["min_detectable_change_h"] * 60.0 for r in pc], **s.line_kw()
+                _floats([r["period_h"] for r in pc]),
+                _floats([r["min_detectable_change_h"] for r in pc]) * 60.0,
+                **s.line_kw(),
             )
     ax.set_xscale("log")
     ax.set_yscale("log")
@@ -544,7 +536,7 @@ def sensitivity_figure(series: Sequence[Series]) -> Figure:
     width = 0.8 / max(len(series), 1)
     for i, s in enumerate(series):
         trend = s.check.get("trend", {})
-        vals = [float(trend.get(k, np.nan)) * scale for k, _, scale in keys]
+        vals = [float(_floats([trend.get(k)])[0]) * scale for k, _, scale in keys]
         x = np.arange(len(keys)) + (i - (len(series) - 1) / 2) * width
         ax_bars = bx.bar(
             x,
