@@ -235,7 +235,10 @@ def site_nights_figure(
             & (windows["start_utc"].astype(str) != "")
         ]
         for a, b in zip(hours(w["start_utc"]), hours(w["end_utc"]), strict=True):
-            ax.axvspan(a, b, ymin=0, ymax=1, facecolor="none", edgecolor=TEAL, hatch="///", lw=1.0, zorder=1)
+            # The window: a hatched strip along the foot of the panel, its edges as thin lines.
+            ax.axvspan(a, b, ymin=0, ymax=0.1, facecolor="white", edgecolor=TEAL, hatch="///", lw=1.0, zorder=3)
+            ax.axvline(a, color=TEAL, lw=1.0, zorder=3)
+            ax.axvline(b, color=TEAL, lw=1.0, zorder=3)
         bl = blocks[blocks["night"].astype(str) == night]
         for a, b in zip(hours(bl["start_utc"]), hours(bl["end_utc"]), strict=True):
             ax.axvspan(a, b, ymin=0.0, ymax=1.0, facecolor=AMBER, alpha=0.55, edgecolor=INK, lw=1.2, zorder=2)
@@ -267,7 +270,7 @@ def site_nights_figure(
         for g, nm in zip(DARKNESS_GREYS[1:], DARKNESS_NAMES[1:], strict=True)
     ]
     handles += [
-        Patch(facecolor="none", edgecolor=TEAL, hatch="///", label="observable window"),
+        Patch(facecolor="white", edgecolor=TEAL, hatch="///", label="observable window (strip at foot)"),
         Patch(facecolor=AMBER, alpha=0.55, edgecolor=INK, label="planned block"),
     ]
     fig.legend(handles=handles, loc="outside upper center", ncols=3, fontsize=8, frameon=False)
@@ -450,8 +453,15 @@ def spectral_window_figure(series: Sequence[Series], max_freq_per_day: float = 5
                 markeredgecolor=INK,
                 label="principal peaks",
             )
-            for x, y in zip(pf, ph, strict=True):
-                ax.annotate(f"{x:.3f} c/d\n{y:.2f}", (x, y), textcoords="offset points", xytext=(4, 6), fontsize=7)
+            # Label the three strongest (more would overlap); the table beside the figure lists them all.
+            for k in np.argsort(ph)[::-1][:3]:
+                ax.annotate(
+                    f"{pf[k]:.3f} c/d\n{ph[k]:.2f}",
+                    (pf[k], ph[k]),
+                    textcoords="offset points",
+                    xytext=(4, 6),
+                    fontsize=7,
+                )
         ax.set_ylim(0, 1.12)
         ax.set_ylabel("|W(f)|")
         ax.grid(True, color="#dddddd", lw=0.6)
@@ -508,7 +518,7 @@ def recovery_figure(
 def sensitivity_figure(series: Sequence[Series]) -> Figure:
     """Period-change sensitivity against period, and the trend numbers side by side per schedule."""
     fig = new_figure(8.5, 3.6)
-    ax, bx = fig.subplots(1, 2, gridspec_kw=dict(width_ratios=[3, 2]))
+    ax, *bxs = fig.subplots(1, 3, gridspec_kw=dict(width_ratios=[3, 1.1, 1.1]))
     for s in series:
         pc = s.check.get("period_change", [])
         if pc:
@@ -530,26 +540,25 @@ def sensitivity_figure(series: Sequence[Series]) -> Figure:
     ax.yaxis.set_major_formatter(matplotlib.ticker.FuncFormatter(lambda v, _: f"{v:g}"))
     ax.yaxis.set_minor_formatter(matplotlib.ticker.NullFormatter())
     keys = [
-        ("min_detectable_mag_per_day", "fading (mmag/day, 3σ)", 1000.0),
-        ("longest_gap_h", "longest gap (h)", 1.0),
+        ("min_detectable_mag_per_day", "smallest fading\ndetectable (mmag/day)", 1000.0),
+        ("longest_gap_h", "longest gap\nbetween visits (h)", 1.0),
     ]
-    width = 0.8 / max(len(series), 1)
-    for i, s in enumerate(series):
-        trend = s.check.get("trend", {})
-        vals = [float(_floats([trend.get(k)])[0]) * scale for k, _, scale in keys]
-        x = np.arange(len(keys)) + (i - (len(series) - 1) / 2) * width
-        ax_bars = bx.bar(
-            x,
-            vals,
-            width,
-            color=s.color if s.filled else "white",
-            edgecolor=s.color,
-            lw=1.5,
-            hatch="" if s.filled else "///",
-            label=s.label,
-        )
-        bx.bar_label(ax_bars, fmt="%.3g", fontsize=7)
-    bx.set_xticks(range(len(keys)), [lab for _, lab, _ in keys], fontsize=8)
-    bx.set_title("brightness trend (smaller is better)", fontsize=9)
-    bx.grid(True, axis="y", color="#dddddd", lw=0.6)
+    for bx, (key, title, scale) in zip(bxs, keys, strict=True):
+        for i, s in enumerate(series):
+            value = float(_floats([s.check.get("trend", {}).get(key)])[0]) * scale
+            bars = bx.bar(
+                [i],
+                [value],
+                0.7,
+                color=s.color if s.filled else "white",
+                edgecolor=s.color,
+                lw=1.5,
+                hatch="" if s.filled else "///",
+                label=s.label,
+            )
+            bx.bar_label(bars, fmt="%.3g", fontsize=7)
+        bx.set_xticks(range(len(series)), [s.label.split(" ")[0] for s in series], fontsize=8)
+        bx.set_title(title, fontsize=9)
+        bx.margins(y=0.15)
+        bx.grid(True, axis="y", color="#dddddd", lw=0.6)
     return fig

@@ -86,9 +86,7 @@ def _read_csv(path: Path, required: Sequence[str]) -> pd.DataFrame:
     try:
         df = pd.read_csv(path, dtype=str, keep_default_na=False)
     except FileNotFoundError:
-        raise InputError(
-            str(path), "-", "file not found; is this a folder written by `phasewise plan`?"
-        ) from None
+        raise InputError(str(path), "-", "file not found; is this a folder written by `phasewise plan`?") from None
     except (pd.errors.EmptyDataError, pd.errors.ParserError, UnicodeDecodeError) as exc:
         raise InputError(str(path), "-", f"not a readable CSV table ({exc})") from None
     missing = [c for c in required if c not in df.columns]
@@ -101,9 +99,7 @@ def _read_json(path: Path) -> dict:
     try:
         data = json.loads(path.read_text(encoding="utf-8"))
     except FileNotFoundError:
-        raise InputError(
-            str(path), "-", "file not found; is this a folder written by `phasewise plan`?"
-        ) from None
+        raise InputError(str(path), "-", "file not found; is this a folder written by `phasewise plan`?") from None
     except (json.JSONDecodeError, UnicodeDecodeError) as exc:
         raise InputError(str(path), "-", f"not valid JSON ({exc})") from None
     if not isinstance(data, dict):
@@ -132,9 +128,7 @@ def load_plan_folder(plan_dir: str | Path) -> PlanFolder:
     plan = _read_csv(d / "plan.csv", _BLOCK_COLUMNS)
     diagnostics = _read_json(d / "diagnostics.json")
     if "plan" not in diagnostics or not isinstance(diagnostics["plan"], dict):
-        raise InputError(
-            str(d / "diagnostics.json"), "plan", "missing: expected the check result of the plan"
-        )
+        raise InputError(str(d / "diagnostics.json"), "plan", "missing: expected the check result of the plan")
     campaign = _read_toml(d / "campaign.toml")
     target = _read_toml(d / "target.toml")
     target_name = str(target.get("name") or Path(str(campaign.get("target", ""))).stem or "")
@@ -327,15 +321,9 @@ def _summary_section(pf: PlanFolder) -> str:
         if df is None or df.empty:
             return 0, 0.0, 0
         d = df if site is None else df[df["site"] == site]
-        hours = (
-            float(((_utc(d["end_utc"]) - _utc(d["start_utc"])) / np.timedelta64(1, "h")).sum())
-            if len(d)
-            else 0.0
-        )
+        hours = float(((_utc(d["end_utc"]) - _utc(d["start_utc"])) / np.timedelta64(1, "h")).sum()) if len(d) else 0.0
         nexp = (
-            int(sum(int(_float(x)) for x in d["n_exposures"] if not math.isnan(_float(x))))
-            if "n_exposures" in d
-            else 0
+            int(sum(int(_float(x)) for x in d["n_exposures"] if not math.isnan(_float(x)))) if "n_exposures" in d else 0
         )
         return len(d), hours, nexp
 
@@ -367,11 +355,7 @@ def _summary_section(pf: PlanFolder) -> str:
         if not cov:
             return "—"
         i = int(np.argmin(cov))
-        return (
-            _json_num(diag, f"{kind}.coverage.{i}")
-            + " at "
-            + _json_num(diag, f"{kind}.periods_h.{i}", 2, " h")
-        )
+        return _json_num(diag, f"{kind}.coverage.{i}") + " at " + _json_num(diag, f"{kind}.periods_h.{i}", 2, " h")
 
     def highest_alias(kind: str) -> str:
         peaks = diag[kind].get("window_peaks") or []
@@ -390,33 +374,77 @@ def _summary_section(pf: PlanFolder) -> str:
         ["smallest detectable fading, 3σ (mag/day)"]
         + [_json_num(diag, f"{k}.trend.min_detectable_mag_per_day", 4) for k in kinds]
     )
-    crow.append(
-        ["longest gap between visits"] + [_json_num(diag, f"{k}.trend.longest_gap_h", 2, " h") for k in kinds]
-    )
+    crow.append(["longest gap between visits"] + [_json_num(diag, f"{k}.trend.longest_gap_h", 2, " h") for k in kinds])
     out += [
         "<h3>Plan against the baseline</h3>",
         "<p>The baseline is the plan an observer would make by hand: one block per site and night, centred "
         "on the target's highest altitude, with the same total hours.</p>",
         _table(["", *kinds], crow, "compare"),
     ]
-    extra = []
-    for key in ("objective", "robustness"):
-        if isinstance(diag.get(key), dict):
-            for k, v in diag[key].items():
-                if isinstance(v, (int, float)) and not isinstance(v, bool) or v is None:
-                    extra.append(
-                        [
-                            html.escape(f"{key}: {k}".replace("_", " ")),
-                            _json_num(diag, f"{key}.{k}", 4) if v is not None else "not computed",
-                        ]
-                    )
-    if extra:
-        out += ["<h3>Optimiser and weather robustness</h3>", _table(["", "value"], extra, "kv")]
+    out += _optimiser_tables(diag)
     if pf.sheets:
         links = ", ".join(f'<a href="sheets/{html.escape(s)}">{html.escape(s)}</a>' for s in pf.sheets)
         out.append(f"<p>Printable observing sheets, one per site: {links}.</p>")
     out.append("</section>")
     return "\n".join(out)
+
+
+def _is_number(v) -> bool:
+    return v is None or (isinstance(v, (int, float)) and not isinstance(v, bool))
+
+
+def _label(key: str) -> str:
+    return html.escape(key.replace("_h", " (h)").replace("_", " "))
+
+
+def _nested_table(diag: dict, key: str) -> str:
+    """A table of ``diag[key]``'s sub-dicts side by side (rows: the first one's numeric keys)."""
+    block = diag.get(key)
+    if not isinstance(block, dict):
+        return ""
+    cols = [c for c, v in block.items() if isinstance(v, dict) and any(_is_number(x) for x in v.values())]
+    if not cols:
+        return ""
+    rows = []
+    for r in [k for k, v in block[cols[0]].items() if _is_number(v)]:
+        cells = []
+        for c in cols:
+            v = block[c].get(r, "")
+            cells.append(_json_num(diag, f"{key}.{c}.{r}", 4) if _is_number(v) and r in block[c] else "—")
+        rows.append([_label(r), *cells])
+    for r in [k for k, v in block[cols[0]].items() if isinstance(v, list) and v and isinstance(v[0], list)]:
+        cells = []
+        for c in cols:
+            ranges = block[c].get(r) or []
+            cells.append(
+                ", ".join(
+                    _json_num(diag, f"{key}.{c}.{r}.{i}.0", 2) + "–" + _json_num(diag, f"{key}.{c}.{r}.{i}.1", 2)
+                    for i in range(len(ranges))
+                )
+                or "none"
+            )
+        rows.append([_label(r), *cells])
+    return _table(["", *[_label(c) for c in cols]], rows, "kv")
+
+
+def _optimiser_tables(diag: dict) -> list[str]:
+    """The optimiser's objective terms and the weather Monte Carlo, as diagnostics.json gives them."""
+    out = []
+    obj = diag.get("objective")
+    if isinstance(obj, dict):
+        table = _nested_table(diag, "objective")
+        if table:
+            out += ["<h3>Optimiser objective</h3>"]
+            if isinstance(obj.get("definition"), str):
+                out.append(f"<p><code>{html.escape(obj['definition'])}</code></p>")
+            out.append(table)
+        guarantee = obj.get("guarantee")
+        if isinstance(guarantee, dict) and isinstance(guarantee.get("statement"), str):
+            out.append(f"<p>Guarantee: {html.escape(guarantee['statement'])}</p>")
+    table = _nested_table(diag, "robustness")
+    if table:
+        out += ["<h3>Weather robustness (Monte Carlo over each site's clear-night fraction)</h3>", table]
+    return out
 
 
 def _geometry_section(pf: PlanFolder) -> str:
@@ -480,9 +508,7 @@ def _nights_section(pf: PlanFolder) -> str:
             off = utc_offset_h(ws) if utc_offset_h(ws) is not None else utc_offset_h(bs)
             fig = plots.site_nights_figure(site, gs, ws, bs, pf.nights, off or 0.0, 20.0)
             out.append(
-                figure_html(
-                    fig, f"fig-site-{i}", f"Nights at {html.escape(site)}.", f"Altitude charts for {site}"
-                )
+                figure_html(fig, f"fig-site-{i}", f"Nights at {html.escape(site)}.", f"Altitude charts for {site}")
             )
     if pf.windows is not None:
         out.append("<h3>Windows and planned hours per night</h3>")
@@ -597,9 +623,7 @@ def diagnostics_sections(
                     + "–"
                     + jnum(key, s.check, f"bands.{i}.max_period_h", 2),
                     f'<span class="verdict-{html.escape(verdict)}">{html.escape(verdict)}</span>',
-                    ", ".join(
-                        jnum(key, s.check, f"bands.{i}.confusable_periods_h.{j}", 3) for j in range(len(conf))
-                    )
+                    ", ".join(jnum(key, s.check, f"bands.{i}.confusable_periods_h.{j}", 3) for j in range(len(conf)))
                     or "—",
                 ]
             )
@@ -712,9 +736,41 @@ def _blocks_section(pf: PlanFolder) -> str:
     )
 
 
+def _block_label(r: pd.Series) -> str:
+    return f"{html.escape(r['site'])} {html.escape(_short_time(r['start_utc']))} UTC"
+
+
+def _flagged_blocks(plan: pd.DataFrame, column: str, test) -> list[str]:
+    """Blocks whose plan.csv ``column`` passes ``test``, each with the value as written in the file."""
+    if column not in plan:
+        return []
+    return [
+        f"{_block_label(r)} ({num(r[column], f'plan.csv:{i}:{column}', 1)})"
+        for i, r in plan.iterrows()
+        if test(_float(r[column]))
+    ]
+
+
+def _twilight_from_geometry(pf: PlanFolder) -> list[str]:
+    """Blocks with the Sun above the caution altitude at an edge, from geometry.csv (nearest sample)."""
+    g, out = pf.geometry, []
+    if g is None or "sun_alt_deg" not in g:
+        return out
+    for _, r in pf.plan.iterrows():
+        gs = g[g["site"] == r["site"]]
+        if gs.empty:
+            continue
+        t = _utc(gs["time_utc"])
+        sun = pd.to_numeric(gs["sun_alt_deg"], errors="coerce").to_numpy()
+        k = [int(np.argmin(np.abs(t - _utc([r[e]])[0]))) for e in ("start_utc", "end_utc")]
+        if max(sun[k]) > TWILIGHT_CAUTION_SUN_ALT_DEG:
+            out.append(f"{_block_label(r)} (Sun at {max(sun[k]):.1f}°)")
+    return out
+
+
 def _cautions_section(pf: PlanFolder) -> str:
     items = [f"<li><strong>Sun safety.</strong> {html.escape(SUN_SAFETY_TEXT)}</li>"]
-    g = pf.geometry
+    g, plan = pf.geometry, pf.plan
     if g is not None and "solar_elong_deg" in g and len(g):
         e = pd.to_numeric(g["solar_elong_deg"], errors="coerce")
         i = e.idxmin()
@@ -725,46 +781,49 @@ def _cautions_section(pf: PlanFolder) -> str:
                 f"({html.escape(g.at[i, 'time_utc'])} UTC). Check each site's Sun-avoidance limit and never "
                 "slew across the Sun.</li>"
             )
-    plan = pf.plan
-    if g is not None and "sun_alt_deg" in g and len(plan):
-        flagged = []
-        for i, r in plan.iterrows():
-            gs = g[g["site"] == r["site"]]
-            if gs.empty:
-                continue
-            t = _utc(gs["time_utc"])
-            sun = pd.to_numeric(gs["sun_alt_deg"], errors="coerce").to_numpy()
-            for edge in ("start_utc", "end_utc"):
-                k = int(np.argmin(np.abs(t - _utc([r[edge]])[0])))
-                if sun[k] > TWILIGHT_CAUTION_SUN_ALT_DEG:
-                    flagged.append(
-                        f"{html.escape(r['site'])} {html.escape(_short_time(r[edge]))} UTC "
-                        f"(Sun at {sun[k]:.1f}°)"
-                    )
-                    break
-            del i
-        if flagged:
-            items.append(
-                "<li><strong>Twilight:</strong> these blocks start or end with the Sun above "
-                f"{TWILIGHT_CAUTION_SUN_ALT_DEG:g}°: " + "; ".join(flagged) + ". Follow the site's "
-                "rules for twilight pointing.</li>"
-            )
-    for col, test, text in (
-        ("airmass_max", lambda v: v > HIGH_AIRMASS, f"airmass above {HIGH_AIRMASS:g}"),
-        ("moon_sep_deg", lambda v: v < MOON_CAUTION_SEP_DEG, f"Moon closer than {MOON_CAUTION_SEP_DEG:g}°"),
-    ):
-        if col in plan:
-            bad = [
-                f"{html.escape(r['site'])} {html.escape(_short_time(r['start_utc']))} UTC"
-                for _, r in plan.iterrows()
-                if test(_float(r[col]))
-            ]
-            if bad:
-                items.append(f"<li><strong>{html.escape(text)}:</strong> {'; '.join(bad)}.</li>")
+    checks = [
+        (
+            "solar_elong_deg",
+            lambda v: v < SOLAR_CAUTION_DEG,
+            f"Blocks at solar elongation below {SOLAR_CAUTION_DEG:g}°",
+            "keep well clear of the Sun",
+        ),
+        (
+            "sun_alt_max_deg",
+            lambda v: v > TWILIGHT_CAUTION_SUN_ALT_DEG,
+            f"Twilight: blocks with the Sun above {TWILIGHT_CAUTION_SUN_ALT_DEG:g}° (highest Sun altitude)",
+            "follow the site's rules for twilight pointing",
+        ),
+        (
+            "airmass_max",
+            lambda v: v > HIGH_AIRMASS,
+            f"Low in the sky: airmass above {HIGH_AIRMASS:g}",
+            "expect extinction and seeing losses; check the horizon",
+        ),
+        (
+            "moon_sep_deg",
+            lambda v: v < MOON_CAUTION_SEP_DEG,
+            f"Moon closer than {MOON_CAUTION_SEP_DEG:g}°",
+            "expect a bright, graded sky background",
+        ),
+    ]
+    for column, test, title, advice in checks:
+        bad = _flagged_blocks(plan, column, test)
+        if column == "sun_alt_max_deg" and column not in plan:
+            bad = _twilight_from_geometry(pf)
+        if bad:
+            items.append(f"<li><strong>{html.escape(title)}:</strong> {'; '.join(bad)}; {html.escape(advice)}.</li>")
+    w = pf.windows
+    if w is not None and "caution" in w:
+        notes: dict[str, list[str]] = {}
+        for _, r in w[w["caution"].astype(str).str.strip() != ""].iterrows():
+            notes.setdefault(str(r["caution"]), []).append(f"{r['site']} {r['night']}")
+        for text, where in notes.items():
+            items.append(f"<li><strong>Windows:</strong> {html.escape(text)} ({html.escape(', '.join(where))}).</li>")
     items.append(
-        "<li><strong>Weather.</strong> The plan assumes every night is clear; the robustness figures in "
-        "the summary show what a typical clear-night fraction leaves. Re-plan from the log of what was "
-        "actually observed (<code>phasewise plan --done LOG.csv</code>).</li>"
+        "<li><strong>Weather.</strong> The plan assumes every night is clear; the weather robustness table in "
+        "the summary shows what each site's typical clear-night fraction leaves. Re-plan from the log of what "
+        "was actually observed (<code>phasewise plan --done LOG.csv</code>).</li>"
     )
     items.append(
         "<li><strong>The observatory's own rules prevail</strong> over anything in this report: pointing "
@@ -817,9 +876,7 @@ def render_report(plan_dir: str | Path) -> str:
         ]
     )
     title = f"Campaign report: {pf.target_name or pf.campaign.get('name') or pf.path.name}"
-    subtitle = html.escape(str(pf.campaign.get("name", ""))) + (
-        f" · {len(pf.sites)} sites · {len(pf.nights)} nights"
-    )
+    subtitle = html.escape(str(pf.campaign.get("name", ""))) + (f" · {len(pf.sites)} sites · {len(pf.nights)} nights")
     toc = [
         ("summary", "Campaign summary"),
         ("geometry", "Geometry over the span"),
@@ -851,17 +908,9 @@ def render_check_report(
     """
     t = np.asarray(times_utc, dtype="datetime64[ns]")
     half = (np.broadcast_to(np.asarray(exposure_s, dtype=float), t.shape) * 0.5e9).astype("timedelta64[ns]")
-    s = plots.plan_series(
-        label="observations", check=check, start_utc=t - half, end_utc=t + half, times_utc=t
-    )
+    s = plots.plan_series(label="observations", check=check, start_utc=t - half, end_utc=t + half, times_utc=t)
     periods = check.get("periods_h") or [None]
-    body = diagnostics_sections(
-        [s], [""], min(periods) if periods[0] else None, max(periods) if periods[0] else None
-    )
-    body += (
-        '<section id="cautions"><h2>Cautions</h2><ul><li>'
-        + html.escape(SUN_SAFETY_TEXT)
-        + "</li></ul></section>"
-    )
+    body = diagnostics_sections([s], [""], min(periods) if periods[0] else None, max(periods) if periods[0] else None)
+    body += '<section id="cautions"><h2>Cautions</h2><ul><li>' + html.escape(SUN_SAFETY_TEXT) + "</li></ul></section>"
     subtitle = f"{t.size} observation times" + (f" from {html.escape(source)}" if source else "")
     return _page(title, subtitle, [*_DIAG_TOC, ("cautions", "Cautions")], body)
