@@ -397,12 +397,17 @@ def _label(key: str) -> str:
     return html.escape(key.replace("_h", " (h)").replace("_", " "))
 
 
-def _nested_table(diag: dict, key: str) -> str:
-    """A table of ``diag[key]``'s sub-dicts side by side (rows: the first one's numeric keys)."""
+def _nested_table(diag: dict, key: str, columns: Sequence[str] | None = None) -> str:
+    """A table of ``diag[key]``'s sub-dicts side by side (``columns``, or every sub-dict holding numbers;
+    rows: the first column's numeric keys)."""
     block = diag.get(key)
     if not isinstance(block, dict):
         return ""
-    cols = [c for c, v in block.items() if isinstance(v, dict) and any(_is_number(x) for x in v.values())]
+    cols = [
+        c
+        for c, v in block.items()
+        if isinstance(v, dict) and any(_is_number(x) for x in v.values()) and (columns is None or c in columns)
+    ]
     if not cols:
         return ""
     rows = []
@@ -432,11 +437,22 @@ def _optimiser_tables(diag: dict) -> list[str]:
     out = []
     obj = diag.get("objective")
     if isinstance(obj, dict):
-        table = _nested_table(diag, "objective")
+        table = _nested_table(diag, "objective", ("heuristic", "greedy", "baseline", "exact"))
         if table:
             out += ["<h3>Optimiser objective</h3>"]
             if isinstance(obj.get("definition"), str):
                 out.append(f"<p><code>{html.escape(obj['definition'])}</code></p>")
+            weights = obj.get("weights")
+            if isinstance(weights, dict):
+                out.append(
+                    "<p>Weights: "
+                    + ", ".join(
+                        f"{_label(k)} {_json_num(diag, f'objective.weights.{k}')}"
+                        for k, v in weights.items()
+                        if _is_number(v)
+                    )
+                    + ".</p>"
+                )
             out.append(table)
         guarantee = obj.get("guarantee")
         if isinstance(guarantee, dict) and isinstance(guarantee.get("statement"), str):
