@@ -1,10 +1,180 @@
-"""``phasewise ephem`` (placeholder until the geometry issue lands it)."""
+"""``phasewise ephem``: geometry table of a target from the geocentre or from sites over a time span."""
 
+from __future__ import annotations
+
+import json
+import math
+import sys
+from pathlib import Path
+from typing import Annotated
+
+import numpy as np
+import pandas as pd
 import typer
+
+from planner.ephemeris import MIN_SOLAR_ELONG_DEG, geometry, safety_warning
+from planner.errors import InputError
+from planner.fileio import write_text_atomic
+from planner.sites import load_site
+from planner.skydata import utc_times
+from planner.targets import load_target
+from planner.timegrid import iso_utc, parse_duration_s, parse_utc, time_grid
+
+FORMATS = ("table", "csv", "json")
+MAX_ROWS = 200_000
+
+# (column, header, unit, format) for the people's table; site-only columns at the end.
+_TABLE_COLUMNS = [
+    ("ra_deg", "RA", "deg", "{:8.4f}"),
+    ("dec_deg", "Dec", "deg", "{:8.4f}"),
+    ("helio_dist_au", "r", "au", "{:7.4f}"),
+    ("obs_dist_au", "Delta", "au", "{:7.4f}"),
+    ("phase_angle_deg", "phase", "deg", "{:6.2f}"),
+    ("solar_elong_deg", "elong", "deg", "{:6.1f}"),
+    ("motion_arcsec_min", "motion", "\"/min", "{:7.3f}"),
+    ("motion_pa_deg", "PA", "deg", "{:6.1f}"),
+    ("sunward_pa_deg", "sun PA", "deg", "{:6.1f}"),
+    ("mag_pred", "mag", "mag", "{:6.2f}"),
+    ("km_per_arcsec", "scale", "km/\"", "{:7.1f}"),
+]
+_SITE_TABLE_COLUMNS = [
+    ("alt_deg", "alt", "deg", "{:6.1f}"),
+    ("az_deg", "az", "deg", "{:6.1f}"),
+    ("airmass", "airm", "", "{:5.2f}"),
+    ("hour_angle_h", "HA", "h", "{:6.2f}"),
+    ("sun_alt_deg", "sun alt", "deg", "{:6.1f}"),
+    ("moon_sep_deg", "moon sep", "deg", "{:6.1f}"),
+    ("moon_illum", "moon", "frac", "{:5.2f}"),
+]
+
+
+def format_ra_hms(ra_deg: np.ndarray) -> list[str]:
+    """RA in hours, minutes and seconds to 0.01 s (``10 50 54.93``)."""
+    cs = np.round(np.asarray(ra_deg, dtype=float) % 360.0 / 15.0 * 360000.0).astype(np.int64) % 8_640_000
+    return [f"{c // 360000:02d} {c // 6000 % 60:02d} {c % 6000 / 100:05.2f}" for c in cs]
+
+
+def format_dec_dms(dec_deg: np.ndarray) -> list[str]:
+    """Dec in signed degrees, arcminutes and arcseconds to 0.1″ (``-25 23 08.2``)."""
+    out = []
+    for d in np.asarray(dec_deg, dtype=float):
+        sign = "-" if d < 0 else "+"
+        ds = int(round(abs(d) * 36000.0))
+        out.append(f"{sign}{ds // 36000:02d} {ds // 600 % 60:02d} {ds % 600 / 10:04.1f}")
+    return out
+
+
+def _cell(fmt: str, value: float) -> str:
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "-"
+    return fmt.format(value)
+
+
+def render_table(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
+    """Aligned text for people: units in the header, RA/Dec also in sexagesimal."""
+    blocks = []
+    for name, frame in frames.items():
+        cols = list(_TABLE_COLUMNS) + (list(_SITE_TABLE_COLUMNS) if "alt_deg" in frame else [])
+        headers = ["time_utc", "RA (h m s)", "Dec (d m s)"] + [h for _, h, _, _ in cols] + ["!"]
+        units = ["", "", ""] + [u for _, _, u, _ in cols] + [""]
+        body = [iso_utc(frame["time_utc"].to_numpy()), format_ra_hms(frame["ra_deg"]),
+                format_dec_dms(frame["dec_deg"])]
+        for col, _, _, fmt in cols:
+            body.append([_cell(fmt, v) for v in frame[col].to_numpy(dtype=float)])
+        body.append(["SUN" if flag else "" for flag in frame["low_solar_elong"]])
+        widths = [max(len(h), len(u), *(len(v) for v in column)) if len(column) else max(len(h), len(u))
+                  for h, u, column in zip(headers, units, body, strict=True)]
+        lines = [f"# {frame.attrs.get('target', '')} from {name}; predicted magnitude: "
+                 f"{frame.attrs.get('mag_law', '')}; RA/Dec astrometric ICRF; alt/az airless (no refraction)"]
+        lines.append("  ".join(h.rjust(w) for h, w in zip(headers, widths, strict=True)).rstrip())
+        lines.append("  ".join(u.rjust(w) for u, w in zip(units, widths, strict=True)).rstrip())
+        for row in zip(*body, strict=True):
+            lines.append("  ".join(v.rjust(w) for v, w in zip(row, widths, strict=True)).rstrip())
+        blocks.append("\n".join(lines))
+    text = "\n\n".join(blocks) + "\n"
+    if caution:
+        text = f"# {caution}\n# '!' = SUN marks epochs below the limit.\n" + text
+    return text
+
+
+def _long_frame(frames: dict[str, pd.DataFrame]) -> pd.DataFrame:
+    parts = []
+    for name, frame in frames.items():
+        part = frame.copy()
+        part.insert(0, "site", name)
+        part["time_utc"] = iso_utc(frame["time_utc"].to_numpy(), seconds=True)
+        parts.append(part)
+    return pd.concat(parts, ignore_index=True)
+
+
+def render_csv(frames: dict[str, pd.DataFrame]) -> str:
+    return _long_frame(frames).to_csv(index=False, float_format="%.10g", lineterminator="\n")
+
+
+def render_json(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
+    first = next(iter(frames.values()))
+    rows = json.loads(_long_frame(frames).to_json(orient="records", double_precision=10))
+    doc = {
+        "target": first.attrs.get("target"),
+        "mag_law": first.attrs.get("mag_law"),
+        "min_solar_elong_deg": first.attrs.get("min_solar_elong_deg"),
+        "caution": caution,
+        "rows": rows,
+    }
+    return json.dumps(doc, indent=1, ensure_ascii=False) + "\n"
+
+
+_Target = Annotated[Path, typer.Option("--target", help="Target file: TOML, or .txt of MPC orbit lines.")]
+_Start = Annotated[str, typer.Option("--start", help="First epoch, UTC ISO 8601.")]
+_Stop = Annotated[str, typer.Option("--stop", help="Last epoch, UTC ISO 8601.")]
+_Object = Annotated[str | None, typer.Option("--object", help="Which line of a multi-line MPC .txt file.")]
+_Sites = Annotated[list[Path] | None, typer.Option("--site", help="Site file (repeatable); none: geocentre.")]
+_Step = Annotated[str, typer.Option("--step", help="Grid step: 30s, 5m, 1h, 1d.")]
+_Format = Annotated[str, typer.Option("--format", help="table (for people), csv or json.")]
+_Out = Annotated[Path | None, typer.Option("--out", help="Write here (atomically), not to stdout.")]
+_MinElong = Annotated[float, typer.Option("--min-elong", help="Solar-elongation caution limit, deg.")]
 
 
 def register(app: typer.Typer) -> None:
     @app.command("ephem")
-    def ephem() -> None:
-        """Geometry table for a target over a time span (not built yet)."""
-        raise typer.Exit(1)
+    def ephem(
+        target: _Target,
+        start: _Start,
+        stop: _Stop,
+        object_name: _Object = None,
+        site: _Sites = None,
+        step: _Step = "1h",
+        fmt: _Format = "table",
+        out: _Out = None,
+        min_elong: _MinElong = MIN_SOLAR_ELONG_DEG,
+    ) -> None:
+        """Geometry table: RA/Dec, r, Delta, phase, elongation, motion, magnitude; alt/az per site."""
+        if fmt not in FORMATS:
+            raise InputError("command line", "format", f"{fmt!r} is not one of {', '.join(FORMATS)}")
+        if not (0.0 <= min_elong <= 180.0):
+            raise InputError("command line", "min-elong", f"{min_elong:g} is outside [0, 180]")
+        t0 = parse_utc(start, field="start")
+        t1 = parse_utc(stop, field="stop")
+        step_s = parse_duration_s(step, field="step")
+        if t1 < t0:
+            raise InputError("command line", "stop", f"{stop} is before start {start}")
+        if (t1 - t0) / np.timedelta64(1, "s") / step_s + 1 > MAX_ROWS:
+            raise InputError("command line", "step",
+                             f"{step} gives more than {MAX_ROWS} epochs; use a longer step")
+        utc_times(np.array([t0, t1]), "command line", "start/stop")  # inside DE421's span?
+        tgt = load_target(target, object_name)
+        sites = [load_site(p) for p in (site or [])]
+        frames = geometry(tgt, time_grid(t0, t1, step_s), sites, min_solar_elong_deg=min_elong)
+        caution = safety_warning(frames)
+        if fmt == "table":
+            text = render_table(frames, caution)
+        elif fmt == "csv":
+            text = render_csv(frames)
+        else:
+            text = render_json(frames, caution)
+        if caution:
+            print(caution, file=sys.stderr)
+        if out is None:
+            sys.stdout.write(text)
+        else:
+            write_text_atomic(out, text)
