@@ -13,8 +13,7 @@ import io
 import json
 import math
 import re
-import subprocess
-import sys
+import shutil
 from datetime import datetime
 from html.parser import HTMLParser
 from pathlib import Path
@@ -26,6 +25,7 @@ from matplotlib.image import imread
 from planfolder import make_plan_folder
 
 from planner import plots
+from planner.cli import main
 from planner.errors import InputError
 from planner.report import load_plan_folder, render_check_report, render_report, utc_offset_h, write_report
 
@@ -295,36 +295,32 @@ def test_missing_plan_file_is_a_clear_input_error(tmp_path):
         render_report(bad)
 
 
-def test_report_command_rerenders_and_fails_cleanly(tmp_path, root):
-    d = make_plan_folder(tmp_path / "plan")
+def _copy_folder(src: Path, dst: Path) -> Path:
+    shutil.copytree(src, dst)
+    return dst
+
+
+def test_report_command_rerenders_and_fails_cleanly(plan_dir, tmp_path, capsys):
+    d = _copy_folder(plan_dir, tmp_path / "plan")
+    (d / "report.html").unlink()
     before = {p.name: p.read_bytes() for p in d.iterdir() if p.is_file()}
-    run = subprocess.run(
-        [sys.executable, "-m", "planner", "report", str(d)],
-        cwd=root,
-        capture_output=True,
-        text=True,
-        timeout=120,
-    )
-    assert run.returncode == 0, run.stderr
-    assert "report.html" in run.stdout
-    assert (d / "report.html").read_text().startswith("<!DOCTYPE html>")
+    with pytest.raises(SystemExit) as done:
+        main(["report", str(d)])
+    assert done.value.code in (0, None)
+    assert "report.html" in capsys.readouterr().out
+    assert (d / "report.html").read_text() == (plan_dir / "report.html").read_text()  # same files, same page
     # Nothing else in the folder changed, and no temporary file was left behind.
     assert {p.name: p.read_bytes() for p in d.iterdir() if p.is_file() and p.name != "report.html"} == before
     assert not list(d.glob(".*part"))
-    run = subprocess.run(
-        [sys.executable, "-m", "planner", "report", str(tmp_path / "empty")],
-        cwd=root,
-        capture_output=True,
-        text=True,
-        timeout=60,
-    )
-    assert run.returncode == 2
-    assert run.stderr.startswith("error: ") and "Traceback" not in run.stderr
+    with pytest.raises(SystemExit) as done:
+        main(["report", str(tmp_path / "empty")])
+    assert done.value.code == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error: ") and err.count("\n") == 1 and "Traceback" not in err
 
 
-def test_failed_render_keeps_the_previous_report(tmp_path):
-    d = make_plan_folder(tmp_path / "plan")
-    write_report(d)
+def test_failed_render_keeps_the_previous_report(plan_dir, tmp_path):
+    d = _copy_folder(plan_dir, tmp_path / "plan")
     good = (d / "report.html").read_bytes()
     (d / "plan.csv").write_text("site,night\n")  # start_utc and end_utc missing
     with pytest.raises(InputError, match="plan.csv: start_utc: column missing"):
