@@ -144,8 +144,11 @@ def test_forward_then_back_returns_to_the_start(e, q, t1, dt):
     pos2, vel2 = propagate_state(pos1[0], vel1[0], np.array([dt]))
     pos3, vel3 = propagate_state(pos2[0], vel2[0], np.array([-dt]))
     scale = np.linalg.norm(pos1[0]) + np.linalg.norm(pos2[0])
-    assert np.abs(pos3[0] - pos1[0]).max() <= 1e-9 * scale
-    assert np.abs(vel3[0] - vel1[0]).max() <= 1e-9 * (np.linalg.norm(vel1[0]) + np.linalg.norm(vel2[0]))
+    # Double precision bounds this: a strongly hyperbolic sungrazer (q = 0.05 au, e = 2-3) swept through
+    # perihelion loses ~1.3e-9 of relative precision in the universal-variable f, g functions (found by
+    # hypothesis). 5e-9 relative is still 1e-8 au at a 2 au scale, the accuracy the geometry promises.
+    assert np.abs(pos3[0] - pos1[0]).max() <= 5e-9 * scale
+    assert np.abs(vel3[0] - vel1[0]).max() <= 5e-9 * (np.linalg.norm(vel1[0]) + np.linalg.norm(vel2[0]))
 
 
 def test_state_propagation_agrees_with_propagation_from_perihelion():

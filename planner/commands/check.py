@@ -1,0 +1,212 @@
+"""``phasewise check``: coverage, alias and trend diagnostics for a list of observation times."""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from planner.errors import InputError
+from planner.timegrid import parse_duration_s
+
+
+def _hours(text: str, field: str) -> float:
+    """``'2h'``, ``'90m'``, ``'1.5d'`` or a bare number of hours."""
+    try:
+        value = float(text)
+    except ValueError:
+        return parse_duration_s(text, "command line", field) / 3600.0
+    if not value > 0:
+        raise InputError("command line", field, f"{text!r} must be longer than zero")
+    return value
+
+
+def _amplitudes(text: str) -> tuple[float, float]:
+    parts = text.replace(",", "-").split("-") if "-" in text or "," in text else [text, text]
+    try:
+        lo, hi = (float(x) for x in parts)
+    except ValueError:
+        raise InputError("command line", "--amplitude", f"{text!r} is not a range like 0.1-0.5 (mag)") from None
+    if not (0 < lo <= hi):
+        raise InputError("command line", "--amplitude", f"{text!r}: need 0 < low <= high (mag)")
+    return lo, hi
+
+
+class _Progress:
+    """A one-line progress bar on stderr."""
+
+    def __init__(self, label: str) -> None:
+        self.label = label
+        self.last = -1
+
+    def __call__(self, fraction: float) -> None:
+        pct = int(100 * fraction)
+        if pct != self.last:
+            self.last = pct
+            bar = "#" * (pct // 4)
+            sys.stderr.write(f"\r{self.label} [{bar:<25}] {pct:3d}%")
+            sys.stderr.flush()
+
+    def close(self) -> None:
+        if self.last >= 0:
+            sys.stderr.write("\n")
+
+
+def _f(x, fmt: str = ".3g", none: str = "n/a") -> str:
+    return none if x is None else format(x, fmt)
+
+
+def _duration(hours: float | None) -> str:
+    if hours is None:
+        return "n/a"
+    if hours < 1 / 60:
+        return f"{hours * 3600:.2g} s"
+    if hours < 1:
+        return f"{hours * 60:.2g} min"
+    return f"{hours:.3g} h"
+
+
+def render_table(d: dict) -> str:
+    """The short readable summary of a check (``d`` is ``CheckResult.to_dict()``)."""
+    s, inp = d["settings"], d["input"]
+    lines = [f"CAUTION: {note.removeprefix('caution: ')}" for note in d["notes"] if note.startswith("caution")]
+    sites = ", ".join(f"{k} {v}" for k, v in inp["sites"].items()) or "not given"
+    lines.append(f"{inp['n_times']} times, {inp['first_utc']} to {inp['last_utc']} "
+                 f"(span {inp['baseline_h']:.1f} h); sites: {sites}")
+    shape = "double-peaked (rotation = 2 × photometric period)" if s["double_peaked"] else "single-peaked"
+    lines.append(f"rotation periods {s['min_period_h']:g}–{s['max_period_h']:g} h, {len(d['periods_h'])} trial "
+                 f"periods, {s['phase_bins']} phase bins; light curve {shape}, amplitude "
+                 f"{s['amplitude_range_mag'][0]:g}–{s['amplitude_range_mag'][1]:g} mag; "
+                 f"{s['trials']} injected light curves (seed {s['seed']})")
+    lines.append("")
+    lines.append("Verdict by period band")
+    lines.append(f"  {'band (h)':<13} {'verdict':<14} {'coverage min/med':>16} {'max gap':>8} "
+                 f"{'alias':>6} {'recovered':>9}  confusable periods (h)")
+    for b in d["bands"]:
+        rec = "—" if b["recovery_fraction"] is None else f"{100 * b['recovery_fraction']:.0f} %"
+        conf = ", ".join(f"{p:g}" for p in b["confusable_periods_h"][:6])
+        if len(b["confusable_periods_h"]) > 6:
+            conf += ", …"
+        lines.append(f"  {b['min_period_h']:5.2f}–{b['max_period_h']:<6.2f} {b['verdict']:<14} "
+                     f"{_f(b['coverage_min'], '.2f')} / {_f(b['coverage_median'], '.2f'):<6} "
+                     f"{_f(b['largest_phase_gap_max'], '.2f'):>8} {b['alias_height_max']:6.2f} {rec:>9}  {conf}")
+    lines.append("")
+    worst = ", ".join(f"{w['period_h']:.2f} h ({100 * w['coverage']:.0f} %)" for w in d["worst_periods"][:6])
+    lines.append(f"Worst-covered periods: {worst or 'none'}")
+    daily = [c for c in d["commensurate"] if c["coverage"] < s["coverage_threshold"]]
+    if daily:
+        lines.append("Periods commensurate with the day left under-covered: "
+                     + ", ".join(f"{c['period_h']:.3g} h ({100 * c['coverage']:.0f} %)" for c in daily))
+    peaks = ", ".join(f"{p['freq_per_day']:.3f} c/d ({p['height']:.2f})" for p in d["window_peaks"][:5])
+    lines.append(f"Spectral window peaks: {peaks or 'none above 0.1'}; Nyquist frequency "
+                 f"{_f(d['nyquist_freq_per_day'], '.4g')} c/d")
+    flagged = [a for a in d["aliases"] if a["flagged"]]
+    if flagged:
+        lines.append(f"Main alias pairs (window height ≥ {s['alias_threshold']:g}):")
+        daily_p = {round(c["period_h"], 6) for c in d["commensurate"]}
+        daily_a = sorted((a for a in flagged if round(a["period_h"], 6) in daily_p),
+                         key=lambda a: -a["period_h"])[:3]
+        others = [a for a in flagged if a not in daily_a]
+        shown = sorted(daily_a + others[:: max(1, len(others) // 3)][: 6 - len(daily_a)],
+                       key=lambda a: a["period_h"])
+        for a in shown:
+            parts = [f"{p['period_h']:.2f} h" for p in a["partners"] if p["height"] >= s["alias_threshold"]
+                     and p["harmonic"] == 1][:4]
+            if parts:
+                lines.append(f"  {a['period_h']:6.2f} h ↔ {', '.join(parts)} (height {a['max_height']:.2f})")
+    else:
+        lines.append(f"No alias partner reaches window height {s['alias_threshold']:g}.")
+    tr = d["trend"]
+    lines.append("")
+    lines.append(f"Trend: fading-rate σ {_f(tr['rate_sigma_mag_per_day'], '.2g')} mag/day (worst period, "
+                 f"median {_f(tr['rate_sigma_median_mag_per_day'], '.2g')}); smallest extra fading at "
+                 f"{s['n_sigma']:g}σ {_f(tr['min_detectable_mag_per_day'], '.2g')} mag/day")
+    if tr.get("geometric_trend_used"):
+        lines.append(f"Geometric trend of the target over the span: {tr['geometric_trend_range_mag']:.3g} mag "
+                     "(known from r and Δ; fitted in the injection search)")
+    lines.append(f"Longest gap between visits: {_duration(tr['longest_gap_h'])} "
+                 f"({tr['longest_gap_start_utc']} → {tr['longest_gap_end_utc']})")
+    pc = d["period_change"]
+    pick = pc[:: max(1, len(pc) // 5)]
+    lines.append(f"Period change first vs second half detectable at {s['n_sigma']:g}σ "
+                 f"(amplitude {s['amplitude_range_mag'][0]:g} mag): "
+                 + ", ".join(f"P {p['period_h']:.3g} h: {_duration(p['min_detectable_change_h'])}" for p in pick))
+    syn = d.get("synodic")
+    if syn:
+        over = [p for p in syn["periods"] if p["exceeds_precision"]]
+        lines.append(f"Synodic–sidereal: bisector longitude moves {syn['pab_lon_rate_deg_per_day']:.3g} °/day "
+                     f"({syn['phase_drift_cycles']:.3g} rotations of phase over the span); offset exceeds the "
+                     f"1σ period precision for {len(over)} of {len(syn['periods'])} candidate periods"
+                     + (f" (from {over[0]['period_h']:.3g} h)" if over else ""))
+    for note in d["notes"]:
+        if not note.startswith("caution"):
+            lines.append(f"Note: {note}")
+    return "\n".join(lines) + "\n"
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("check")
+    def check(
+        times_csv: Annotated[Path, typer.Argument(help="CSV log: time_utc, optional site, exposure_s, mag_err")],
+        min_period: Annotated[str, typer.Option("--min-period", help="shortest rotation period (2h, 90m)")] = "2h",
+        max_period: Annotated[str, typer.Option("--max-period", help="longest rotation period (30h, 2d)")] = "30h",
+        target: Annotated[Path | None, typer.Option("--target", help="target file: adds the geometric trend "
+                                                    "and the synodic–sidereal drift")] = None,
+        trials: Annotated[int, typer.Option("--trials", min=0, help="injected light curves (0: none)")] = 200,
+        seed: Annotated[int, typer.Option("--seed", help="random seed of the injections")] = 0,
+        mag_err: Annotated[float, typer.Option("--mag-err", min=1e-6, help="σ (mag) where the log gives none")]
+        = 0.02,
+        amplitude: Annotated[str, typer.Option("--amplitude", help="peak-to-peak range, mag (0.1-0.5)")]
+        = "0.1-0.5",
+        single_peaked: Annotated[bool, typer.Option("--single-peaked", help="assume one maximum per rotation")]
+        = False,
+        extra_fading: Annotated[float, typer.Option("--extra-fading", help="fading added to injections, "
+                                                    "mag/day")] = 0.0,
+        fmt: Annotated[str, typer.Option("--format", help="table or json")] = "table",
+        out: Annotated[Path | None, typer.Option("--out", help="write here instead of stdout")] = None,
+        plot: Annotated[Path | None, typer.Option("--plot", help="folder for PNG figures")] = None,
+        progress: Annotated[bool | None, typer.Option("--progress/--no-progress",
+                                                      help="progress bar on stderr (default: on a terminal)")]
+        = None,
+    ) -> None:
+        """Coverage, alias and trend diagnostics for a list of observation times."""
+        from planner.diagnostics import check_times
+        from planner.fileio import write_text_atomic
+        from planner.obslog import read_observation_log
+
+        if fmt not in ("table", "json"):
+            raise InputError("command line", "--format", f"{fmt!r}: choose table or json")
+        p_min, p_max = _hours(min_period, "--min-period"), _hours(max_period, "--max-period")
+        if p_max < p_min:
+            raise InputError("command line", "--max-period", "is shorter than --min-period")
+        log = read_observation_log(times_csv)
+        tgt = None
+        if target is not None:
+            from planner.targets import load_target
+
+            tgt = load_target(target)
+        show = sys.stderr.isatty() if progress is None else progress
+        bar = _Progress("injection–recovery") if show and trials > 0 else None
+        try:
+            result = check_times(log.times_utc, min_period_h=p_min, max_period_h=p_max,
+                                 mag_err=log.mag_err_or(mag_err), sites=log.site, exposure_s=log.exposure_s,
+                                 target=tgt,
+                                 trials=trials, seed=seed, amplitude_range_mag=_amplitudes(amplitude),
+                                 double_peaked=not single_peaked, extra_fading_mag_per_day=extra_fading,
+                                 progress=bar)
+        finally:
+            if bar is not None:
+                bar.close()
+        d = result.to_dict()
+        text = json.dumps(d, indent=1, allow_nan=False) + "\n" if fmt == "json" else render_table(d)
+        if plot is not None:
+            from planner.plots_check import write_check_plots
+
+            write_check_plots(d, plot)
+        if out is None:
+            sys.stdout.write(text)
+        else:
+            write_text_atomic(out, text)

@@ -1,0 +1,123 @@
+"""``phasewise check``: runs on hand-made logs, bad input gives one line and exit status 2."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+from planner.cli import main
+from planner.errors import InputError
+from planner.obslog import read_observation_log
+
+
+def _write_log(path, hours, sites=None, extra=""):
+    base = np.datetime64("2034-03-10T00:00", "s")
+    t = base + np.round(np.asarray(hours) * 3600).astype("int64").astype("timedelta64[s]")
+    lines = ["time_utc,site,mag_err" + extra]
+    for i, ti in enumerate(t):
+        site = sites[i] if sites is not None else "hilltop"
+        lines.append(f"{ti}Z,{site},{'' if i % 4 == 0 else 0.015}")
+    path.write_text("\n".join(lines) + "\n")
+    return path
+
+
+def _run(*args):
+    return subprocess.run([sys.executable, "-m", "planner", "check", *map(str, args)],
+                          capture_output=True, text=True, timeout=120)
+
+
+def _call(capsys, *args) -> tuple[int, str, str]:
+    """In-process run (fast): exit status, stdout, stderr."""
+    try:
+        main(["check", *map(str, args)])
+        code = 0
+    except SystemExit as exc:
+        code = exc.code or 0
+    out = capsys.readouterr()
+    return code, out.out, out.err
+
+
+@pytest.fixture
+def single_log(tmp_path):
+    hours = np.concatenate([n * 24 + 20 + np.arange(30) / 6 for n in range(8)])
+    return _write_log(tmp_path / "single.csv", hours)
+
+
+def test_table_json_out_and_plots(single_log, tmp_path):
+    r = _run(single_log, "--min-period", "2h", "--max-period", "30h", "--trials", "60", "--seed", "4")
+    assert r.returncode == 0, r.stderr
+    assert "Verdict by period band" in r.stdout and "under-covered" in r.stdout
+    assert "24 h" in r.stdout and "12.00 h ↔" in r.stdout
+    out = tmp_path / "check.json"
+    plots = tmp_path / "plots"
+    r = _run(single_log, "--min-period", "120m", "--max-period", "1.25d", "--trials", "60",
+             "--format", "json", "--out", out, "--plot", plots)
+    assert r.returncode == 0, r.stderr
+    d = json.loads(out.read_text())
+    assert d["settings"]["max_period_h"] == pytest.approx(30.0)
+    assert d["input"]["n_times"] == 240 and d["input"]["sites"] == {"hilltop": 240}
+    assert sorted(p.name for p in plots.iterdir()) == [
+        "check_coverage_map.png", "check_recovery.png", "check_spectral_window.png"]
+    assert all(p.read_bytes()[:4] == b"\x89PNG" for p in plots.iterdir())
+
+
+@pytest.mark.parametrize("content, message", [
+    ("time_utc\n2034-03-10T20:00Z\nyesterday\n", "time_utc (row 2): 'yesterday' is not an ISO 8601"),
+    ("time_utc,mag_err\n2034-03-10T20:00Z,-0.1\n", "mag_err (row 1): '-0.1' must be a positive number"),
+    ("time_utc,colour\n2034-03-10T20:00Z,red\n", "colour: unknown column"),
+    ("site\nhilltop\n", "time_utc: missing column"),
+    ("time_utc\n", "time_utc: no observation times"),
+    ("time_utc,exposure_s\n2034-03-10T20:00Z,abc\n", "exposure_s (row 1): 'abc' is not a number"),
+])
+def test_bad_log_is_one_line_exit_2(capsys, tmp_path, content, message):
+    f = tmp_path / "bad.csv"
+    f.write_text(content)
+    code, _, err = _call(capsys, f, "--trials", "0")
+    assert code == 2
+    assert err.count("\n") == 1 and "Traceback" not in err
+    assert err.startswith(f"error: {f}: ") and message in err
+
+
+def test_bad_options_exit_2(capsys, single_log, tmp_path):
+    for args, field in ((["--min-period", "soon"], "--min-period"),
+                        (["--min-period", "30h", "--max-period", "2h"], "--max-period"),
+                        (["--format", "xml"], "--format"),
+                        (["--amplitude", "big"], "--amplitude")):
+        code, _, err = _call(capsys, single_log, *args)
+        assert code == 2 and err.startswith("error: command line: " + field), err
+    code, _, err = _call(capsys, tmp_path / "missing.csv")
+    assert code == 2 and "file not found" in err
+
+
+def test_read_log_defaults_and_order(tmp_path):
+    f = _write_log(tmp_path / "log.csv", [5.0, 1.0, 3.0])
+    log = read_observation_log(f)
+    assert log.times_utc.size == 3 and list(log.site) == ["hilltop"] * 3
+    assert np.isnan(log.mag_err[0]) and log.mag_err_or(0.05)[0] == 0.05 and log.mag_err_or(0.05)[1] == 0.015
+    with pytest.raises(InputError):
+        read_observation_log(tmp_path)
+
+
+def test_target_adds_geometric_trend_and_synodic_drift(root, tmp_path):
+    # The demo target through planner.ephemeris.geometry; the command reports the bisector motion.
+    hours = np.concatenate([n * 24 + start + np.arange(20) / 4 for n in range(4) for start in (20, 4, 12)])
+    log = tmp_path / "demo.csv"
+    base = np.datetime64("2034-03-16T00:00", "s")
+    times = base + np.round(hours * 3600).astype("int64").astype("timedelta64[s]")
+    log.write_text("time_utc\n" + "".join(f"{t}Z\n" for t in times))
+    out = tmp_path / "c.json"
+    r = _run(log, "--target", root / "demo_targets" / "c2034-b3-quillfeather.toml", "--trials", "20",
+             "--format", "json", "--out", out)
+    assert r.returncode == 0, r.stderr
+    d = json.loads(out.read_text())
+    assert d["trend"]["geometric_trend_used"] and d["synodic"]["pab_lon_rate_deg_per_day"] is not None
+
+
+
+def test_missing_target_file_exit_2(capsys, single_log, tmp_path):
+    code, _, err = _call(capsys, single_log, "--target", tmp_path / "nope.toml", "--trials", "0")
+    assert code == 2 and err.startswith("error: ") and err.count("\n") == 1
