@@ -23,6 +23,10 @@ from matplotlib.colors import ListedColormap  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
 from matplotlib.patches import Patch  # noqa: E402
 
+from planner.coverage import phase_bin_index  # noqa: E402
+from planner.timegrid import to_jd_utc  # noqa: E402
+from planner.window import spectral_window  # noqa: E402
+
 INK = "#1b2a41"  # near-black navy: the plan, text-like marks
 AMBER = "#d98e04"  # light: the baseline
 TEAL = "#2f7d6d"  # mid: observable windows
@@ -326,64 +330,61 @@ def network_timeline_figure(
 # ---------------------------------------------------------------------------------------- diagnostics
 
 
-def phase_coverage_map(
-    periods_h: np.ndarray,
-    start_utc: np.ndarray,
-    end_utc: np.ndarray,
-    epoch_utc: np.datetime64,
-    n_phase_bins: int = 120,
-) -> np.ndarray:
-    """Boolean map [period, phase bin]: does any interval cover the bin's centre when folded on the period?
-
-    An interval [a, b] folded on P covers phases (a − t0)/P mod 1 over a length (b − a)/P (all of them
-    once b − a ≥ P). Vectorised over periods × intervals × bins.
-    """
-    p = np.asarray(periods_h, dtype=float)[:, None, None]
-    a = ((np.asarray(start_utc, dtype="datetime64[ns]") - epoch_utc) / np.timedelta64(1, "h"))[None, :, None]
-    d = (
-        (np.asarray(end_utc, dtype="datetime64[ns]") - np.asarray(start_utc, dtype="datetime64[ns]"))
-        / np.timedelta64(1, "h")
-    )[None, :, None]
-    centres = ((np.arange(n_phase_bins) + 0.5) / n_phase_bins)[None, None, :]
-    offset = (centres - a / p) % 1.0  # phase distance from the interval's start, going forward
-    return np.any((offset <= d / p) | (d >= p), axis=1)
+def check_times_utc(check: dict, fallback: np.ndarray) -> np.ndarray:
+    """The observation times a check result was computed from (its ``input.times_utc``), else ``fallback``."""
+    listed = (check.get("input") or {}).get("times_utc")
+    if listed:
+        return np.array([str(t).rstrip("Z") for t in listed], dtype="datetime64[ns]")
+    return np.asarray(fallback, dtype="datetime64[ns]")
 
 
-def phase_coverage_map_slow(periods_h, start_utc, end_utc, epoch_utc, n_phase_bins: int = 120) -> np.ndarray:
-    """Obvious twin of :func:`phase_coverage_map`: list every rotation k and test t = (k + phase) P."""
-    out = np.zeros((len(periods_h), n_phase_bins), dtype=bool)
-    for i, p in enumerate(periods_h):
-        for a, b in zip(start_utc, end_utc, strict=True):
-            a_h = (np.datetime64(a, "ns") - epoch_utc) / np.timedelta64(1, "h")
-            b_h = (np.datetime64(b, "ns") - epoch_utc) / np.timedelta64(1, "h")
-            for j in range(n_phase_bins):
-                c = (j + 0.5) / n_phase_bins
-                for k in range(int(np.floor(a_h / p)) - 1, int(np.ceil(b_h / p)) + 1):
-                    if a_h <= (k + c) * p <= b_h:
-                        out[i, j] = True
-    return out
+def phase_occupancy(times_utc: np.ndarray, periods_h: np.ndarray, n_bins: int) -> np.ndarray:
+    """Boolean map [period, phase bin]: does any time fall in the bin, folded on the period?
 
-
-def coverage_figure(periods_h: Sequence[float], series: Sequence[Series], epoch_utc: np.datetime64) -> Figure:
-    """Coverage map (period × rotational phase) per schedule, and the coverage fraction per period.
-
-    The map folds each observing interval on every grid period (phase zero at ``epoch_utc``); the
-    fraction curve is the check's ``coverage`` number for each period, drawn as given.
+    Same bins as the check's coverage (planner.coverage.phase_bin_index, phase zero at the first
+    time), so each row's mean is that period's coverage fraction. Chunked over periods for memory.
     """
     periods = np.asarray(periods_h, dtype=float)
-    order = np.argsort(periods)
-    periods = periods[order]
-    edges = np.concatenate([[periods[0] * 0.995], 0.5 * (periods[1:] + periods[:-1]), [periods[-1] * 1.005]])
+    occupied = np.zeros((periods.size, n_bins), dtype=bool)
+    t_jd = to_jd_utc(np.asarray(times_utc, dtype="datetime64[ns]"))
+    if t_jd.size == 0:
+        return occupied
+    step = max(1, 2_000_000 // t_jd.size)
+    for a in range(0, periods.size, step):
+        idx = phase_bin_index(t_jd, periods[a : a + step], n_bins)
+        occupied[np.arange(a, a + idx.shape[0])[:, None], idx] = True
+    return occupied
+
+
+def _period_edges(periods: np.ndarray) -> np.ndarray:
+    return np.concatenate([[periods[0] * 0.995], 0.5 * (periods[1:] + periods[:-1]), [periods[-1] * 1.005]])
+
+
+def coverage_figure(series: Sequence[Series]) -> Figure:
+    """Coverage map (period × rotational phase) per schedule, and the coverage fraction per period.
+
+    Each schedule is drawn on its own check's period grid (``periods_h``). The map bins the check's
+    own observation times exactly as the check does (its ``phase_bins``); the fraction curve is the
+    check's ``coverage`` number for each period, drawn as given.
+    """
     fig = new_figure(3.0 * len(series) + 3.2, 4.6)
     axes = fig.subplots(1, len(series) + 1, sharey=True, gridspec_kw=dict(width_ratios=[3] * len(series) + [2.2]))
     cmap = ListedColormap(["#ffffff", INK])
-    nbins = 120
+    lo, hi = np.inf, 0.0
     for ax, s in zip(axes[:-1], series, strict=False):
-        cov = phase_coverage_map(periods, s.start_utc, s.end_utc, epoch_utc, nbins)
+        periods = _floats(s.check.get("periods_h") or [])
+        if periods.size == 0:
+            continue
+        order = np.argsort(periods)
+        periods = periods[order]
+        edges = _period_edges(periods)
+        lo, hi = min(lo, edges[0]), max(hi, edges[-1])
+        n_bins = int((s.check.get("settings") or {}).get("phase_bins", 20))
+        occupied = phase_occupancy(check_times_utc(s.check, s.times_utc), periods, n_bins)
         ax.pcolormesh(
-            np.linspace(0, 1, nbins + 1),
+            np.linspace(0, 1, n_bins + 1),
             edges,
-            cov.astype(float),
+            occupied.astype(float),
             cmap=cmap,
             vmin=0,
             vmax=1,
@@ -391,40 +392,29 @@ def coverage_figure(periods_h: Sequence[float], series: Sequence[Series], epoch_
             rasterized=True,
         )
         ax.set_yscale("log")
-        ax.set_xlabel("rotational phase")
+        ax.set_xlabel(f"rotational phase ({n_bins} bins)")
         ax.set_title(s.label, fontsize=10)
-    axes[0].set_ylabel("trial period (h)")
-    ax = axes[-1]
-    for s in series:
         if s.check.get("coverage") is not None:
-            c = np.asarray(s.check["coverage"], dtype=float)[order]
             kw = s.line_kw()
             kw["markevery"] = max(1, len(periods) // 25)
-            ax.plot(c, periods, **kw)
+            axes[-1].plot(_floats(s.check["coverage"])[order], periods, **kw)
+    axes[0].set_ylabel("trial period (h)")
+    ax = axes[-1]
     ax.set_xlim(0, 1.02)
     ax.set_xlabel("phase covered (fraction)")
     ax.grid(True, color="#dddddd", lw=0.6)
     ax.legend(loc="lower left", fontsize=8)
-    axes[0].set_ylim(edges[0], edges[-1])
-    period_axis(axes[0].yaxis, edges[0], edges[-1])
+    if hi > 0:
+        axes[0].set_ylim(lo, hi)
+        period_axis(axes[0].yaxis, lo, hi)
     return fig
-
-
-def spectral_window_amplitude(times_utc: np.ndarray, freq_per_day: np.ndarray) -> np.ndarray:
-    """|W(f)| = |(1/N) Σ exp(2πi f t_k)|, the spectral window of Deeming (1975), t in days."""
-    t = np.asarray(times_utc, dtype="datetime64[ns]")
-    if t.size == 0:
-        return np.zeros_like(np.asarray(freq_per_day, dtype=float))
-    t_d = (t - t.min()) / np.timedelta64(1, "D")
-    phase = 2j * np.pi * np.outer(np.asarray(freq_per_day, dtype=float), t_d)
-    return np.abs(np.exp(phase).mean(axis=1))
 
 
 def spectral_window_figure(series: Sequence[Series], max_freq_per_day: float = 5.0) -> Figure:
     """|W(f)| of each schedule, with the check's principal peaks marked and labelled.
 
     The curve is the check's own ``window`` (``freq_per_day``, ``height``) when it carries one; otherwise it
-    is computed from the schedule's exposure times.
+    is computed from the check's times with planner.window.spectral_window (Deeming 1975).
     """
     grid = np.linspace(0.0, max_freq_per_day, 4001)
     fig = new_figure(8.5, 2.4 * len(series) + 0.6)
@@ -437,7 +427,7 @@ def spectral_window_figure(series: Sequence[Series], max_freq_per_day: float = 5
         if window.get("freq_per_day") and window.get("height"):
             f, w = _floats(window["freq_per_day"]), _floats(window["height"])
         else:
-            f, w = grid, spectral_window_amplitude(s.times_utc, grid)
+            f, w = grid, spectral_window(to_jd_utc(check_times_utc(s.check, s.times_utc)), grid)
         ax.plot(f, w, **{k: v for k, v in kw.items() if not k.startswith("marker")})
         peaks = [p for p in s.check.get("window_peaks", []) if p.get("freq_per_day", 0) <= max_freq_per_day]
         if peaks:

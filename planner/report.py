@@ -585,19 +585,16 @@ def diagnostics_sections(
         return _json_num({key: check} if key else check, src(key, path), digits, unit)
 
     out = []
-    periods = series[0].check.get("periods_h") or []
-    starts = [s.start_utc.min() for s in series if s.start_utc.size]
-    epoch = min(starts) if starts else np.datetime64("2000-01-01", "ns")
-    if periods:
-        fig = plots.coverage_figure(periods, series, epoch)
+    if any(s.check.get("periods_h") for s in series):
+        fig = plots.coverage_figure(series)
         out.append(
             '<section id="coverage"><h2>Rotational-phase coverage</h2>'
             + figure_html(
                 fig,
                 "fig-coverage",
-                "Left: each observing interval folded on every trial period (dark = that phase is observed; "
-                "phase zero at the first block). Right: fraction of phase covered per period, as computed by "
-                "the check.",
+                "Left: the observation times folded on every trial period, in the check's phase bins (dark = "
+                "that phase is observed; phase zero at the first time). Right: fraction of phase covered per "
+                "period, as computed by the check.",
                 "Coverage map, period against rotational phase",
             )
             + "</section>"

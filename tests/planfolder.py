@@ -15,6 +15,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from planner.diagnostics import check_times
+
 SITES = [
     # name, latitude, east longitude, UTC offset (h)
     ("Ridge North", -30.0, 20.0, 2.0),
@@ -25,9 +27,7 @@ TARGET_RA_DEG, TARGET_DEC_DEG = 150.0, -25.0
 SUN_RA_DEG, SUN_DEC_DEG = 356.0, -2.0
 
 
-def _alt_deg(
-    times: pd.DatetimeIndex, lat_deg: float, lon_deg: float, ra_deg: float, dec_deg: float
-) -> np.ndarray:
+def _alt_deg(times: pd.DatetimeIndex, lat_deg: float, lon_deg: float, ra_deg: float, dec_deg: float) -> np.ndarray:
     days = (times - pd.Timestamp("2000-01-01T12:00")).total_seconds().to_numpy() / 86400.0
     lst_deg = (280.46061837 + 360.98564736629 * days + lon_deg) % 360.0
     ha = np.radians(lst_deg - ra_deg)
@@ -60,48 +60,21 @@ def _utc(t: pd.Timestamp) -> str:
     return t.strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
-def _check_json(times_h: np.ndarray, seed: int) -> dict:
-    rng = np.random.default_rng(seed)
-    freqs = np.linspace(24 / 30, 24 / 2, 60)
-    periods_h = 24.0 / freqs
-    coverage = np.round(rng.uniform(0.4, 1.0, periods_h.size), 6)
-    return {
-        "periods_h": periods_h.round(6).tolist(),
-        "coverage": coverage.tolist(),
-        "largest_phase_gap": np.round(rng.uniform(0.0, 0.4, periods_h.size), 6).tolist(),
-        "window_peaks": [
-            {"freq_per_day": 1.0027, "height": round(float(rng.uniform(0.5, 0.9)), 6)},
-            {"freq_per_day": 2.0054, "height": round(float(rng.uniform(0.2, 0.5)), 6)},
-        ],
-        "bands": [
-            {"min_period_h": 2.0, "max_period_h": 8.0, "verdict": "secure", "confusable_periods_h": []},
-            {
-                "min_period_h": 8.0,
-                "max_period_h": 16.0,
-                "verdict": "alias-prone",
-                "confusable_periods_h": [11.97, 12.03],
-            },
-            {
-                "min_period_h": 16.0,
-                "max_period_h": 30.0,
-                "verdict": "under-covered",
-                "confusable_periods_h": [],
-            },
-        ],
-        "recovery": [
-            {"period_h": float(p), "fraction": round(float(rng.uniform(0.3, 1.0)), 4)}
-            for p in np.geomspace(2, 30, 8)
-        ],
-        "trend": {
-            "rate_sigma_mag_per_day": round(float(rng.uniform(0.001, 0.01)), 6),
-            "min_detectable_mag_per_day": round(float(rng.uniform(0.005, 0.03)), 6),
-            "longest_gap_h": round(float(np.max(np.diff(np.sort(times_h)))), 3),
-        },
-        "period_change": [
-            {"period_h": float(p), "min_detectable_change_h": round(float(p) * 1e-3 * (1 + seed), 6)}
-            for p in np.geomspace(2, 30, 8)
-        ],
-    }
+def _exposure_times(df: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """Exposure mid-times spread evenly over each block, and the site of each."""
+    times, sites = [], []
+    for r in df.itertuples():
+        a, b = pd.Timestamp(r.start_utc).tz_localize(None), pd.Timestamp(r.end_utc).tz_localize(None)
+        k = (np.arange(r.n_exposures) + 0.5) / r.n_exposures
+        times.append(np.datetime64(a, "ns") + ((b - a).value * k).astype("timedelta64[ns]"))
+        sites += [r.site] * r.n_exposures
+    return np.concatenate(times), np.array(sites)
+
+
+def _check_json(df: pd.DataFrame, seed: int) -> dict:
+    """The real ``phasewise check`` result for the block's exposure times (few trials, to stay quick)."""
+    times, sites = _exposure_times(df)
+    return check_times(times, min_period_h=2.0, max_period_h=30.0, sites=sites, trials=12, seed=seed).to_dict()
 
 
 def make_plan_folder(
@@ -175,6 +148,7 @@ def make_plan_folder(
                     mag_pred=15.1,
                     motion_arcsec_min=1.2,
                     reason="",
+                    caution="Moon <rises> late" if k == 1 else "",
                 )
             )
             for rows, b0 in (
@@ -200,6 +174,9 @@ def make_plan_folder(
                         moon_sep_deg=81.25,
                         mag_pred=15.123456,
                         snr_pred=48.7,
+                        hours=round((b1 - b0).total_seconds() / 3600, 4),
+                        solar_elong_deg=118.5,
+                        sun_alt_max_deg=float(sun_alt[(times >= b0) & (times <= b1)].max()),
                     )
                 )
     pd.concat(geom_rows).to_csv(out / "geometry.csv", index=False)
@@ -209,18 +186,23 @@ def make_plan_folder(
     (out / "plan.json").write_text(plan.to_json(orient="records", indent=1))
     pd.DataFrame(base_rows).to_csv(out / "baseline.csv", index=False)
 
-    def hours_of(df: pd.DataFrame) -> np.ndarray:
-        return (
-            (pd.to_datetime(df["start_utc"]).dt.tz_localize(None) - start).dt.total_seconds() / 3600
-        ).to_numpy()
-
+    # objective and robustness in the scheduler's shape (values invented).
     diag = {
-        "plan": _check_json(hours_of(plan), 1),
-        "baseline": _check_json(hours_of(pd.DataFrame(base_rows)), 2),
-        "objective": {"heuristic": 0.912345, "exact": None},
-        "robustness": {"expected_coverage": 0.81, "p10_coverage": 0.64},
+        "plan": _check_json(plan, 1),
+        "baseline": _check_json(pd.DataFrame(base_rows), 2),
+        "objective": {
+            "definition": "J = coverage - alias",
+            "weights": {"coverage": 1.0, "alias": 0.5},
+            "heuristic": {"coverage": 0.912345, "alias": 0.3, "total": 0.762345},
+            "baseline": {"coverage": 0.8, "alias": 0.7, "total": 0.45},
+            "guarantee": {"ratio": None, "statement": "none proven <in this fixture>"},
+        },
+        "robustness": {
+            "plan": {"expected_coverage": 0.81, "p10_coverage": 0.64, "single_site_bands_h": [[24.0, 24.5]]},
+            "baseline": {"expected_coverage": 0.7, "p10_coverage": 0.5, "single_site_bands_h": []},
+        },
     }
-    (out / "diagnostics.json").write_text(json.dumps(diag, indent=1))
+    (out / "diagnostics.json").write_text(json.dumps(diag, indent=1, allow_nan=False))
     site_list = ", ".join(json.dumps(f"sites/{_slug(s[0])}.toml") for s in sites)
     (out / "campaign.toml").write_text(
         f'name = {json.dumps(target_name + " week")}\ntarget = "targets/fixture.toml"\n'

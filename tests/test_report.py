@@ -26,6 +26,7 @@ from planfolder import make_plan_folder
 
 from planner import plots
 from planner.cli import main
+from planner.diagnostics import check_times
 from planner.errors import InputError
 from planner.report import load_plan_folder, render_check_report, render_report, utc_offset_h, write_report
 
@@ -331,9 +332,7 @@ def test_failed_render_keeps_the_previous_report(plan_dir, tmp_path):
 def test_local_clock_offset_from_paired_times():
     import pandas as pd
 
-    df = pd.DataFrame(
-        {"start_utc": ["2034-03-16T08:30:00Z", ""], "start_local": ["2034-03-15T22:30:00-10:00", ""]}
-    )
+    df = pd.DataFrame({"start_utc": ["2034-03-16T08:30:00Z", ""], "start_local": ["2034-03-15T22:30:00-10:00", ""]})
     assert utc_offset_h(df) == -10.0
     naive = pd.DataFrame({"start_utc": ["2034-03-16T08:30:00Z"], "start_local": ["2034-03-16T19:30:00"]})
     assert utc_offset_h(naive) == 11.0
@@ -341,68 +340,42 @@ def test_local_clock_offset_from_paired_times():
 
 def test_check_report_for_a_log_of_times():
     rng = np.random.default_rng(3)
-    t = np.datetime64("2034-03-16T20:00", "ns") + (np.sort(rng.uniform(0, 5 * 86400, 80)) * 1e9).astype(
-        "timedelta64[ns]"
-    )
-    check = {
-        "periods_h": [2.0, 5.0, 10.0, 20.0],
-        "coverage": [0.9, 0.8, 0.6, 0.4],
-        "window_peaks": [{"freq_per_day": 1.0, "height": 0.8}],
-        "bands": [
-            {
-                "min_period_h": 2.0,
-                "max_period_h": 20.0,
-                "verdict": "alias-prone",
-                "confusable_periods_h": [8.0],
-            }
-        ],
-        "recovery": [{"period_h": 2.0, "fraction": 0.9}, {"period_h": 20.0, "fraction": 0.5}],
-        "trend": {
-            "rate_sigma_mag_per_day": 0.002,
-            "min_detectable_mag_per_day": 0.006,
-            "longest_gap_h": 19.5,
-        },
-        "period_change": [{"period_h": 2.0, "min_detectable_change_h": 0.001}],
-    }
+    offsets_s = np.sort(rng.uniform(0, 5 * 86400, 80))
+    t = np.datetime64("2034-03-16T20:00", "ns") + (offsets_s * 1e9).astype("timedelta64[ns]")
+    check = check_times(t, min_period_h=2.0, max_period_h=20.0, trials=4, seed=1).to_dict()
     text = render_check_report(check, t, 120.0, title="Log <check>", source="log.csv")
     parsed = _parse(text)
     assert parsed.figures == ["fig-coverage", "fig-window", "fig-recovery", "fig-sensitivity"]
-    assert "Log &lt;check&gt;" in text
+    assert "Log &lt;check&gt;" in text and "script" not in parsed.tags
     values = {s["data-src"]: s["data-value"] for s in parsed.spans if "data-src" in s}
-    assert values["diagnostics.json:trend.longest_gap_h"] == "19.5"
+    assert json.loads(values["diagnostics.json:trend.longest_gap_h"]) == check["trend"]["longest_gap_h"]
+    for i, band in enumerate(check["bands"]):
+        assert json.loads(values[f"diagnostics.json:bands.{i}.min_period_h"]) == band["min_period_h"]
 
 
 # ---------------------------------------------------------------------------------------- figure kernels
 
 
-def test_phase_coverage_map_fast_matches_slow():
-    rng = np.random.default_rng(11)
-    epoch = np.datetime64("2034-03-16T00:00", "ns")
-    start = epoch + (rng.uniform(0, 6 * 86400, 12) * 1e9).astype("timedelta64[ns]")
-    end = start + (rng.uniform(600, 4 * 3600, 12) * 1e9).astype("timedelta64[ns]")
-    periods = 24.0 / np.linspace(0.8, 12.0, 37)
-    fast = plots.phase_coverage_map(periods, start, end, epoch, 40)
-    slow = plots.phase_coverage_map_slow(periods, start, end, epoch, 40)
-    assert np.array_equal(fast, slow)
-    assert 0 < fast.mean() < 1
+def test_coverage_map_bins_are_the_checks_own(plan_dir):
+    # The map must show what the check counted: each period's share of occupied bins equals the
+    # coverage number in diagnostics.json (same times, same bins).
+    diag = json.loads((plan_dir / "diagnostics.json").read_text())
+    for kind in ("plan", "baseline"):
+        check = diag[kind]
+        times = plots.check_times_utc(check, np.array([], dtype="datetime64[ns]"))
+        assert times.size == check["input"]["n_times"]
+        occupied = plots.phase_occupancy(times, np.array(check["periods_h"]), check["settings"]["phase_bins"])
+        np.testing.assert_allclose(occupied.mean(axis=1), check["coverage"], atol=1e-12)
+        assert 0 < occupied.mean() < 1
 
 
-def test_phase_coverage_of_a_block_longer_than_the_period_is_complete():
-    epoch = np.datetime64("2034-03-16T00:00", "ns")
-    cov = plots.phase_coverage_map([2.0, 6.0], [epoch], [epoch + np.timedelta64(3, "h")], epoch, 30)
-    assert cov[0].all()  # 3 h block, 2 h period: every phase seen
-    assert cov[1].mean() == pytest.approx(0.5, abs=1 / 30)  # half the rotation of a 6 h period
-
-
-def test_spectral_window_of_daily_sampling():
-    # Deeming (1975), Ap&SS 36, 137: for times spaced exactly one day apart, |W| = 1 at 1 c/d and its
-    # multiples; for an even number N of such times |W(0.5 c/d)| = 0 (the unit vectors cancel in pairs).
-    t = np.datetime64("2034-03-16T22:00", "ns") + np.arange(10) * np.timedelta64(1, "D")
-    w = plots.spectral_window_amplitude(t, np.array([0.0, 0.5, 1.0, 2.0, 0.25]))
-    assert w[0] == pytest.approx(1.0) and w[2] == pytest.approx(1.0) and w[3] == pytest.approx(1.0)
-    assert w[1] == pytest.approx(0.0, abs=1e-12)
-    # |W(0.25)| by hand: the mean of i^k for k = 0..9 is (1 + i) / 10, of length sqrt(2) / 10.
-    assert w[4] == pytest.approx(math.sqrt(2) / 10, abs=1e-12)
+def test_phase_occupancy_by_hand():
+    # Times at 0, 1.2, 2.2 and 3.2 h (phase zero at the first) folded on a 4 h period with 4 bins fill
+    # every bin; on 8 h (bins of 2 h) only the first two.
+    t = np.datetime64("2034-03-16T20:00", "ns") + np.array([0, 72, 132, 192]) * np.timedelta64(1, "m")
+    occ = plots.phase_occupancy(t, np.array([4.0, 8.0]), 4)
+    assert occ[0].tolist() == [True, True, True, True]
+    assert occ[1].tolist() == [True, True, False, False]
 
 
 def test_darkness_levels_follow_the_twilight_definitions():
