@@ -908,22 +908,35 @@ def write_report(plan_dir: str | Path) -> Path:
     return write_text_atomic(Path(plan_dir) / REPORT_NAME, text)
 
 
-def render_check_report(
-    check: dict,
-    times_utc: np.ndarray,
-    exposure_s: np.ndarray | float = 0.0,
-    title: str = "Sampling check",
-    source: str = "",
-) -> str:
-    """The diagnostics sections alone, for a log of observation times (``phasewise check --report``).
+def render_check_report(check: dict, title: str = "Sampling check", source: str = "") -> str:
+    """The diagnostics sections alone, for one check result (``phasewise check --report FILE``).
 
-    Each exposure is drawn as an interval of its own length centred on its time.
+    ``check`` is ``CheckResult.to_dict()`` (the ``phasewise check`` JSON); its ``input.times_utc`` are
+    the times drawn. ``source`` names the log, shown as text.
     """
-    t = np.asarray(times_utc, dtype="datetime64[ns]")
-    half = (np.broadcast_to(np.asarray(exposure_s, dtype=float), t.shape) * 0.5e9).astype("timedelta64[ns]")
-    s = plots.plan_series(label="observations", check=check, start_utc=t - half, end_utc=t + half, times_utc=t)
-    periods = check.get("periods_h") or [None]
-    body = diagnostics_sections([s], [""], min(periods) if periods[0] else None, max(periods) if periods[0] else None)
+    times = plots.check_times_utc(check, np.array([], dtype="datetime64[ns]"))
+    s = plots.Series(label="observations", check=check, times_utc=times)
+    settings = check.get("settings") or {}
+    inp = check.get("input") or {}
+    rows = [
+        ["times", _json_num(check, "input.n_times")],
+        ["first, last (UTC)", html.escape(f"{inp.get('first_utc') or '—'}, {inp.get('last_utc') or '—'}")],
+        ["span", _json_num(check, "input.baseline_h", 2, " h")],
+        ["sites", html.escape(", ".join(f"{k} ({v})" for k, v in (inp.get("sites") or {}).items())) or "—"],
+        [
+            "candidate periods",
+            _json_num(check, "settings.min_period_h", 3) + "–" + _json_num(check, "settings.max_period_h", 3) + " h",
+        ],
+        ["injected light curves", _json_num(check, "settings.trials")],
+    ]
+    notes = "".join(f"<li>{html.escape(str(n))}</li>" for n in check.get("notes") or [])
+    body = (
+        '<section id="summary"><h2>What was checked</h2>'
+        + _table(["", ""], rows, "kv")
+        + (f"<ul>{notes}</ul>" if notes else "")
+        + "</section>"
+    )
+    body += diagnostics_sections([s], [""], settings.get("min_period_h"), settings.get("max_period_h"))
     body += '<section id="cautions"><h2>Cautions</h2><ul><li>' + html.escape(SUN_SAFETY_TEXT) + "</li></ul></section>"
-    subtitle = f"{t.size} observation times" + (f" from {html.escape(source)}" if source else "")
-    return _page(title, subtitle, [*_DIAG_TOC, ("cautions", "Cautions")], body)
+    subtitle = f"{times.size} observation times" + (f" from {html.escape(source)}" if source else "")
+    return _page(title, subtitle, [("summary", "What was checked"), *_DIAG_TOC, ("cautions", "Cautions")], body)

@@ -343,10 +343,10 @@ def test_check_report_for_a_log_of_times():
     offsets_s = np.sort(rng.uniform(0, 5 * 86400, 80))
     t = np.datetime64("2034-03-16T20:00", "ns") + (offsets_s * 1e9).astype("timedelta64[ns]")
     check = check_times(t, min_period_h=2.0, max_period_h=20.0, trials=4, seed=1).to_dict()
-    text = render_check_report(check, t, 120.0, title="Log <check>", source="log.csv")
+    text = render_check_report(check, title="Log <check>", source="<log>.csv")
     parsed = _parse(text)
     assert parsed.figures == ["fig-coverage", "fig-window", "fig-recovery", "fig-sensitivity"]
-    assert "Log &lt;check&gt;" in text and "script" not in parsed.tags
+    assert "Log &lt;check&gt;" in text and "&lt;log&gt;.csv" in text and "script" not in parsed.tags
     values = {s["data-src"]: s["data-value"] for s in parsed.spans if "data-src" in s}
     assert json.loads(values["diagnostics.json:trend.longest_gap_h"]) == check["trend"]["longest_gap_h"]
     for i, band in enumerate(check["bands"]):
@@ -383,3 +383,48 @@ def test_darkness_levels_follow_the_twilight_definitions():
     # sunrise/sunset at −0.833° (upper limb with standard refraction).
     idx = plots._darkness_index(np.array([10.0, -0.5, -3.0, -6.5, -12.5, -18.5, -40.0]))
     assert idx.tolist() == [0, 0, 1, 2, 3, 4, 4]
+
+
+def test_check_command_writes_the_html_report(tmp_path, capsys):
+    # Two sites, four nights, a few times a night: a small log of our own.
+    rows = ["time_utc,site"]
+    for night in range(4):
+        for k in range(6):
+            rows.append(f"2034-03-{16 + night}T{20 + k // 2}:{15 * (k % 2):02d}:00Z,North <A>")
+            rows.append(f"2034-03-{17 + night}T{9 + k // 2:02d}:{10 + 15 * (k % 2):02d}:00Z,South")
+    log = tmp_path / "log.csv"
+    log.write_text("\n".join(rows) + "\n")
+    out = tmp_path / "check.html"
+    with pytest.raises(SystemExit) as done:
+        main(
+            [
+                "check",
+                str(log),
+                "--trials",
+                "2",
+                "--no-progress",
+                "--format",
+                "json",
+                "--out",
+                str(tmp_path / "check.json"),
+                "--report",
+                str(out),
+            ]
+        )
+    assert done.value.code in (0, None), capsys.readouterr().err
+    text = out.read_text()
+    parsed = _parse(text)
+    assert parsed.figures == ["fig-coverage", "fig-window", "fig-recovery", "fig-sensitivity"]
+    assert "North &lt;A&gt; (24)" in text and "script" not in parsed.tags
+    check = json.loads((tmp_path / "check.json").read_text())
+    values = {s["data-src"]: s["data-value"] for s in parsed.spans if "data-src" in s}
+    assert (
+        json.loads(values["diagnostics.json:trend.min_detectable_mag_per_day"])
+        == check["trend"]["min_detectable_mag_per_day"]
+    )
+    exe = find_chromium()
+    if exe is not None:
+        with Browser(exe) as b:
+            b.open(out)
+            assert b.problems() == []
+            assert b.evaluate("Array.from(document.images).every(i => i.complete && i.naturalWidth > 100)")

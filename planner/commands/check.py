@@ -168,6 +168,8 @@ def register(app: typer.Typer) -> None:
         fmt: Annotated[str, typer.Option("--format", help="table or json")] = "table",
         out: Annotated[Path | None, typer.Option("--out", help="write here instead of stdout")] = None,
         plot: Annotated[Path | None, typer.Option("--plot", help="folder for PNG figures")] = None,
+        report: Annotated[Path | None, typer.Option("--report", help="also write a self-contained HTML "
+                                                    "report of the check to this file")] = None,
         progress: Annotated[bool | None, typer.Option("--progress/--no-progress",
                                                       help="progress bar on stderr (default: on a terminal)")]
         = None,
@@ -206,6 +208,11 @@ def register(app: typer.Typer) -> None:
             from planner.plots_check import write_check_plots
 
             write_check_plots(d, plot)
+        if report is not None:
+            from planner.report import render_check_report
+
+            write_text_atomic(report, render_check_report(d, title=f"Sampling check: {times_csv.name}",
+                                                          source=str(times_csv)))
         if out is None:
             sys.stdout.write(text)
         else:
