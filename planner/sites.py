@@ -7,12 +7,12 @@ One TOML file per site (schema in docs/formats.md). Loading validates every fiel
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from datetime import datetime
 from pathlib import Path
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
 import numpy as np
 
-from planner.errors import InputError
 from planner.timegrid import parse_utc
 from planner.tomlfile import Fields, read_toml
 
@@ -56,7 +56,7 @@ class Allocation:
 class Site:
     name: str
     latitude_deg: float
-    longitude_deg: float  # east positive
+    longitude_deg: float  # east positive, in [-180, 180)
     height_m: float = 0.0
     timezone: str = "UTC"
     min_alt_deg: float = 20.0
@@ -83,7 +83,8 @@ class Site:
         return ZoneInfo(self.timezone)
 
     def horizon_alt_deg(self, az_deg: np.ndarray) -> np.ndarray:
-        """Lowest usable altitude at each azimuth: the mask interpolated (periodic in azimuth), never below min_alt_deg."""
+        """Lowest usable altitude at each azimuth: the mask interpolated (periodic in azimuth), never below
+        min_alt_deg."""
         az = np.asarray(az_deg, dtype=float) % 360.0
         if not self.horizon:
             return np.full_like(az, self.min_alt_deg)
@@ -135,6 +136,42 @@ def _allocation(f: Fields) -> Allocation:
     return Allocation(hours_per_night=hours, blocks_utc=tuple(sorted(blocks)))
 
 
+def _horizon(f: Fields) -> tuple[tuple[float, float], ...]:
+    """The horizon mask as (az_deg, min_alt_deg) sorted by azimuth; 360 and 0 are the same azimuth."""
+    points: dict[float, float] = {}
+    for i, (az, alt) in enumerate(f.pairs("horizon") or []):
+        if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in (az, alt)):
+            raise f.error("horizon", f"point {i} must be [az_deg, min_alt_deg] numbers")
+        if not (0.0 <= az <= 360.0) or not (-5.0 <= alt <= 90.0):
+            raise f.error("horizon", f"point {i} [{az}, {alt}] is outside az [0, 360], alt [-5, 90]")
+        key = float(az) % 360.0
+        if key in points and points[key] != float(alt):
+            raise f.error("horizon", f"point {i}: azimuth {az} is given twice with different altitudes "
+                                     "(0 and 360 are the same azimuth)")
+        points[key] = float(alt)
+    return tuple(sorted(points.items()))
+
+
+#: Largest allowed gap between the time zone's UTC offset and the site's mean solar time, in hours.
+#: Nights run from local noon to local noon; a zone far from the sun's clock would cut nights in two.
+MAX_ZONE_SOLAR_GAP_H = 5.0
+
+
+def _check_timezone_fits(f: Fields, tz: str, longitude_deg: float) -> None:
+    """Reject a time zone whose local noon falls far from the Sun's noon (e.g. UTC left at the default)."""
+    zone = ZoneInfo(tz)
+    solar_h = longitude_deg / 15.0
+    for month in (1, 7):  # standard and daylight-saving offsets
+        offset_h = datetime(2030, month, 15, 12, tzinfo=zone).utcoffset().total_seconds() / 3600.0
+        gap_h = (offset_h - solar_h + 12.0) % 24.0 - 12.0  # the date line: +14 h and -10 h are close
+        if abs(gap_h) > MAX_ZONE_SOLAR_GAP_H:
+            raise f.error(
+                "timezone",
+                f"{tz} (UTC{offset_h:+g} h) is {abs(gap_h):.1f} h from the Sun's local time at longitude "
+                f"{longitude_deg:g}; give the site's IANA zone (nights run from local noon to local noon)",
+            )
+
+
 def load_site(path: str | Path) -> Site:
     """Read and validate one site file."""
     path = Path(path)
@@ -145,23 +182,21 @@ def load_site(path: str | Path) -> Site:
         ZoneInfo(tz)
     except (ZoneInfoNotFoundError, ValueError):
         raise f.error("timezone", f"{tz!r} is not an IANA time zone name such as America/Santiago") from None
-    horizon = []
-    for i, (az, alt) in enumerate(f.pairs("horizon") or []):
-        if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in (az, alt)):
-            raise f.error("horizon", f"point {i} must be [az_deg, min_alt_deg] numbers")
-        if not (0.0 <= az <= 360.0) or not (-5.0 <= alt <= 90.0):
-            raise f.error("horizon", f"point {i} [{az}, {alt}] is outside az [0, 360], alt [-5, 90]")
-        horizon.append((float(az), float(alt)))
-    horizon.sort()
+    horizon = _horizon(f)
     dec_range = f.float_list("dec_range_deg", length=2)
     if dec_range is not None and not (-90.0 <= dec_range[0] < dec_range[1] <= 90.0):
         raise f.error("dec_range_deg", f"{dec_range} must be [low, high] within [-90, 90]")
     inst = f.sub("instrument")
     alloc = f.sub("allocation")
+    # East positive, normalised to [-180, 180): 200 and -160 name the same meridian.
+    longitude_deg = f.float("longitude_deg", required=True, lo=-180.0, hi=360.0)
+    if longitude_deg >= 180.0:
+        longitude_deg -= 360.0
+    _check_timezone_fits(f, tz, longitude_deg)
     return Site(
         name=f.str("name", required=True),
         latitude_deg=f.float("latitude_deg", required=True, lo=-90.0, hi=90.0),
-        longitude_deg=f.float("longitude_deg", required=True, lo=-180.0, hi=360.0),
+        longitude_deg=longitude_deg,
         height_m=f.float("height_m", 0.0, lo=-500.0, hi=9000.0),
         timezone=tz,
         min_alt_deg=f.float("min_alt_deg", 20.0, lo=-5.0, hi=89.0),

@@ -1,0 +1,126 @@
+"""``phasewise windows``: when the target can be observed from each site, night by night, and why not."""
+
+from __future__ import annotations
+
+import json
+from datetime import date
+from pathlib import Path
+from typing import Annotated
+
+import numpy as np
+import pandas as pd
+import typer
+
+from planner.errors import InputError
+from planner.fileio import write_text_atomic
+from planner.timegrid import iso_utc, parse_duration_s
+from planner.windows import SUN_CAUTION
+
+FORMATS = ("table", "csv", "json")
+_TIME_COLUMNS = ("start_utc", "end_utc", "best_utc")
+
+_EDGE_WORD = {"twilight": "twilight", "noon": "noon", "horizon": "horizon", "hour_angle": "HA limit",
+              "dec_range": "dec limit", "moon": "Moon", "sun_elong": "Sun", "allocation": "allocation"}
+
+
+def _parse_date(text: str) -> date:
+    try:
+        return date.fromisoformat(text.strip())
+    except ValueError:
+        raise InputError("command line", "start", f"{text!r} is not a date such as 2034-03-16") from None
+
+
+def _plain(df: pd.DataFrame) -> pd.DataFrame:
+    """Times as ISO 8601 UTC strings to the second ('' for none); numbers rounded for reading."""
+    out = df.copy()
+    for c in _TIME_COLUMNS:
+        t = out[c].to_numpy(dtype="datetime64[ns]")
+        out[c] = ["" if np.isnat(x) else s for x, s in zip(t, iso_utc(t, seconds=True), strict=True)]
+    return out
+
+
+def render_csv(df: pd.DataFrame) -> str:
+    return _plain(df).to_csv(index=False, float_format="%.4f", lineterminator="\n")
+
+
+def render_json(df: pd.DataFrame) -> str:
+    rows = json.loads(_plain(df).to_json(orient="records", double_precision=6))
+    caution = SUN_CAUTION[0].upper() + SUN_CAUTION[1:] + "."
+    return json.dumps({"caution": caution, "windows": rows}, indent=1,
+                      ensure_ascii=False) + "\n"
+
+
+def _hhmm(iso_local: str) -> str:
+    return iso_local[11:16] if iso_local else ""
+
+
+def render_table(df: pd.DataFrame, sites) -> str:
+    """One block per site: local and UTC times, hours, the night's budget, best moment and a short note."""
+    lines = []
+    for s in sites:
+        rows = df[df["site"] == s.name]
+        alloc = ("all dark time" if s.allocation.unlimited else
+                 f"{s.allocation.hours_per_night:g} h per night" if s.allocation.hours_per_night is not None
+                 else f"{len(s.allocation.blocks_utc)} UTC block(s)")
+        offset = rows["start_local"].str[-6:].replace("", np.nan).dropna()
+        zone = f"{s.timezone} (UTC{offset.iloc[0]})" if len(offset) else s.timezone
+        lines += [f"{s.name}  lat {s.latitude_deg:+.3f}  lon {s.longitude_deg:+.3f}  {zone}",
+                  f"  night ends at {s.twilight} twilight (Sun {s.night_sun_alt_deg:g}°), altitude ≥ "
+                  f"{s.min_alt_deg:g}°{' with horizon mask' if s.horizon else ''}, allocation: {alloc}",
+                  f"  {'night':<10}  {'local':<11}  {'UTC':<11}  {'hours':>5}  {'budget':>6}  {'best':>5}  "
+                  f"{'alt':>4}  {'X':>4}  {'moon':>8}  note"]
+        flagged = False
+        for _, r in rows.iterrows():  # output rows, not epochs
+            if r["hours"] == 0:
+                lines.append(f"  {r['night']:<10}  {'-':<11}  {'-':<11}  {0:5.2f}  {'':>6}  {'':>5}  {'':>4}  "
+                             f"{'':>4}  {'':>8}  {r['reason']}")
+                flagged |= bool(r["caution"])
+                continue
+            utc = [iso_utc(np.array([r[c]], dtype="datetime64[ns]"))[0][11:16] for c in _TIME_COLUMNS]
+            moon = f"{r['moon_sep_deg']:3.0f}° {100 * r['moon_illum']:2.0f}%"
+            note = f"{_EDGE_WORD.get(r['start_limit'], r['start_limit'])} → {_EDGE_WORD.get(r['end_limit'], '')}"
+            if r["caution"]:
+                note += "  !"
+                flagged = True
+            lines.append(f"  {r['night']:<10}  {_hhmm(r['start_local'])}–{_hhmm(r['end_local'])}  "
+                         f"{utc[0]}–{utc[1]}  {r['hours']:5.2f}  {r['night_budget_h']:6.2f}  {utc[2]:>5}  "
+                         f"{r['max_alt_deg']:4.0f}  {r['min_airmass']:4.2f}  {moon:>8}  {note}")
+        if flagged:
+            lines.append("  ! opens or closes in twilight, or the Sun is within 10° of the site's elongation limit: "
+                         "keep clear of the Sun's side of the sky; " + SUN_CAUTION + ".")
+        lines.append("")
+    lines.append("hours: window length; budget: hours the allocation allows that night; best: UTC of highest "
+                 "altitude; X: airmass there; moon: separation and illuminated fraction there; note: what "
+                 "opens → closes each window.")
+    return "\n".join(lines) + "\n"
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("windows")
+    def windows(
+        target: Annotated[Path, typer.Option("--target", help="target file (TOML or MPC one-line orbit)")],
+        site: Annotated[list[Path], typer.Option("--site", help="site file; repeat for several sites")],
+        start: Annotated[str, typer.Option("--start", help="first night, by the local date it begins")],
+        nights: Annotated[int, typer.Option("--nights", min=1, max=366, help="number of nights")] = 7,
+        step: Annotated[str, typer.Option("--step", help="coarse grid step; edges are then refined")] = "5m",
+        fmt: Annotated[str, typer.Option("--format", help="table, csv or json")] = "table",
+        out: Annotated[Path | None, typer.Option("--out", help="write here (atomically), not to the screen")] = None,
+    ) -> None:
+        """Observable windows per site and night, with the reason when there is none."""
+        from planner.sites import load_site
+        from planner.targets import load_target
+        from planner.windows import observable_windows
+
+        if fmt not in FORMATS:
+            raise InputError("command line", "format", f"{fmt!r} is not one of {', '.join(FORMATS)}")
+        first = _parse_date(start)
+        step_s = parse_duration_s(step, field="step")
+        sites = [load_site(p) for p in site]
+        tgt = load_target(target)
+        df = observable_windows(tgt, sites, first, nights, step_s=step_s)
+        text = {"table": lambda: render_table(df, sites), "csv": lambda: render_csv(df),
+                "json": lambda: render_json(df)}[fmt]()
+        if out is None:
+            typer.echo(text, nl=False)
+        else:
+            write_text_atomic(out, text)
