@@ -42,8 +42,13 @@ def check_demo_folder(out_dir: Path) -> None:
         )
 
 
-def run_demo(out_dir: str | Path = DEFAULT_OUT, campaign_path: str | Path = DEMO_CAMPAIGN) -> DemoResult:
-    """Plan the demo campaign, write its plan folder and report into ``out_dir``; refresh an earlier demo."""
+def run_demo(
+    out_dir: str | Path = DEFAULT_OUT, campaign_path: str | Path = DEMO_CAMPAIGN, check_trials: int | None = None
+) -> DemoResult:
+    """Plan the demo campaign, write its plan folder and report into ``out_dir``; refresh an earlier demo.
+
+    ``check_trials``: injection–recovery trials per diagnostics run (default: the campaign's).
+    """
     from planner.campaign import load_campaign
     from planner.planfiles import write_plan_folder
     from planner.schedule import plan_campaign
@@ -58,7 +63,7 @@ def run_demo(out_dir: str | Path = DEFAULT_OUT, campaign_path: str | Path = DEMO
             "-",
             "demo campaign not found: run phasewise from its source checkout (pip install -e .)",
         )
-    result = plan_campaign(load_campaign(campaign_path))
+    result = plan_campaign(load_campaign(campaign_path), check_trials=check_trials)
     write_plan_folder(result, out, force=True)
     write_text_atomic(
         out / DEMO_MARKER, "Written by `phasewise demo`; a later `phasewise demo` replaces this folder.\n"
