@@ -13,6 +13,7 @@ from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
 import numpy as np
 
+from planner.photometry import FILTER_BANDS
 from planner.timegrid import parse_utc
 from planner.tomlfile import Fields, read_toml
 
@@ -116,7 +117,7 @@ def _instrument(f: Fields) -> Instrument:
         extinction_mag_per_airmass=f.float("extinction_mag_per_airmass", 0.15, lo=0.0, hi=2.0),
         readout_s=f.float("readout_s", 10.0, lo=0.0),
         overhead_s=f.float("overhead_s", 5.0, lo=0.0),
-        filter=f.str("filter", "R"),
+        filter=f.str("filter", "R", choices=FILTER_BANDS),
         nonsidereal_tracking=f.bool("nonsidereal_tracking", False),
     )
 

@@ -7,7 +7,6 @@ from pathlib import Path
 import pytest
 from hypothesis import settings
 
-
 from planner.skydata import no_iers_download
 
 ROOT = Path(__file__).resolve().parent.parent

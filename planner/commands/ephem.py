@@ -15,6 +15,7 @@ import typer
 from planner.ephemeris import MIN_SOLAR_ELONG_DEG, geometry, safety_warning
 from planner.errors import InputError
 from planner.fileio import write_text_atomic
+from planner.photometry import add_photometry
 from planner.sites import load_site
 from planner.skydata import utc_times
 from planner.targets import load_target
@@ -46,6 +47,16 @@ _SITE_TABLE_COLUMNS = [
     ("moon_sep_deg", "moon sep", "deg", "{:6.1f}"),
     ("moon_illum", "moon", "frac", "{:5.2f}"),
 ]
+# Photometry columns, for sites with an [instrument] (docs/formats.md "Photometry columns").
+_PHOT_TABLE_COLUMNS = [
+    ("sky_mag_arcsec2", "sky", "mag/\"2", "{:5.2f}"),
+    ("aperture_arcsec", "aper", "\"", "{:5.1f}"),
+    ("exposure_s", "exp", "s", "{:6.1f}"),
+    ("snr_pred", "S/N", "", "{:6.1f}"),
+    ("mag_err_pred", "sigma", "mag", "{:6.3f}"),
+    ("n_exposures_per_hour", "n/h", "", "{:4.0f}"),
+    ("afrho_cm", "Afrho", "cm", "{:7.1f}"),
+]
 
 
 def format_ra_hms(ra_deg: np.ndarray) -> list[str]:
@@ -75,6 +86,7 @@ def render_table(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
     blocks = []
     for name, frame in frames.items():
         cols = list(_TABLE_COLUMNS) + (list(_SITE_TABLE_COLUMNS) if "alt_deg" in frame else [])
+        cols += [c for c in _PHOT_TABLE_COLUMNS if c[0] in frame]
         headers = ["time_utc", "RA (h m s)", "Dec (d m s)"] + [h for _, h, _, _ in cols] + ["!"]
         units = ["", "", ""] + [u for _, _, u, _ in cols] + [""]
         body = [iso_utc(frame["time_utc"].to_numpy()), format_ra_hms(frame["ra_deg"]),
@@ -133,6 +145,7 @@ _Step = Annotated[str, typer.Option("--step", help="Grid step: 30s, 5m, 1h, 1d."
 _Format = Annotated[str, typer.Option("--format", help="table (for people), csv or json.")]
 _Out = Annotated[Path | None, typer.Option("--out", help="Write here (atomically), not to stdout.")]
 _MinElong = Annotated[float, typer.Option("--min-elong", help="Solar-elongation caution limit, deg.")]
+_Snr = Annotated[float, typer.Option("--snr", min=1.0, help="S/N goal per exposure (sites with an instrument).")]
 
 
 def register(app: typer.Typer) -> None:
@@ -147,6 +160,7 @@ def register(app: typer.Typer) -> None:
         fmt: _Format = "table",
         out: _Out = None,
         min_elong: _MinElong = MIN_SOLAR_ELONG_DEG,
+        snr: _Snr = 50.0,
     ) -> None:
         """Geometry table: RA/Dec, r, Delta, phase, elongation, motion, magnitude; alt/az per site."""
         if fmt not in FORMATS:
@@ -164,7 +178,8 @@ def register(app: typer.Typer) -> None:
         utc_times(np.array([t0, t1]), "command line", "start/stop")  # inside DE421's span?
         tgt = load_target(target, object_name)
         sites = [load_site(p) for p in (site or [])]
-        frames = geometry(tgt, time_grid(t0, t1, step_s), sites, min_solar_elong_deg=min_elong)
+        frames = add_photometry(geometry(tgt, time_grid(t0, t1, step_s), sites, min_solar_elong_deg=min_elong),
+                                sites, snr_target=snr)
         caution = safety_warning(frames)
         if fmt == "table":
             text = render_table(frames, caution)
