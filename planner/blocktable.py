@@ -1,0 +1,187 @@
+"""Visits → the observer's block table: times, pointing, tracking rates, altitude/airmass ranges,
+exposure plan and expected S/N; plus the mid-exposure times the diagnostics are run on.
+
+Geometry comes from ``planner.ephemeris.geometry`` sampled at every slot boundary inside each
+visit (one call per site, all its visits together); exposure and S/N from
+``planner.photometry.photometry_columns`` at mid-block.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from planner.planstate import Visit
+from planner.sites import Site
+from planner.slots import SlotGrid
+
+#: Columns of plan.csv / baseline.csv, in order (documented in docs/formats.md).
+BLOCK_COLUMNS = (
+    "site", "night", "start_utc", "end_utc", "start_local", "end_local", "hours", "setup_min", "science_start_utc",
+    "n_exposures", "exposure_s", "exposure_limited_by", "ra_deg", "dec_deg", "motion_arcsec_min", "motion_pa_deg",
+    "ra_rate_arcsec_min", "dec_rate_arcsec_min", "alt_min_deg", "alt_max_deg", "airmass_min", "airmass_max",
+    "moon_sep_deg", "moon_illum", "mag_pred", "snr_pred", "mag_err_pred", "solar_elong_deg", "sun_alt_max_deg",
+)
+#: Exposure used where a site has no instrument description (common practice for a first look).
+DEFAULT_EXPOSURE_S = 60.0
+DEFAULT_READOUT_S = 10.0
+
+
+def _empty() -> tuple[pd.DataFrame, pd.DataFrame]:
+    return (pd.DataFrame({c: [] for c in BLOCK_COLUMNS}),
+            pd.DataFrame({"time_utc": np.array([], dtype="datetime64[ns]"), "site": [], "mag_err": []}))
+
+
+def block_table(visits: list[Visit], grid: SlotGrid, target, sites: tuple[Site, ...] | list[Site],
+                snr_target: float, min_exposure_s: float = 30.0,
+                max_exposure_s: float = 300.0) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """One row per visit (BLOCK_COLUMNS), and the planned exposures (time_utc, site, mag_err)."""
+    from planner.ephemeris import geometry
+    from planner.nights import local_iso
+    from planner.photometry import exposures_per_block, photometry_columns
+
+    if not visits:
+        return _empty()
+    by_name = {s.name: s for s in sites}
+    rows, exposures = [], []
+    comet = getattr(target, "kind", "comet") == "comet"
+    setup_min = grid.setup_slots * grid.slot_s / 60.0
+    order = sorted(range(len(visits)), key=lambda i: (grid.slot_time(visits[i].start), visits[i].part))
+    site_of = [grid.parts[v.part].site for v in visits]
+    for name in dict.fromkeys(site_of):  # one geometry call per site (all its visits), not per epoch
+        site = by_name[name]
+        mine = [i for i in order if site_of[i] == name]
+        starts = np.array([visits[i].start for i in mine])
+        lengths = np.array([visits[i].length for i in mine])
+        # Slot boundaries of every visit (start … stop), then the mid-block instant.
+        counts = lengths + 1
+        offs = np.arange(counts.sum()) - np.repeat(np.cumsum(counts) - counts, counts)
+        sample_slots = np.repeat(starts, counts) + offs
+        t_samples = grid.slot_time(sample_slots)
+        sci0 = (starts + grid.setup_slots).astype(float)
+        mid_ns = ((sci0 + starts + lengths) / 2.0 * grid.slot_s * 1e9).astype(np.int64)
+        t_mid = grid.t_ref + mid_ns.astype("timedelta64[ns]")
+        geo = geometry(target, np.concatenate([t_samples, t_mid]), [site])[name]
+        samples = geo.iloc[: t_samples.size].reset_index(drop=True)
+        mid = geo.iloc[t_samples.size:].reset_index(drop=True)
+        which = np.repeat(np.arange(len(mine)), counts)
+        agg = samples.assign(_b=which).groupby("_b").agg(
+            alt_min_deg=("alt_deg", "min"), alt_max_deg=("alt_deg", "max"), airmass_min=("airmass", "min"),
+            airmass_max=("airmass", "max"), sun_alt_max_deg=("sun_alt_deg", "max"),
+            solar_elong_deg=("solar_elong_deg", "min"))
+        inst = site.instrument
+        science_s = (lengths - grid.setup_slots) * grid.slot_s
+        if inst is not None:
+            phot = photometry_columns(mid, inst, comet=comet, snr_target=snr_target, min_exposure_s=min_exposure_s,
+                                      max_exposure_s=max_exposure_s)
+            exp_s = phot["exposure_s"].to_numpy(dtype=float)
+            snr = phot["snr_pred"].to_numpy(dtype=float)
+            err = phot["mag_err_pred"].to_numpy(dtype=float)
+            limited = phot["exposure_limited_by"].astype(str).to_numpy()
+            readout = inst.readout_s
+        else:
+            exp_s = np.full(len(mine), np.nan)
+            snr = np.full(len(mine), np.nan)
+            err = np.full(len(mine), np.nan)
+            limited = np.full(len(mine), "no instrument", dtype=object)
+            readout = DEFAULT_READOUT_S
+        plan_exp = np.where(np.isfinite(exp_s), exp_s, DEFAULT_EXPOSURE_S)
+        n_exp = exposures_per_block(science_s, plan_exp, readout, 0.0)
+        t_start = grid.slot_time(starts)
+        t_stop = grid.slot_time(starts + lengths)
+        t_sci = grid.slot_time(starts + grid.setup_slots)
+        start_local = local_iso(t_start, site.timezone)
+        end_local = local_iso(t_stop, site.timezone)
+        for k, i in enumerate(mine):
+            v = visits[i]
+            m = mid.iloc[k]
+            rows.append(dict(
+                _order=order.index(i), site=name, night=grid.parts[v.part].night.isoformat(),
+                start_utc=t_start[k], end_utc=t_stop[k], start_local=start_local[k], end_local=end_local[k],
+                hours=v.length * grid.slot_s / 3600.0, setup_min=setup_min, science_start_utc=t_sci[k],
+                n_exposures=int(n_exp[k]), exposure_s=float(exp_s[k]) if np.isfinite(exp_s[k]) else np.nan,
+                exposure_limited_by=str(limited[k]),
+                ra_deg=float(m["ra_deg"]), dec_deg=float(m["dec_deg"]),
+                motion_arcsec_min=float(m["motion_arcsec_min"]), motion_pa_deg=float(m["motion_pa_deg"]),
+                ra_rate_arcsec_min=float(m["ra_rate_arcsec_min"]), dec_rate_arcsec_min=float(m["dec_rate_arcsec_min"]),
+                alt_min_deg=float(agg["alt_min_deg"].iloc[k]), alt_max_deg=float(agg["alt_max_deg"].iloc[k]),
+                airmass_min=float(agg["airmass_min"].iloc[k]), airmass_max=float(agg["airmass_max"].iloc[k]),
+                moon_sep_deg=float(m["moon_sep_deg"]), moon_illum=float(m["moon_illum"]),
+                mag_pred=float(m["mag_pred"]), snr_pred=float(snr[k]), mag_err_pred=float(err[k]),
+                solar_elong_deg=float(agg["solar_elong_deg"].iloc[k]),
+                sun_alt_max_deg=float(agg["sun_alt_max_deg"].iloc[k])))
+            n = int(n_exp[k])
+            if n > 0:
+                cycle_ns = np.int64(round((plan_exp[k] + readout) * 1e9))
+                half_ns = np.int64(round(plan_exp[k] * 0.5e9))
+                t_exp = t_sci[k] + (np.arange(n, dtype=np.int64) * cycle_ns + half_ns).astype("timedelta64[ns]")
+                exposures.append(pd.DataFrame({"time_utc": t_exp, "site": name, "mag_err": float(err[k])}))
+    table = pd.DataFrame(rows).sort_values("_order").drop(columns="_order").reset_index(drop=True)
+    table = table[list(BLOCK_COLUMNS)]
+    exp = pd.concat(exposures, ignore_index=True) if exposures else _empty()[1]
+    return table, exp.sort_values("time_utc", kind="stable").reset_index(drop=True)
+
+
+def binned_points(exposures: pd.DataFrame, t_ref: np.datetime64, bin_s: float) -> pd.DataFrame:
+    """Consecutive exposures of one site combined per ``bin_s`` slot: mean time, error / √n.
+
+    Light-curve points of a slowly rotating body are commonly stacks of consecutive frames
+    (common practice); the diagnostics run on these points, which keeps them fast without
+    changing the sampling pattern at the slot scale.
+    """
+    if exposures.empty:
+        return exposures.copy()
+    t = exposures["time_utc"].to_numpy("datetime64[ns]")
+    ns = (t - np.datetime64(t_ref, "ns")).astype(np.int64)
+    key = ns // np.int64(round(bin_s * 1e9))
+    df = pd.DataFrame({"site": exposures["site"].to_numpy(), "key": key, "ns": ns,
+                       "w": 1.0 / np.square(exposures["mag_err"].to_numpy(dtype=float))})
+    g = df.groupby(["site", "key"], sort=False)
+    mean_ns = g["ns"].mean().round().astype(np.int64)
+    w = g["w"].sum()
+    out = pd.DataFrame({"time_utc": np.datetime64(t_ref, "ns") + mean_ns.to_numpy().astype("timedelta64[ns]"),
+                        "site": [s for s, _ in mean_ns.index], "mag_err": 1.0 / np.sqrt(w.to_numpy()),
+                        "n_frames": g.size().to_numpy()})
+    return out.sort_values("time_utc", kind="stable").reset_index(drop=True)
+
+
+def part_weights(grid: SlotGrid, windows: pd.DataFrame, target, sites: tuple[Site, ...] | list[Site],
+                 snr_target: float, min_exposure_s: float = 30.0, max_exposure_s: float = 300.0) -> np.ndarray:
+    """Relative weight 1/σ² of one science slot at each site-night (mean 1), from the predicted
+    per-exposure error at the window's highest-altitude time times the frames one slot holds.
+
+    Feeds the weighted spectral window of the objective so that it matches the ``check`` diagnostics
+    (which weight by 1/σ²). Site-nights without a prediction get the median weight.
+    """
+    from planner.ephemeris import geometry
+    from planner.photometry import photometry_columns
+
+    n = len(grid.parts)
+    if n == 0:
+        return np.ones(0)
+    by_name = {s.name: s for s in sites}
+    w = windows[windows["best_utc"].notna()].copy()
+    w["_night"] = pd.to_datetime(w["night"]).dt.date
+    best = {}
+    for (site, night), rows in w.groupby(["site", "_night"]):
+        best[(site, night)] = np.datetime64(rows.loc[rows["max_alt_deg"].idxmax(), "best_utc"], "ns")
+    out = np.full(n, np.nan)
+    comet = getattr(target, "kind", "comet") == "comet"
+    for name in dict.fromkeys(p.site for p in grid.parts):  # one geometry call per site
+        site = by_name[name]
+        idx = [i for i, p in enumerate(grid.parts) if p.site == name and (p.site, p.night) in best]
+        if not idx or site.instrument is None:
+            continue
+        times = np.array([best[(grid.parts[i].site, grid.parts[i].night)] for i in idx], dtype="datetime64[ns]")
+        geo = geometry(target, times, [site])[name]
+        phot = photometry_columns(geo, site.instrument, comet=comet, snr_target=snr_target,
+                                  min_exposure_s=min_exposure_s, max_exposure_s=max_exposure_s)
+        err = phot["mag_err_pred"].to_numpy(dtype=float)
+        frames = np.maximum(np.floor(grid.slot_s / (phot["exposure_s"].to_numpy(dtype=float)
+                                                     + site.instrument.readout_s)), 1.0)
+        out[idx] = frames / np.square(err)
+    finite = np.isfinite(out) & (out > 0)
+    if not finite.any():
+        return np.ones(n)
+    out[~finite] = np.median(out[finite])
+    return out / out.mean()
