@@ -130,7 +130,10 @@ def load_plan_folder(plan_dir: str | Path) -> PlanFolder:
     if "plan" not in diagnostics or not isinstance(diagnostics["plan"], dict):
         raise InputError(str(d / "diagnostics.json"), "plan", "missing: expected the check result of the plan")
     campaign = _read_toml(d / "campaign.toml")
-    target = _read_toml(d / "target.toml")
+    try:
+        target = _read_toml(d / "target.toml")
+    except InputError:  # only the target's name is wanted; a target given as MPC lines has no TOML copy
+        target = {}
     target_name = str(target.get("name") or Path(str(campaign.get("target", ""))).stem or "")
 
     def optional(name: str, required: Sequence[str]) -> pd.DataFrame | None:
