@@ -1,6 +1,6 @@
 """Regenerate the README's figure from the demo campaign's report.
 
-    python scripts/readme_figure.py [PLAN_DIR] [--figure fig-coverage] [--out docs/demo-coverage.png]
+    python scripts/readme_figure.py [PLAN_DIR] [--figure fig-window] [--out docs/demo-spectral-window.png]
 
 Without PLAN_DIR it runs `phasewise demo` into a temporary folder first. The PNG is cut out of the
 rendered report.html itself, so the README shows exactly what the report shows.
@@ -29,8 +29,8 @@ def figure_png(report_html: str, figure_id: str) -> bytes:
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("plan_dir", nargs="?", type=Path)
-    ap.add_argument("--figure", default="fig-coverage")
-    ap.add_argument("--out", type=Path, default=ROOT / "docs" / "demo-coverage.png")
+    ap.add_argument("--figure", default="fig-window")
+    ap.add_argument("--out", type=Path, default=ROOT / "docs" / "demo-spectral-window.png")
     args = ap.parse_args()
     sys.path.insert(0, str(ROOT))
     from planner.fileio import write_bytes_atomic
@@ -40,7 +40,12 @@ def main() -> None:
         plan_dir = args.plan_dir
         if plan_dir is None:
             plan_dir = Path(tmp) / "demo"
-            subprocess.run([sys.executable, "-m", "planner", "demo", "--out", str(plan_dir)], cwd=ROOT, check=True)
+            subprocess.run(
+                [sys.executable, "-m", "planner", "demo", "--out", str(plan_dir)],
+                cwd=ROOT,
+                check=True,
+                stdout=subprocess.DEVNULL,
+            )
         png = figure_png(render_report(plan_dir), args.figure)
     write_bytes_atomic(args.out, png)
     print(f"{args.out} ({len(png)} bytes)")
