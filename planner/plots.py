@@ -400,7 +400,8 @@ def coverage_figure(series: Sequence[Series]) -> Figure:
             axes[-1].plot(_floats(s.check["coverage"])[order], periods, **kw)
     axes[0].set_ylabel("trial period (h)")
     ax = axes[-1]
-    ax.set_xlim(0, 1.02)
+    shown = [np.nanmin(line.get_xdata()) for line in ax.lines if np.isfinite(line.get_xdata()).any()]
+    ax.set_xlim(max(0.0, min(shown, default=0.0) - 0.05), 1.01)  # zoom on where coverage falls short
     ax.set_xlabel("phase covered (fraction)")
     ax.grid(True, color="#dddddd", lw=0.6)
     ax.legend(loc="lower left", fontsize=8)
