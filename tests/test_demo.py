@@ -74,3 +74,17 @@ def test_demo_report_in_headless_chromium(demo_dir):
         ok = b.evaluate("Array.from(document.images).every(i => i.complete && i.naturalWidth > 100)")
         problems = b.problems()
     assert ok and problems == []
+
+
+def test_demo_command_refuses_a_foreign_folder_before_any_work(tmp_path, capsys):
+    from planner.cli import main
+
+    foreign = tmp_path / "notes"
+    foreign.mkdir()
+    (foreign / "log.txt").write_text("keep me")
+    with pytest.raises(SystemExit) as done:
+        main(["demo", "--out", str(foreign)])
+    assert done.value.code == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"error: {foreign}: --out: ") and err.count("\n") == 1
+    assert [p.name for p in foreign.iterdir()] == ["log.txt"]
