@@ -312,6 +312,13 @@ def _summary_section(pf: PlanFolder) -> str:
         )
     if c.get("notes"):
         rows.append(("Notes", html.escape(str(c["notes"]))))
+    replan = diag.get("replan")
+    if isinstance(replan, dict) and replan.get("log"):
+        lost = ", ".join(" ".join(str(x) for x in pair) for pair in replan.get("lost_site_nights") or []) or "none"
+        rows.append(("Re-planned from", f"{html.escape(str(replan['log']))}: "
+                     f"{_json_num(diag, 'replan.n_done_times')} times already observed, planning from "
+                     f"{html.escape(str(replan.get('not_before_utc') or '—'))} UTC; lost site-nights: "
+                     f"{html.escape(lost)}"))
     out = ['<section id="summary"><h2>Campaign summary</h2>', _table(["", ""], rows, "kv")]
 
     # Totals per site: sums of plan.csv / baseline.csv cells.
