@@ -59,10 +59,7 @@ class Series:
     marker: str = "o"
     filled: bool = True
     check: dict = field(default_factory=dict)
-    #: Observing intervals, UTC, as datetime64[ns] pairs (blocks; for a log, each exposure).
-    start_utc: np.ndarray = field(default_factory=lambda: np.array([], dtype="datetime64[ns]"))
-    end_utc: np.ndarray = field(default_factory=lambda: np.array([], dtype="datetime64[ns]"))
-    #: Individual exposure mid-times, UTC (for the spectral window).
+    #: Observation times, UTC, used only when the check does not list its own (``input.times_utc``).
     times_utc: np.ndarray = field(default_factory=lambda: np.array([], dtype="datetime64[ns]"))
 
     def line_kw(self) -> dict:

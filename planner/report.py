@@ -243,23 +243,6 @@ def _table(header: Sequence[str], rows: Sequence[Sequence[str]], cls: str = "") 
     return f'<table class="{cls}"><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>'
 
 
-def _series_from_blocks(df: pd.DataFrame | None, make, check: dict) -> plots.Series:
-    """A schedule's intervals and exposure mid-times (evenly spread over each block) for the figures."""
-    if df is None or df.empty:
-        return make(check=check)
-    start, end = _utc(df["start_utc"]), _utc(df["end_utc"])
-    n = np.array(
-        [
-            max(int(_float(x)) if not math.isnan(_float(x)) else 1, 1)
-            for x in df.get("n_exposures", pd.Series(["1"] * len(df)))
-        ]
-    )
-    block = np.repeat(np.arange(len(df)), n)
-    k = np.concatenate([np.arange(m) for m in n])
-    times = start[block] + ((end - start)[block] * ((k + 0.5) / n[block])).astype("timedelta64[ns]")
-    return make(check=check, start_utc=start, end_utc=end, times_utc=times)
-
-
 # ---------------------------------------------------------------------------------------- sections
 
 CSS = """
@@ -881,10 +864,10 @@ def render_report(plan_dir: str | Path) -> str:
     """The campaign report of a plan folder, as one self-contained HTML page."""
     pf = load_plan_folder(plan_dir)
     diag = pf.diagnostics
-    series = [_series_from_blocks(pf.plan, plots.plan_series, diag["plan"])]
+    series = [plots.plan_series(check=diag["plan"])]
     keys = ["plan"]
     if pf.baseline is not None and isinstance(diag.get("baseline"), dict):
-        series.append(_series_from_blocks(pf.baseline, plots.baseline_series, diag["baseline"]))
+        series.append(plots.baseline_series(check=diag["baseline"]))
         keys.append("baseline")
     rot = pf.campaign.get("rotation", {}) if isinstance(pf.campaign.get("rotation"), dict) else {}
     body = "\n".join(
