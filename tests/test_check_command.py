@@ -148,4 +148,5 @@ def test_site_instruments_set_the_noise_where_the_log_is_silent(capsys, tmp_path
     assert d["input"]["mag_err_median"] == pytest.approx(want, rel=1e-9)
     assert 0.001 < model.max() < 0.1  # a 12th-magnitude comet on a 0.6 m telescope: millimag to centimag
     code, _, err = _call(capsys, log, "--site", site_file)
-    assert code == 2 and err.strip() == "error: command line: --site: needs --target: the noise model needs its brightness"
+    assert code == 2
+    assert err.strip() == "error: command line: --site: needs --target: the noise model needs its brightness"
