@@ -37,6 +37,7 @@ import numpy as np
 import pandas as pd
 
 from planner.brightness import LAW_HG, LAW_NUCLEAR, LAW_TOTAL
+from planner.errors import InputError
 
 if TYPE_CHECKING:  # typing only: sites.py imports FILTER_BANDS from here
     from planner.sites import Instrument, Site
@@ -731,3 +732,37 @@ def mag_err_for_times(
     if fallback_mag_err is not None:
         out = np.where(np.isfinite(out), out, float(fallback_mag_err))
     return out
+
+
+def log_mag_err(
+    target: Target | None,
+    times_utc: np.ndarray,
+    site_names: Sequence[str] | None,
+    sites: Sequence[Site],
+    *,
+    logged_mag_err: np.ndarray | None,
+    exposure_s: np.ndarray | None,
+    fallback_mag_err: float,
+    **kwargs: Any,
+) -> tuple[np.ndarray, dict[str, int]]:
+    """Photometric σ (mag) of each logged point and where each came from.
+
+    Priority: the log's own ``mag_err``; else the model of the site's instrument (needs the target
+    and an instrumented site, :func:`mag_err_for_times`); else ``fallback_mag_err``. Returns the
+    σ array and the counts ``{"log": n, "model": n, "fallback": n}``.
+    """
+    times = np.asarray(times_utc, dtype="datetime64[ns]")
+    err = np.full(times.shape, np.nan)
+    if logged_mag_err is not None:
+        err = np.asarray(logged_mag_err, dtype=float).copy()
+    from_log = np.isfinite(err)
+    model = np.full(times.shape, np.nan)
+    if target is not None and sites and not from_log.all():
+        if site_names is None and len(sites) > 1:
+            raise InputError("command line", "--site", "the log has no site column, so give exactly one --site")
+        model = mag_err_for_times(target, times, site_names, sites, exposure_s=exposure_s, **kwargs)
+    from_model = ~from_log & np.isfinite(model)
+    err = np.where(from_log, err, np.where(from_model, model, float(fallback_mag_err)))
+    counts = {"log": int(from_log.sum()), "model": int(from_model.sum()),
+              "fallback": int((~from_log & ~from_model).sum())}
+    return err, counts

@@ -19,7 +19,7 @@ from planner.schedule import PlanResult
 
 #: Files of a plan folder (the report helper reads exactly these names).
 PLAN_FILES = ("plan.csv", "plan.json", "baseline.csv", "diagnostics.json", "windows.csv", "geometry.csv",
-              "nights.csv", "campaign.toml", "sheets/")
+              "nights.csv", "campaign.toml", "target.toml", "sheets/", "report.html")
 SUN_CAUTION = ("Pointing near the Sun can destroy equipment and blind people: follow the observatory's own "
                "rules and licensed practice, which always prevail over this plan.")
 #: Units of the printed night-by-night table (under it).
@@ -285,8 +285,13 @@ def _write_folder(result: PlanResult, folder: Path) -> None:
     table_for_files(result.geometry).to_csv(folder / "geometry.csv", index=False, float_format="%.6g")
     result.nights.to_csv(folder / "nights.csv", index=False, float_format="%.4g")
     shutil.copyfile(result.campaign.path, folder / "campaign.toml")
+    if result.campaign.target_path.suffix.lower() == ".toml":  # the report takes the target's name from it
+        shutil.copyfile(result.campaign.target_path, folder / "target.toml")
     for site in result.campaign.sites:
         (folder / "sheets" / f"{slug(site.name)}.txt").write_text(site_sheet(result, site))
+    from planner.report import write_report
+
+    write_report(folder)  # last: rendered from the files above alone, inside the not-yet-renamed folder
 
 
 def write_plan_folder(result: PlanResult, out: str | Path, force: bool = False) -> Path:

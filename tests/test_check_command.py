@@ -121,3 +121,32 @@ def test_target_adds_geometric_trend_and_synodic_drift(root, tmp_path):
 def test_missing_target_file_exit_2(capsys, single_log, tmp_path):
     code, _, err = _call(capsys, single_log, "--target", tmp_path / "nope.toml", "--trials", "0")
     assert code == 2 and err.startswith("error: ") and err.count("\n") == 1
+
+
+def test_site_instruments_set_the_noise_where_the_log_is_silent(capsys, tmp_path, root):
+    # The log's own σ wins; elsewhere the site's CCD model (planner.photometry, Howell 2006 CCD equation)
+    # gives it; only points without a prediction (target down, Sun up) fall back to --mag-err.
+    from planner.photometry import mag_err_for_times
+    from planner.sites import load_site
+    from planner.targets import load_target
+
+    target = root / "demo_targets/c2034-b3-quillfeather.toml"
+    site_file = root / "sites/karoo-ridge.toml"
+    log = tmp_path / "karoo.csv"
+    times = [f"2034-03-17T{h:02d}:{m:02d}:00Z" for h in (19, 20, 21, 22) for m in (0, 20, 40)]
+    rows = [f"{t},Karoo Ridge,{'0.005' if i < 3 else ''}" for i, t in enumerate(times)]
+    rows.append("2034-03-17T12:00:00Z,Karoo Ridge,")  # local 14:00: Sun up, no prediction
+    log.write_text("time_utc,site,mag_err\n" + "\n".join(rows) + "\n")
+    code, out, err = _call(capsys, log, "--target", target, "--site", site_file, "--trials", "0",
+                           "--mag-err", "0.3", "--format", "json")
+    assert code == 0, err
+    d = json.loads(out)
+    assert d["input"]["mag_err_sources"] == {"log": 3, "model": 9, "fallback": 1}
+    model = mag_err_for_times(load_target(target), np.array(times[3:], dtype="datetime64[ns]"),
+                              ["Karoo Ridge"] * 9, [load_site(site_file)])
+    want = np.median(np.concatenate([[0.005] * 3, model, [0.3]]))
+    assert d["input"]["mag_err_median"] == pytest.approx(want, rel=1e-9)
+    assert 0.001 < model.max() < 0.1  # a 12th-magnitude comet on a 0.6 m telescope: millimag to centimag
+    code, _, err = _call(capsys, log, "--site", site_file)
+    assert code == 2
+    assert err.strip() == "error: command line: --site: needs --target: the noise model needs its brightness"

@@ -62,7 +62,7 @@ def test_demo_plan_folder_has_the_agreed_files(demo, tmp_path):
     out = write_plan_folder(r, tmp_path / "plan")
     names = sorted(p.name for p in out.iterdir())
     assert names == sorted(["plan.csv", "plan.json", "baseline.csv", "diagnostics.json", "windows.csv",
-                            "geometry.csv", "nights.csv", "campaign.toml", "sheets"])
+                            "geometry.csv", "nights.csv", "campaign.toml", "target.toml", "sheets", "report.html"])
     plan = pd.read_csv(out / "plan.csv")
     for col in ("site", "night", "start_utc", "end_utc", "start_local", "end_local", "n_exposures", "exposure_s",
                 "ra_deg", "dec_deg", "motion_arcsec_min", "motion_pa_deg", "alt_min_deg", "alt_max_deg",

@@ -264,6 +264,16 @@ def test_command_table_csv_json_and_atomic_out(root, tmp_path):
     df = pd.read_csv(out)
     assert list(df.columns)[:7] == ["site", "night", "start_utc", "end_utc", "start_local", "end_local", "hours"]
     assert len(df) == 4 and df["start_utc"].str.endswith("Z").all()
+    # Both sites have an instrument, so each window carries its exposure plan: whole exposures of exposure_s
+    # plus readout that fit the night's budget after one block overhead (planner/sites.py Instrument).
+    from planner.sites import load_site
+
+    for _, w in df.iterrows():
+        inst = load_site(root / ("sites/kahili-summit.toml" if w["site"] == "Kahili Summit"
+                                 else "sites/salmon-gum.toml")).instrument
+        usable_s = min(w["hours"], w["night_budget_h"]) * 3600.0 - inst.overhead_s
+        assert w["n_exposures_window"] == int(usable_s // (w["exposure_s"] + inst.readout_s))
+        assert w["exposure_s"] <= w["trail_limit_s"] + 1e-6 and w["snr_pred"] > 0
     doc = json.loads(_cli(root, *base, "--format", "json").stdout)
     assert "blind" in doc["caution"] and len(doc["windows"]) == 4
     # A bad option leaves the earlier file untouched and says one line.

@@ -76,6 +76,11 @@ def render_table(d: dict) -> str:
     sites = ", ".join(f"{k} {v}" for k, v in inp["sites"].items()) or "not given"
     lines.append(f"{inp['n_times']} times, {inp['first_utc']} to {inp['last_utc']} "
                  f"(span {inp['baseline_h']:.1f} h); sites: {sites}")
+    src = inp.get("mag_err_sources")
+    if src and inp.get("mag_err_median") is not None:
+        parts = [f"{src[k]} {w}" for k, w in (("log", "from the log"), ("model", "modelled from site instruments"),
+                                              ("fallback", "from --mag-err")) if src.get(k)]
+        lines.append(f"photometric σ per point: median {inp['mag_err_median']:.4f} mag ({', '.join(parts)})")
     shape = "double-peaked (rotation = 2 × photometric period)" if s["double_peaked"] else "single-peaked"
     lines.append(f"rotation periods {s['min_period_h']:g}–{s['max_period_h']:g} h, {len(d['periods_h'])} trial "
                  f"periods, {s['phase_bins']} phase bins; light curve {shape}, amplitude "
@@ -156,6 +161,8 @@ def register(app: typer.Typer) -> None:
         max_period: Annotated[str, typer.Option("--max-period", help="longest rotation period (30h, 2d)")] = "30h",
         target: Annotated[Path | None, typer.Option("--target", help="target file: adds the geometric trend "
                                                     "and the synodic–sidereal drift")] = None,
+        site: Annotated[list[Path] | None, typer.Option("--site", help="site file (repeatable; with --target): "
+                                                        "σ per point from its instrument")] = None,
         trials: Annotated[int, typer.Option("--trials", min=0, help="injected light curves (0: none)")] = 200,
         seed: Annotated[int, typer.Option("--seed", help="random seed of the injections")] = 0,
         mag_err: Annotated[float, typer.Option("--mag-err", min=1e-6, help="σ (mag) where the log gives none")]
@@ -169,6 +176,8 @@ def register(app: typer.Typer) -> None:
         fmt: Annotated[str, typer.Option("--format", help="table or json")] = "table",
         out: Annotated[Path | None, typer.Option("--out", help="write here instead of stdout")] = None,
         plot: Annotated[Path | None, typer.Option("--plot", help="folder for PNG figures")] = None,
+        report: Annotated[Path | None, typer.Option("--report", help="also write a self-contained HTML "
+                                                    "report of the check to this file")] = None,
         progress: Annotated[bool | None, typer.Option("--progress/--no-progress",
                                                       help="progress bar on stderr (default: on a terminal)")]
         = None,
@@ -191,11 +200,22 @@ def register(app: typer.Typer) -> None:
             from planner.targets import load_target
 
             tgt = load_target(target)
+        sites = []
+        if site:
+            from planner.sites import load_site
+
+            if tgt is None:
+                raise InputError("command line", "--site", "needs --target: the noise model needs its brightness")
+            sites = [load_site(p) for p in site]
+        from planner.photometry import log_mag_err
+
+        err, err_sources = log_mag_err(tgt, log.times_utc, log.site, sites, logged_mag_err=log.mag_err,
+                                       exposure_s=log.exposure_s, fallback_mag_err=mag_err)
         show = sys.stderr.isatty() if progress is None else progress
         bar = _Progress("injection–recovery") if show and trials > 0 else None
         try:
             result = check_times(log.times_utc, min_period_h=p_min, max_period_h=p_max,
-                                 mag_err=log.mag_err_or(mag_err), sites=log.site, exposure_s=log.exposure_s,
+                                 mag_err=err, sites=log.site, exposure_s=log.exposure_s,
                                  target=tgt,
                                  trials=trials, seed=seed, amplitude_range_mag=_amplitudes(amplitude),
                                  double_peaked=not single_peaked, extra_fading_mag_per_day=extra_fading,
@@ -206,11 +226,17 @@ def register(app: typer.Typer) -> None:
         d = result.to_dict()
         if log.lost:
             d["notes"].append(f"the log's {len(log.lost)} lost site-night row(s) were skipped (no times to check)")
+        d["input"]["mag_err_sources"] = err_sources
         text = json.dumps(d, indent=1, allow_nan=False) + "\n" if fmt == "json" else render_table(d)
         if plot is not None:
             from planner.plots_check import write_check_plots
 
             write_check_plots(d, plot)
+        if report is not None:
+            from planner.report import render_check_report
+
+            write_text_atomic(report, render_check_report(d, title=f"Sampling check: {times_csv.name}",
+                                                          source=str(times_csv)))
         if out is None:
             sys.stdout.write(text)
         else:

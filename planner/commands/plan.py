@@ -63,4 +63,4 @@ def register(app: typer.Typer) -> None:
             sys.stdout.write(safety_text(result))
             sys.stdout.write("\n" + comparison_text(result))
             if out is not None:
-                sys.stdout.write(f"\nplan folder: {out}\n")
+                sys.stdout.write(f"\nplan folder: {out}\nreport:      {out / 'report.html'}\n")

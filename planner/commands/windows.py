@@ -54,6 +54,19 @@ def _hhmm(iso_local: str) -> str:
     return iso_local[11:16] if iso_local else ""
 
 
+def _exposures(r: pd.Series) -> str:
+    """``n × t s`` for the window's allowed hours, or blank where the site has no instrument."""
+    n, t = r.get("n_exposures_window"), r.get("exposure_s")
+    if n is None or t is None or pd.isna(n) or pd.isna(t):
+        return ""
+    return f"{int(n)}×{t:.0f}s"
+
+
+def _snr(r: pd.Series) -> str:
+    v = r.get("snr_pred")
+    return "" if v is None or pd.isna(v) else f"{v:.0f}"
+
+
 def render_table(df: pd.DataFrame, sites) -> str:
     """One block per site: local and UTC times, hours, the night's budget, best moment and a short note."""
     lines = []
@@ -68,12 +81,12 @@ def render_table(df: pd.DataFrame, sites) -> str:
                   f"  night ends at {s.twilight} twilight (Sun {s.night_sun_alt_deg:g}°), altitude ≥ "
                   f"{s.min_alt_deg:g}°{' with horizon mask' if s.horizon else ''}, allocation: {alloc}",
                   f"  {'night':<10}  {'local':<11}  {'UTC':<11}  {'hours':>5}  {'budget':>6}  {'best':>5}  "
-                  f"{'alt':>4}  {'X':>4}  {'moon':>8}  note"]
+                  f"{'alt':>4}  {'X':>4}  {'moon':>8}  {'mag':>5}  {'exposures':>11}  {'S/N':>4}  note"]
         flagged = False
         for _, r in rows.iterrows():  # output rows, not epochs
             if r["hours"] == 0:
                 lines.append(f"  {r['night']:<10}  {'-':<11}  {'-':<11}  {0:5.2f}  {'':>6}  {'':>5}  {'':>4}  "
-                             f"{'':>4}  {'':>8}  {r['reason']}")
+                             f"{'':>4}  {'':>8}  {'':>5}  {'':>11}  {'':>4}  {r['reason']}")
                 flagged |= bool(r["caution"])
                 continue
             utc = [iso_utc(np.array([r[c]], dtype="datetime64[ns]"))[0][11:16] for c in _TIME_COLUMNS]
@@ -84,14 +97,17 @@ def render_table(df: pd.DataFrame, sites) -> str:
                 flagged = True
             lines.append(f"  {r['night']:<10}  {_hhmm(r['start_local'])}–{_hhmm(r['end_local'])}  "
                          f"{utc[0]}–{utc[1]}  {r['hours']:5.2f}  {r['night_budget_h']:6.2f}  {utc[2]:>5}  "
-                         f"{r['max_alt_deg']:4.0f}  {r['min_airmass']:4.2f}  {moon:>8}  {note}")
+                         f"{r['max_alt_deg']:4.0f}  {r['min_airmass']:4.2f}  {moon:>8}  {r['mag_pred']:5.1f}  "
+                         f"{_exposures(r):>11}  {_snr(r):>4}  {note}")
         if flagged:
             lines.append("  ! opens or closes in twilight, or the Sun is within 10° of the site's elongation limit: "
                          "keep clear of the Sun's side of the sky; " + SUN_CAUTION + ".")
         lines.append("")
     lines.append("hours: window length; budget: hours the allocation allows that night; best: UTC of highest "
-                 "altitude; X: airmass there; moon: separation and illuminated fraction there; note: what "
-                 "opens → closes each window.")
+                 "altitude; X: airmass there; moon: separation and illuminated fraction there; mag: predicted "
+                 "magnitude; exposures: how many of what length fit the budget (sites with an instrument, "
+                 "exposure set by the S/N goal or the trailing limit); S/N: per exposure; note: what opens → "
+                 "closes each window.")
     return "\n".join(lines) + "\n"
 
 
@@ -105,8 +121,13 @@ def register(app: typer.Typer) -> None:
         step: Annotated[str, typer.Option("--step", help="coarse grid step; edges are then refined")] = "5m",
         fmt: Annotated[str, typer.Option("--format", help="table, csv or json")] = "table",
         out: Annotated[Path | None, typer.Option("--out", help="write here (atomically), not to the screen")] = None,
+        snr: Annotated[float, typer.Option("--snr", min=1.0,
+                                           help="S/N goal per exposure (sites with an instrument)")] = 50.0,
     ) -> None:
-        """Observable windows per site and night, with the reason when there is none."""
+        """Observable windows per site and night, with the reason when there is none.
+
+        Sites with an [instrument] also get the exposure plan at each window's best moment."""
+        from planner.photometry import window_photometry
         from planner.sites import load_site
         from planner.targets import load_target
         from planner.windows import observable_windows
@@ -118,6 +139,7 @@ def register(app: typer.Typer) -> None:
         sites = [load_site(p) for p in site]
         tgt = load_target(target)
         df = observable_windows(tgt, sites, first, nights, step_s=step_s)
+        df = df.join(window_photometry(df, tgt, sites, snr_target=snr))
         text = {"table": lambda: render_table(df, sites), "csv": lambda: render_csv(df),
                 "json": lambda: render_json(df)}[fmt]()
         if out is None:

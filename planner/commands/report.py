@@ -1,0 +1,24 @@
+"""``phasewise report DIR``: re-render the HTML report of an existing plan folder."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from planner.report import write_report
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("report")
+    def report(
+        plan_dir: Annotated[Path, typer.Argument(help="Plan folder written by `phasewise plan --out DIR`.")],
+    ) -> None:
+        """Re-render report.html in a plan folder from its files (plan.csv, diagnostics.json, ...).
+
+        The report is one self-contained HTML page (figures embedded, nothing fetched from the network):
+        open it from disk or send it on.
+        """
+        path = write_report(plan_dir)
+        typer.echo(f"report: {path}")
