@@ -76,6 +76,7 @@ class CheckResult:
     window_freq_per_day: np.ndarray
     window_height: np.ndarray
     window_peaks: list[dict]
+    highest_alias: dict | None
     nyquist_freq_per_day: float
     aliases: list[dict]
     bands: list[dict]
@@ -122,6 +123,7 @@ class CheckResult:
             "commensurate": self.commensurate,
             "window": {"freq_per_day": self.window_freq_per_day, "height": self.window_height},
             "window_peaks": self.window_peaks,
+            "highest_alias": self.highest_alias,
             "nyquist_freq_per_day": self.nyquist_freq_per_day,
             "aliases": self.aliases,
             "bands": self.bands,
@@ -349,6 +351,14 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
     peaks = [{"freq_per_day": float(f), "period_h": 24.0 / float(f), "height": float(h)}
              for f, h in zip(pk_f, pk_h, strict=True)]
     nyq = nyquist_freq_per_day(t)
+    # Below 2/T a peak is a sidelobe of the central lobe (for an unbroken span of length T the first
+    # lies near 1.43/T at height 0.22, the sinc sidelobe): every campaign of that span has it and no
+    # schedule removes it. The alias that sampling decides is the strongest peak beyond it.
+    span_days = baseline_h / 24.0
+    alias_floor = 2.0 / span_days if span_days > 0 else np.inf
+    beyond = [p for p in peaks if p["freq_per_day"] >= alias_floor]
+    highest_alias = (dict(max(beyond, key=lambda p: p["height"]), min_freq_per_day=alias_floor)
+                     if beyond else None)
 
     # candidate periods: log-spaced across the range plus the 24/n-hour family, for aliases
     # and sensitivities
@@ -481,6 +491,7 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
     return CheckResult(settings=s, times_utc=times, times_jd=t, sites=site_arr, mag_err=err,
                        periods_h=periods, coverage=cov, largest_phase_gap=gap, worst_periods=worst,
                        commensurate=commensurate, window_freq_per_day=wf, window_height=wh,
-                       window_peaks=peaks, nyquist_freq_per_day=nyq, aliases=aliases, bands=bands,
+                       window_peaks=peaks, highest_alias=highest_alias,
+                       nyquist_freq_per_day=nyq, aliases=aliases, bands=bands,
                        recovery=rec_list, recovery_trials=rec_trials, trend=trend,
                        period_change=period_change, synodic=synodic, notes=notes)

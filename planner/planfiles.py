@@ -147,17 +147,20 @@ def comparison_text(result: PlanResult) -> str:
     obj = result.objective
     rows = [
         ("worst-period phase coverage (higher is better)", c["worst_period_coverage"], ".2f"),
-        ("highest spectral-window alias (lower is better)", c["highest_alias"], ".2f"),
+        ("highest spectral-window alias beyond 2/span (lower is better)", c["highest_alias"], ".2f"),
         ("least detectable extra fading, mag/day (lower is better)", c["trend_min_detectable_mag_per_day"], ".1e"),
         ("light-curve points (frames stacked per slot)", c["n_times"], "d"),
     ]
     hours_p = float(result.blocks["hours"].sum()) if len(result.blocks) else 0.0
     hours_b = float(result.baseline["hours"].sum()) if len(result.baseline) else 0.0
-    out = [f"{'plan vs baseline (one block per site-night at highest altitude)':52} {'plan':>9} {'baseline':>9}"]
-    out.append(f"{'telescope hours':52} {hours_p:9.1f} {hours_b:9.1f}")
+    weather = "under weather: worst-period coverage, mean/10th pct"
+    w = max(len(label) for label, _, _ in rows + [(weather, None, None)])
+    out = ["plan vs baseline (the baseline: one block per site-night at the highest altitude, same hours)",
+           f"{'':{w}} {'plan':>9} {'baseline':>9}",
+           f"{'telescope hours':{w}} {hours_p:9.1f} {hours_b:9.1f}"]
     for label, pair, spec in rows:
-        out.append(f"{label:52} {_fmt(pair['plan'], spec, 9)} {_fmt(pair['baseline'], spec, 9)}")
-    out.append(f"{'under weather: worst-period coverage, mean/10th pct':52} "
+        out.append(f"{label:{w}} {_fmt(pair['plan'], spec, 9)} {_fmt(pair['baseline'], spec, 9)}")
+    out.append(f"{weather:{w}} "
                f"{rob['plan']['expected_worst_period_coverage']:5.2f}/{rob['plan']['p10_worst_period_coverage']:.2f} "
                f"{rob['baseline']['expected_worst_period_coverage']:5.2f}/"
                f"{rob['baseline']['p10_worst_period_coverage']:.2f}")

@@ -351,18 +351,16 @@ def _summary_section(pf: PlanFolder) -> str:
         return _json_num(diag, f"{kind}.coverage.{i}") + " at " + _json_num(diag, f"{kind}.periods_h.{i}", 2, " h")
 
     def highest_alias(kind: str) -> str:
-        peaks = diag[kind].get("window_peaks") or []
-        if not peaks:
+        if not diag[kind].get("highest_alias"):
             return "—"
-        i = int(np.argmax([p.get("height", 0) for p in peaks]))
         return (
-            _json_num(diag, f"{kind}.window_peaks.{i}.height")
+            _json_num(diag, f"{kind}.highest_alias.height")
             + " at "
-            + _json_num(diag, f"{kind}.window_peaks.{i}.freq_per_day", 4, " c/d")
+            + _json_num(diag, f"{kind}.highest_alias.freq_per_day", 4, " c/d")
         )
 
     crow.append(["worst-period phase coverage"] + [worst(k) for k in kinds])
-    crow.append(["highest spectral-window peak (alias strength)"] + [highest_alias(k) for k in kinds])
+    crow.append(["highest spectral-window alias (peak beyond 2/span)"] + [highest_alias(k) for k in kinds])
     crow.append(
         ["smallest detectable fading, 3σ (mag/day)"]
         + [_json_num(diag, f"{k}.trend.min_detectable_mag_per_day", 4) for k in kinds]

@@ -190,8 +190,11 @@ def _worst_coverage(check: dict) -> float | None:
 
 
 def _highest_alias(check: dict) -> float | None:
-    peaks = check.get("window_peaks") or []
-    return float(max(p["height"] for p in peaks)) if peaks else 0.0
+    """The check's strongest window peak beyond the span's own sidelobes (f ≥ 2/span)."""
+    if "highest_alias" not in check:
+        return None
+    top = check["highest_alias"]
+    return float(top["height"]) if top else 0.0
 
 
 def compare(plan_check: dict, base_check: dict) -> dict:

@@ -172,3 +172,26 @@ def test_noisy_sparse_data_are_under_covered_not_alias_prone():
     expected = sum(b["failures_alias_expected"] for b in r.bands)
     failures = observed + sum(b["failures_other"] for b in r.bands)
     assert observed - expected < 0.5 * (failures - expected)
+
+
+def test_highest_alias_is_the_daily_peak_not_the_span_sidelobe(single):
+    # One site at fixed hours: the strongest alias is the day, 1 c/d (Deeming 1975). Its height is the
+    # length of the mean unit vector of the times folded on 1 c/d (Eyer & Bartholdi 1999), computed here.
+    d = single.to_dict()
+    top = d["highest_alias"]
+    span_d = d["input"]["baseline_h"] / 24.0
+    assert top["min_freq_per_day"] == pytest.approx(2.0 / span_d)
+    assert top["freq_per_day"] == pytest.approx(1.0, abs=0.02)
+    t_d = (single_site() - BASE).astype("int64") / 86400e9
+    assert top["height"] == pytest.approx(abs(np.exp(2j * np.pi * top["freq_per_day"] * t_d).mean()), abs=1e-6)
+
+
+def test_unbroken_sampling_has_only_span_sidelobes():
+    # Round-the-clock sampling every 10 min for 7 days: |W| is a Dirichlet kernel whose first sidelobe,
+    # near 1.43/T with height ≈ 0.217 (the sinc's), is the only peak above 0.1; it is no alias.
+    t = _times(np.arange(7 * 24 * 6) / 6)
+    d = check_times(t, min_period_h=2, max_period_h=30, trials=0).to_dict()
+    side = [p for p in d["window_peaks"] if p["height"] > 0.15]
+    assert side and all(p["freq_per_day"] < 2.0 * 24.0 / d["input"]["baseline_h"] for p in side)
+    assert max(p["height"] for p in side) == pytest.approx(0.217, abs=0.01)
+    assert d["highest_alias"] is None or d["highest_alias"]["height"] < 0.15
