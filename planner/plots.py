@@ -426,6 +426,11 @@ def spectral_window_figure(series: Sequence[Series], max_freq_per_day: float = 5
             f, w = _floats(window["freq_per_day"]), _floats(window["height"])
         else:
             f, w = grid, spectral_window(to_jd_utc(check_times_utc(s.check, s.times_utc)), grid)
+        top = s.check.get("highest_alias") or {}
+        if top.get("min_freq_per_day"):
+            # Below 2/span the peaks are the central lobe's sidelobes, shared by any campaign of that span.
+            ax.axvspan(0.0, top["min_freq_per_day"], facecolor="#eeeeee", edgecolor="none", zorder=0,
+                       label="span sidelobes (< 2/span, not aliases)")
         ax.plot(f, w, **{k: v for k, v in kw.items() if not k.startswith("marker")})
         peaks = [p for p in s.check.get("window_peaks", []) if p.get("freq_per_day", 0) <= max_freq_per_day]
         if peaks:
