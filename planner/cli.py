@@ -38,13 +38,50 @@ def _register_commands() -> None:
         module.register(app)
 
 
-def main(argv: list[str] | None = None) -> None:
-    """Console entry point. Usage errors are typer's (exit 2); bad input files are ours (exit 2)."""
-    _register_commands()
+def _click_exceptions():
+    """The click exception module typer uses (vendored in recent typer, the click package before)."""
     try:
-        app(args=argv, prog_name="phasewise")
+        from typer._click import exceptions
+    except ImportError:  # typer < 0.25 depends on click itself
+        from click import exceptions
+    return exceptions
+
+
+def _usage_line(exc) -> str:
+    """One line for a usage error: ``error: command line: --option: message``."""
+    ce = _click_exceptions()
+    field = "usage"
+    param = getattr(exc, "param", None)
+    if isinstance(exc, ce.BadParameter) and param is not None:
+        opts = getattr(param, "opts", None) or [getattr(param, "name", "") or ""]
+        field = opts[0] if opts[0].startswith("-") else opts[0].upper()
+    elif isinstance(exc, ce.NoSuchOption):
+        field = exc.option_name
+    message = exc.message if isinstance(exc, ce.BadParameter) and exc.message else exc.format_message()
+    message = " ".join(str(message).split())
+    hint = "" if exc.ctx is None else f" (see '{exc.ctx.command_path} --help')"
+    return f"error: command line: {field}: {message}{hint}"
+
+
+def main(argv: list[str] | None = None) -> None:
+    """Console entry point: every bad input, on the command line or in a file, is one line and exit 2."""
+    _register_commands()
+    ce = _click_exceptions()
+    try:
+        rc = app(args=argv, prog_name="phasewise", standalone_mode=False)
     except InputError as exc:
         print(f"error: {exc}", file=sys.stderr)
         sys.exit(2)
+    except ce.UsageError as exc:
+        if type(exc).__name__ != "NoArgsIsHelpError":  # bare `phasewise`: the help is already shown
+            print(_usage_line(exc), file=sys.stderr)
+        sys.exit(2)
+    except ce.ClickException as exc:
+        print(f"error: {' '.join(exc.format_message().split())}", file=sys.stderr)
+        sys.exit(exc.exit_code)
+    except ce.Abort:
+        print("aborted", file=sys.stderr)
+        sys.exit(1)
     except BrokenPipeError:
         sys.exit(0)
+    sys.exit(rc if isinstance(rc, int) else 0)
