@@ -115,11 +115,13 @@ def read_observation_log(path: str | Path) -> ObservationLog:
     if not rows:
         raise InputError(file, "time_utc", "the file is empty (expected a header with time_utc)")
     header = [h.strip() for h in rows[0]]
+    if "time_utc" not in header:
+        raise InputError(file, "time_utc", "missing column (mid-exposure times, ISO 8601 UTC); the first row "
+                         f"must name the columns: {', '.join(KNOWN_COLUMNS)}")
     for h in header:
         if h not in KNOWN_COLUMNS:
-            raise InputError(file, h or "(blank)", f"unknown column (known: {', '.join(KNOWN_COLUMNS)})")
-    if "time_utc" not in header:
-        raise InputError(file, "time_utc", "missing column (mid-exposure times, ISO 8601 UTC)")
+            name = h if len(h) <= 40 else h[:37] + "..."
+            raise InputError(file, name or "(blank)", f"unknown column (known: {', '.join(KNOWN_COLUMNS)})")
     if len(set(header)) != len(header):
         raise InputError(file, "-", "a column name appears twice in the header")
     col = {h: i for i, h in enumerate(header)}
