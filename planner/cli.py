@@ -79,9 +79,13 @@ def main(argv: list[str] | None = None) -> None:
     except ce.ClickException as exc:
         print(f"error: {' '.join(exc.format_message().split())}", file=sys.stderr)
         sys.exit(exc.exit_code)
-    except ce.Abort:
+    except typer.Abort:
         print("aborted", file=sys.stderr)
         sys.exit(1)
     except BrokenPipeError:
+        # The reader went away (e.g. `| head`): stop quietly, without a second error at exit.
+        import os
+
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         sys.exit(0)
     sys.exit(rc if isinstance(rc, int) else 0)

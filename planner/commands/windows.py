@@ -126,7 +126,7 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Observable windows per site and night, with the reason when there is none.
 
-        Sites with an [instrument] also get the exposure plan at each window's best moment."""
+        Sites with an instrument table also get the exposure plan at each window's best moment."""
         from planner.photometry import window_photometry
         from planner.sites import load_site
         from planner.targets import load_target
