@@ -18,6 +18,7 @@ from typing import Any
 import numpy as np
 
 from planner.coverage import period_grid_h, phase_coverage
+from planner.jsonsafe import json_safe
 from planner.sensitivity import (
     fading_rate_sigma,
     frequency_sigma,
@@ -97,7 +98,7 @@ class CheckResult:
         if self.sites is not None:
             names, counts = np.unique(self.sites.astype(str), return_counts=True)
             sites = {str(n): int(c) for n, c in zip(names, counts, strict=True)}
-        return _clean({
+        return json_safe({
             "input": {
                 "n_times": int(self.times_jd.size),
                 "first_utc": iso_utc(self.times_utc[:1], seconds=True)[0] if self.times_jd.size else None,
@@ -134,24 +135,6 @@ class CheckResult:
             "synodic": self.synodic,
             "notes": self.notes,
         })
-
-
-def _clean(obj):
-    """numpy → plain Python for JSON; non-finite floats → None (JSON has no inf/NaN)."""
-    if isinstance(obj, dict):
-        return {k: _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return [_clean(v) for v in obj.tolist()]
-    if isinstance(obj, (np.floating, float)):
-        v = float(obj)
-        return v if math.isfinite(v) else None
-    if isinstance(obj, np.integer):
-        return int(obj)
-    if isinstance(obj, np.bool_):
-        return bool(obj)
-    return obj
 
 
 def _local_minima(values: np.ndarray) -> np.ndarray:

@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 
 from planner.errors import InputError
+from planner.jsonsafe import json_safe
 from planner.schedule import PlanResult
 
 #: Files of a plan folder (the report helper reads exactly these names).
@@ -52,25 +53,8 @@ def table_for_files(df: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
-def _clean(obj):
-    if isinstance(obj, dict):
-        return {str(k): _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if isinstance(obj, (np.integer,)):
-        return int(obj)
-    if isinstance(obj, (float, np.floating)):
-        v = float(obj)
-        return v if math.isfinite(v) else None
-    if isinstance(obj, np.ndarray):
-        return _clean(obj.tolist())
-    if isinstance(obj, (np.bool_,)):
-        return bool(obj)
-    return obj
-
-
 def records(df: pd.DataFrame) -> list[dict]:
-    return _clean(table_for_files(df).to_dict("records"))
+    return json_safe(table_for_files(df).to_dict("records"))
 
 
 def _hm(text: str) -> str:
@@ -269,7 +253,7 @@ def site_sheet(result: PlanResult, site) -> str:
 
 
 def diagnostics_json(result: PlanResult) -> dict:
-    return _clean({"plan": result.diagnostics["plan"], "baseline": result.diagnostics["baseline"],
+    return json_safe({"plan": result.diagnostics["plan"], "baseline": result.diagnostics["baseline"],
                    "objective": result.objective, "robustness": result.robustness,
                    "comparison": result.comparison, "replan": result.replan, "timings_s": result.timings_s})
 

@@ -49,11 +49,12 @@ def register(app: typer.Typer) -> None:
         if fmt == "csv":
             sys.stdout.write(table_for_files(result.blocks).to_csv(index=False))
         elif fmt == "json":
-            from planner.planfiles import _clean, records
+            from planner.jsonsafe import json_safe
+            from planner.planfiles import records
 
             doc = {**plan_json(result), "comparison": result.comparison, "objective": result.objective,
                    "robustness": result.robustness, "nights": records(result.nights)}
-            sys.stdout.write(json.dumps(_clean(doc), indent=1) + "\n")
+            sys.stdout.write(json.dumps(json_safe(doc), indent=1) + "\n")
         else:
             sys.stdout.write(f"{camp.name}: {len(result.blocks)} blocks at {result.blocks['site'].nunique()} "
                              f"sites, {camp.nights} nights from {camp.first_night.isoformat()}"
