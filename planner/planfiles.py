@@ -227,7 +227,7 @@ def site_sheet(result: PlanResult, site) -> str:
     b = result.blocks[result.blocks["site"] == site.name]
     lines = [
         f"OBSERVING SHEET - {site.name}",
-        f"campaign: {camp.name}    target file: {camp.target_path.name}",
+        f"campaign: {camp.name}    target: {result.target_name or '-'} (file {camp.target_path.name})",
         f"site: lat {site.latitude_deg:+.3f}  lon {site.longitude_deg:+.3f}  time zone {site.timezone}",
         f"times: local ({site.timezone}) and UTC; each block starts with {camp.blocks.setup_min:g} min of set-up "
         "(slew, focus, acquisition), exposures start after it",
@@ -275,7 +275,7 @@ def diagnostics_json(result: PlanResult) -> dict:
 
 
 def plan_json(result: PlanResult) -> dict:
-    return {"campaign": result.campaign.name, "blocks": records(result.blocks)}
+    return {"campaign": result.campaign.name, "target": result.target_name, "blocks": records(result.blocks)}
 
 
 def _write_folder(result: PlanResult, folder: Path) -> None:

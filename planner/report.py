@@ -134,6 +134,8 @@ def load_plan_folder(plan_dir: str | Path) -> PlanFolder:
         target = _read_toml(d / "target.toml")
     except InputError:  # only the target's name is wanted; a target given as MPC lines has no TOML copy
         target = {}
+    if not target.get("name") and (d / "plan.json").is_file():  # plan.json names an MPC-line target
+        target = {"name": _read_json(d / "plan.json").get("target")}
     target_name = str(target.get("name") or Path(str(campaign.get("target", ""))).stem or "")
 
     def optional(name: str, required: Sequence[str]) -> pd.DataFrame | None:

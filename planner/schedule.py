@@ -11,6 +11,7 @@ Monte Carlo (planner.robustness); an exact optimum of the coverage problem on re
 
 from __future__ import annotations
 
+import re
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -65,6 +66,8 @@ class PlanResult:
     timings_s: dict = field(default_factory=dict)
     #: Every site and campaign night: blocks planned, or why none (planner.nightnotes.NOTE_COLUMNS).
     nights: pd.DataFrame = field(default_factory=pd.DataFrame)
+    #: The target's name (from its file; an MPC line's designation and name).
+    target_name: str = ""
 
 
 @dataclass
@@ -88,6 +91,20 @@ def t_ref_for(campaign: Campaign) -> np.datetime64:
 
 def _hours_since(times_utc: np.ndarray, t_ref: np.datetime64) -> np.ndarray:
     return (np.asarray(times_utc, dtype="datetime64[ns]") - t_ref).astype(np.int64) / 3.6e12
+
+
+def _why_no_window(windows: pd.DataFrame) -> str:
+    """``' (Site A: too close to the Sun: elongation 12.4° < 30°; ...)'``: each site's first reason for
+    a night without a window, without the parenthesised detail, so the one-line error says why."""
+    if "reason" not in windows or not len(windows):
+        return ""
+    parts = []
+    for site, rows in windows.groupby("site", sort=False):
+        reasons = [r for r in rows["reason"].astype(str) if r.strip()]
+        if reasons:
+            short = re.sub(r"\s*\([^)]*\)", "", reasons[0]).strip()
+            parts.append(f"{site}: {short}")
+    return f" ({'; '.join(parts)})" if parts else ""
 
 
 def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | None = None, *,
@@ -115,7 +132,8 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
     grid = build_slots(windows, sites, campaign.blocks, t_ref, total_hours=campaign.total_hours, **kwargs)
     if not grid.parts:
         raise InputError(str(campaign.path), "sites",
-                         "no site has an observable window long enough for one block in the nights left to plan")
+                         "no site has an observable window long enough for one block in the nights left to plan"
+                         + _why_no_window(windows))
     rot = campaign.rotation
     span_h = campaign.nights * 24.0
     periods = period_grid_h(rot.min_period_h, rot.max_period_h, span_h, rot.oversample)
@@ -296,4 +314,4 @@ def plan_campaign(campaign: Campaign, done_log: str | Path | None = None, *, exa
                       objective=core.objective, robustness=core.robustness, windows=windows, geometry=geo,
                       comparison=compare(diagnostics["plan"], diagnostics["baseline"]), exposures=exposures,
                       baseline_exposures=base_exposures, done_log=None if done is None else done.path,
-                      replan=replan, timings_s=timings, nights=core.nights)
+                      replan=replan, timings_s=timings, nights=core.nights, target_name=target.name)
