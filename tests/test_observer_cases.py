@@ -252,3 +252,21 @@ def test_check_notes_repeated_rows(tmp_path, capsys):
     assert code == 0
     notes = json.loads(out)["notes"]
     assert any(n.startswith("1 time(s) repeat an earlier row") for n in notes)
+
+
+# --- a site without an instrument in the plan's diagnostics ----------------------------------------
+
+def test_stacked_points_without_sigma_stay_unknown_quietly():
+    from planner.blocktable import binned_points
+
+    t_ref = np.datetime64("2034-06-12T00:00:00", "ns")
+    t = t_ref + (np.tile(np.arange(4), 2) * 60 + 30).astype("timedelta64[s]").astype("timedelta64[ns]")
+    frames = pd.DataFrame({"time_utc": t, "site": ["A"] * 4 + ["B"] * 4,
+                           "mag_err": [0.02] * 4 + [np.nan] * 4})
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # no divide-by-zero warning on the terminal
+        points = binned_points(frames, t_ref, 300.0)
+    by_site = points.set_index("site")
+    # Four frames of σ 0.02 mag averaged: σ/√4 = 0.01 mag (standard error of a mean, common practice).
+    assert by_site.loc["A", "mag_err"] == pytest.approx(0.01)
+    assert np.isnan(by_site.loc["B", "mag_err"]) and by_site.loc["B", "n_frames"] == 4
