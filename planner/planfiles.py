@@ -155,7 +155,11 @@ def comparison_text(result: PlanResult) -> str:
     hours_b = float(result.baseline["hours"].sum()) if len(result.baseline) else 0.0
     weather = "under weather: worst-period coverage, mean/10th pct"
     w = max(len(label) for label, _, _ in rows + [(weather, None, None)])
-    out = ["plan vs baseline (the baseline: one block per site-night at the highest altitude, same hours)",
+    head = "plan vs baseline (the baseline: one block per site-night at the highest altitude, same hours)"
+    if hours_b < hours_p - 0.05:  # one block a night, capped at max_block_h, cannot hold the plan's hours
+        head = (f"plan vs baseline (the baseline: one block per site-night at the highest altitude, at most "
+                f"{result.campaign.blocks.max_block_h:g} h each, so {hours_p - hours_b:.1f} h fewer than the plan)")
+    out = [head,
            f"{'':{w}} {'plan':>9} {'baseline':>9}",
            f"{'telescope hours':{w}} {hours_p:9.1f} {hours_b:9.1f}"]
     for label, pair, spec in rows:

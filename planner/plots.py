@@ -523,19 +523,22 @@ def sensitivity_figure(series: Sequence[Series]) -> Figure:
     ax, *bxs = fig.subplots(1, 3, gridspec_kw=dict(width_ratios=[3, 1.1, 1.1]))
     for s in series:
         pc = s.check.get("period_change", [])
-        if pc:
-            ax.plot(
-                _floats([r["period_h"] for r in pc]),
-                _floats([r["min_detectable_change_h"] for r in pc]) * 60.0,
-                **s.line_kw(),
-            )
-    ax.set_xscale("log")
-    ax.set_yscale("log")
+        x = _floats([r["period_h"] for r in pc])
+        y = _floats([r["min_detectable_change_h"] for r in pc]) * 60.0
+        ok = np.isfinite(x) & np.isfinite(y) & (x > 0) & (y > 0)  # null: too few points in a half
+        if ok.any():
+            ax.plot(x[ok], y[ok], **s.line_kw())
+    if ax.lines:
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        ax.legend(loc="upper left", fontsize=8)
+    else:  # e.g. a log of a few points, or one whose first half holds a single visit
+        ax.text(0.5, 0.5, "not defined: too few points\nin one half of the span", transform=ax.transAxes,
+                ha="center", va="center", fontsize=9, color=SLATE)
     ax.set_xlabel("rotation period (h)")
     ax.set_ylabel("smallest detectable change (min)")
     ax.set_title("period change, first vs second half (3σ)", fontsize=9)
     ax.grid(True, which="both", color="#dddddd", lw=0.6)
-    ax.legend(loc="upper left", fontsize=8)
     if ax.lines:
         xs = np.concatenate([line.get_xdata() for line in ax.lines])
         period_axis(ax.xaxis, float(xs.min()), float(xs.max()))

@@ -93,13 +93,20 @@ def _hours_since(times_utc: np.ndarray, t_ref: np.datetime64) -> np.ndarray:
     return (np.asarray(times_utc, dtype="datetime64[ns]") - t_ref).astype(np.int64) / 3.6e12
 
 
-def _why_no_window(windows: pd.DataFrame) -> str:
+def _why_no_window(windows: pd.DataFrame, log_end_utc: np.datetime64 | None = None) -> str:
     """``' (Site A: too close to the Sun: elongation 12.4° < 30°; ...)'``: each site's first reason for
-    a night without a window, without the parenthesised detail, so the one-line error says why."""
+    a night without a window, without the parenthesised detail, so the one-line error says why. When an
+    observation log ends after the last window, that is the reason."""
     if "reason" not in windows or not len(windows):
         return ""
+    ends = pd.to_datetime(windows["end_utc"]).dropna()
+    if log_end_utc is not None and len(ends) and np.datetime64(ends.max().to_datetime64(), "ns") <= log_end_utc:
+        return (f" (the observation log runs to {str(log_end_utc)[:16]}Z, after the campaign's last window ends "
+                f"at {str(ends.max().to_datetime64())[:16]}Z)")
     parts = []
     for site, rows in windows.groupby("site", sort=False):
+        if (rows["hours"] > 0).any():
+            continue  # this site has windows: they are too short or already past
         reasons = [r for r in rows["reason"].astype(str) if r.strip()]
         if reasons:
             short = re.sub(r"\s*\([^)]*\)", "", reasons[0]).strip()
@@ -133,7 +140,7 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
     if not grid.parts:
         raise InputError(str(campaign.path), "sites",
                          "no site has an observable window long enough for one block in the nights left to plan"
-                         + _why_no_window(windows))
+                         + _why_no_window(windows, None if done is None else done.end_utc))
     rot = campaign.rotation
     span_h = campaign.nights * 24.0
     periods = period_grid_h(rot.min_period_h, rot.max_period_h, span_h, rot.oversample)

@@ -270,3 +270,49 @@ def test_stacked_points_without_sigma_stay_unknown_quietly():
     # Four frames of σ 0.02 mag averaged: σ/√4 = 0.01 mag (standard error of a mean, common practice).
     assert by_site.loc["A", "mag_err"] == pytest.approx(0.01)
     assert np.isnan(by_site.loc["B", "mag_err"]) and by_site.loc["B", "n_frames"] == 4
+
+
+# --- outputs that cannot be written, and logs that leave nothing (or little) to draw ---------------
+
+def test_out_into_a_folder_or_under_a_file_is_one_line(tmp_path, capsys):
+    (tmp_path / "afile").write_text("x")
+    common = ["ephem", "--target", str(ORBITS), "--object", "qa1", "--start", "2034-06-10", "--stop", "2034-06-10"]
+    code, _, err = call(capsys, *common, "--out", str(tmp_path))
+    assert code == 2 and err.strip() == f"error: {tmp_path}: out: is a folder; give a file name (e.g. a name inside it)"
+    code, _, err = call(capsys, *common, "--out", str(tmp_path / "afile" / "e.txt"))
+    assert code == 2 and "a file of that name is in the way" in err and "Traceback" not in err
+    assert (tmp_path / "afile").read_text() == "x"
+
+
+def test_check_report_of_three_points(tmp_path, capsys):
+    # Three points leave the period change undefined (null) and no injections: the report still draws.
+    log = tmp_path / "tiny.csv"
+    log.write_text("time_utc\n2034-06-10T01:00:00Z\n2034-06-10T03:00:00Z\n2034-06-10T05:00:00Z\n")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", UserWarning)
+        code, _, err = call(capsys, "check", str(log), "--trials", "0", "--report", str(tmp_path / "r.html"))
+    assert code == 0, err
+    assert (tmp_path / "r.html").read_text().count("data:image/png;base64") >= 3
+
+
+def test_log_ending_after_the_campaign_says_so(tmp_path):
+    from planner.schedule import plan_campaign
+
+    path = _campaign(tmp_path, "2034-06-10", "qa1", ("south.toml", SOUTH))
+    log = tmp_path / "late.csv"
+    log.write_text("time_utc,site\n2034-07-01T02:00:00Z,Sierra Sur\n")
+    with pytest.raises(InputError) as err:
+        plan_campaign(load_campaign(path), log)
+    assert "the observation log runs to 2034-07-01T02:00Z, after the campaign's last window" in err.value.message
+
+
+def test_baseline_short_of_the_plan_hours_is_said(tmp_path, capsys):
+    # No hour cap at a site with 10 h windows: the plan takes two 4 h blocks a night, the baseline one.
+    path = _campaign(tmp_path, "2034-06-10", "qa1", ("south.toml", SOUTH))
+    code, out, err = call(capsys, "plan", str(path), "--out", str(tmp_path / "p"))
+    assert code == 0, err
+    head = next(ln for ln in out.splitlines() if ln.startswith("plan vs baseline"))
+    plan_h, base_h = (float(v) for v in next(ln for ln in out.splitlines()
+                                              if ln.startswith("telescope hours")).split()[-2:])
+    assert base_h <= 3 * 4.0 < plan_h  # three nights, one block of at most max_block_h = 4 h each
+    assert f"at most 4 h each, so {plan_h - base_h:.1f} h fewer than the plan" in head and "same hours" not in head
