@@ -278,13 +278,17 @@ def diagnostics_json(result: PlanResult) -> dict:
                    "comparison": result.comparison, "replan": result.replan, "timings_s": result.timings_s})
 
 
+#: Number format of plan.csv, also when `phasewise plan --format csv` prints it.
+PLAN_CSV_FLOAT_FORMAT = "%.7g"
+
+
 def plan_json(result: PlanResult) -> dict:
     return {"campaign": result.campaign.name, "target": result.target_name, "blocks": records(result.blocks)}
 
 
 def _write_folder(result: PlanResult, folder: Path) -> None:
     (folder / "sheets").mkdir(parents=True)
-    table_for_files(result.blocks).to_csv(folder / "plan.csv", index=False, float_format="%.7g")
+    table_for_files(result.blocks).to_csv(folder / "plan.csv", index=False, float_format=PLAN_CSV_FLOAT_FORMAT)
     (folder / "plan.json").write_text(json.dumps(plan_json(result), indent=1) + "\n")
     table_for_files(result.baseline).to_csv(folder / "baseline.csv", index=False, float_format="%.7g")
     (folder / "diagnostics.json").write_text(json.dumps(diagnostics_json(result), indent=1) + "\n")

@@ -316,3 +316,11 @@ def test_baseline_short_of_the_plan_hours_is_said(tmp_path, capsys):
                                               if ln.startswith("telescope hours")).split()[-2:])
     assert base_h <= 3 * 4.0 < plan_h  # three nights, one block of at most max_block_h = 4 h each
     assert f"at most 4 h each, so {plan_h - base_h:.1f} h fewer than the plan" in head and "same hours" not in head
+
+
+def test_plan_csv_on_stdout_is_the_file(tmp_path, capsys):
+    path = _campaign(tmp_path, "2034-06-10", "qa1", ("south.toml", SOUTH))
+    code, out, err = call(capsys, "plan", str(path), "--out", str(tmp_path / "p"), "--format", "csv")
+    assert code == 0, err
+    assert out == (tmp_path / "p" / "plan.csv").read_text()
+    assert len(pd.read_csv(tmp_path / "p" / "plan.csv")) == len(pd.read_csv(__import__("io").StringIO(out))) > 0
