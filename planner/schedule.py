@@ -236,14 +236,21 @@ def compare(plan_check: dict, base_check: dict) -> dict:
     return out
 
 
-def geometry_sample(target, sites, grid: SlotGrid) -> pd.DataFrame:
-    """Geometry every GEOMETRY_STEP_S over the campaign span, per site (column ``site`` first)."""
+def geometry_sample(target, sites, grid: SlotGrid, nights: int | None = None) -> pd.DataFrame:
+    """Geometry every GEOMETRY_STEP_S over the campaign span, per site (column ``site`` first).
+
+    With ``nights``, the span is every campaign night at every site (00:00 UTC the day before the
+    first night to ``nights`` + 2 days later: local noon to noon anywhere from UTC−12 to UTC+14), so
+    the report's night charts are complete also at sites whose windows are few or none."""
     from planner.ephemeris import geometry
     from planner.timegrid import time_grid
 
     lo, hi = grid.span_slots
     start = grid.slot_time(lo) - np.timedelta64(2, "h")
     stop = grid.slot_time(hi) + np.timedelta64(2, "h")
+    if nights is not None:
+        start = min(start, np.datetime64(grid.t_ref, "ns"))
+        stop = max(stop, np.datetime64(grid.t_ref, "ns") + np.timedelta64(nights + 2, "D"))
     t0 = start.astype("datetime64[h]").astype("datetime64[ns]")
     times = time_grid(t0, stop, GEOMETRY_STEP_S)
     frames = geometry(target, times, list(sites))
@@ -303,7 +310,7 @@ def plan_campaign(campaign: Campaign, done_log: str | Path | None = None, *, exa
     t = time.perf_counter()
     blocks, exposures = block_table(core.visits, core.grid, target, campaign.sites, **phot)
     baseline, base_exposures = block_table(core.baseline, core.grid, target, campaign.sites, **phot)
-    geo = geometry_sample(target, campaign.sites, core.grid)
+    geo = geometry_sample(target, campaign.sites, core.grid, campaign.nights)
     timings["blocks_and_geometry"] = time.perf_counter() - t
     t = time.perf_counter()
     trials = campaign.check_trials if check_trials is None else check_trials

@@ -209,6 +209,15 @@ def test_plan_near_the_sun_keeps_the_limit_and_warns_everywhere(tmp_path, capsys
     assert "CAUTION: target only" in sheet and "from the Sun" in sheet
     assert json.loads((out_dir / "plan.json").read_text())["target"] == "C/2034 K2 (Wrenfield)"
     assert "Campaign report: C/2034 K2 (Wrenfield)" in (out_dir / "report.html").read_text()
+    # Birch Hill has no window at all: its night charts still span each local noon-to-noon night
+    # (BST = UTC+1 in July: EU summer time, Directive 2000/84/EC), on its own clock.
+    from planner.report import sheet_utc_offset_h
+
+    geo = pd.read_csv(out_dir / "geometry.csv")
+    times = pd.to_datetime(geo.loc[geo["site"] == "Birch Hill", "time_utc"])
+    assert times.min() <= pd.Timestamp("2034-07-12T11:00Z") and times.max() >= pd.Timestamp("2034-07-15T11:00Z")
+    assert sheet_utc_offset_h(out_dir, "Birch Hill", "2034-07-12") == 1.0
+    assert sheet_utc_offset_h(out_dir, "Desert Mesa", "2034-07-12") == -7.0  # Arizona keeps MST all year
     # The windows table marks the Sun caution on the nights without a window as well.
     code, out, _ = call(capsys, "windows", "--target", str(tmp_path / "orbits.txt"), "--object", "Wrenfield",
                         "--site", str(tmp_path / "north.toml"), "--start", "2034-07-12", "--nights", "1")
