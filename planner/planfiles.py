@@ -245,12 +245,15 @@ def site_sheet(result: PlanResult, site) -> str:
         else pd.DataFrame({"night": sorted(by_night), "note": ""})
     if not len(notes) and not by_night:
         lines.append("No blocks for this site in this plan.")
-    for night, note in zip(notes["night"], notes["note"], strict=True):
+    observed = notes["observed_h"] if "observed_h" in notes else pd.Series(0.0, index=notes.index)
+    for night, note, obs_h in zip(notes["night"], notes["note"], observed.fillna(0.0), strict=True):
         rows = by_night.get(night)
         if rows is None:
             lines += [f"Night of {night} (local evening date): no block. {note[:1].upper() + note[1:]}", ""]
             continue
         lines.append(f"Night of {night} (local evening date)")
+        if obs_h > 0:  # re-planned: the log already holds time on this night; the blocks come after it
+            lines.append(f"  already observed this night: {obs_h:.2f} h (observation log); the blocks below follow it")
         for k, r in enumerate(rows.itertuples(index=False), 1):
             exp = (f"{r.n_exposures} x {r.exposure_s:.0f} s" if isinstance(r.exposure_s, float)
                    and math.isfinite(r.exposure_s) else f"{r.n_exposures} exposures (exposure time not predicted)")

@@ -333,3 +333,23 @@ def test_plan_csv_on_stdout_is_the_file(tmp_path, capsys):
     assert code == 0, err
     assert out == (tmp_path / "p" / "plan.csv").read_text()
     assert len(pd.read_csv(tmp_path / "p" / "plan.csv")) == len(pd.read_csv(__import__("io").StringIO(out))) > 0
+
+
+def test_replanned_sheet_shows_the_time_already_observed(tmp_path, capsys):
+    path = _campaign(tmp_path, "2034-06-10", "qa1", ("south.toml", SOUTH))
+    log = tmp_path / "done.csv"
+    rows = [f"{np.datetime64('2034-06-11T01:00:00') + np.timedelta64(80 * i, 's')}Z,Sierra Sur,60" for i in range(90)]
+    log.write_text("time_utc,site,exposure_s\n" + "\n".join(rows) + "\n")
+    before = log.read_bytes()
+    code, out, err = call(capsys, "plan", str(path), "--out", str(tmp_path / "p"), "--done", str(log))
+    assert code == 0, err
+    assert log.read_bytes() == before  # the log is read only
+    nights = pd.read_csv(tmp_path / "p" / "nights.csv")
+    first = nights[nights["night"] == "2034-06-10"].iloc[0]
+    # 90 exposures of 60 s every 80 s: 01:00 to 02:59 UTC, about 2 h at the telescope.
+    assert first["observed_h"] == pytest.approx(2.0, abs=0.05)
+    sheet = (tmp_path / "p" / "sheets" / "sierra-sur.txt").read_text()
+    night_text = sheet.split("Night of 2034-06-10")[1].split("Night of 2034-06-11")[0]
+    assert first["blocks"] > 0  # the rest of that night (after 03:00 UTC) is still planned
+    assert f"already observed this night: {first['observed_h']:.2f} h (observation log)" in night_text
+    assert sheet.count("Night of ") == 3  # every campaign night is listed
