@@ -129,7 +129,8 @@ def block_table(visits: list[Visit], grid: SlotGrid, target, sites: tuple[Site, 
 
 def binned_points(exposures: pd.DataFrame, t_ref: np.datetime64, bin_s: float) -> pd.DataFrame:
     """Consecutive exposures of one site combined per ``bin_s`` slot: mean time, error / √n (and the
-    mean airmass when the exposures carry one).
+    mean airmass when the exposures carry one). A slot whose frames have no σ (a site without an
+    instrument) gets NaN; the diagnostics give such points the median σ.
 
     Light-curve points of a slowly rotating body are commonly stacks of consecutive frames
     (common practice); the diagnostics run on these points, which keeps them fast without
@@ -146,9 +147,12 @@ def binned_points(exposures: pd.DataFrame, t_ref: np.datetime64, bin_s: float) -
         df["airmass"] = exposures["airmass"].to_numpy(dtype=float)
     g = df.groupby(["site", "key"], sort=False)
     mean_ns = g["ns"].mean().round().astype(np.int64)
-    w = g["w"].sum()
+    w = g["w"].sum(min_count=1).to_numpy(dtype=float)  # NaN where no frame has a σ (site without instrument)
+    err = np.full(w.shape, np.nan)
+    known = np.isfinite(w) & (w > 0)
+    err[known] = 1.0 / np.sqrt(w[known])
     out = pd.DataFrame({"time_utc": np.datetime64(t_ref, "ns") + mean_ns.to_numpy().astype("timedelta64[ns]"),
-                        "site": [s for s, _ in mean_ns.index], "mag_err": 1.0 / np.sqrt(w.to_numpy()),
+                        "site": [s for s, _ in mean_ns.index], "mag_err": err,
                         "n_frames": g.size().to_numpy()})
     if "airmass" in df:
         out["airmass"] = g["airmass"].mean().to_numpy()

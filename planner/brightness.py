@@ -64,6 +64,27 @@ def law_name(kind: str, b: Brightness) -> str:
     return LAW_HG if b.H is not None else LAW_NONE
 
 
+def law_params(kind: str, b: Brightness) -> dict[str, float]:
+    """The parameters the chosen law uses, by their trade names (M1, K1 / M2, K2, beta / H, G).
+
+    Shown beside the predicted magnitudes so an observer can check them against the source orbit.
+    """
+    law = law_name(kind, b)
+    if law == LAW_TOTAL:
+        return {"M1": b.M1, "K1": b.K1}
+    if law == LAW_NUCLEAR:
+        return {"M2": b.M2, "K2": b.K2, "beta_mag_per_deg": b.phase_coeff_mag_per_deg}
+    if law == LAW_HG:
+        return {"H": b.H, "G": b.G}
+    return {}
+
+
+def format_law(law: str, params: dict[str, float]) -> str:
+    """``asteroid_hg (H 14.2, G 0.15)``: the law's name and its parameters, for table headers."""
+    shown = [f"{key.split('_')[0]} {value:g}" for key, value in params.items() if value is not None]
+    return f"{law} ({', '.join(shown)})" if shown else law
+
+
 def predicted_mag(kind: str, b: Brightness, helio_dist_au: np.ndarray, obs_dist_au: np.ndarray,
                   phase_angle_deg: np.ndarray) -> tuple[np.ndarray, str]:
     """Predicted magnitude array and the name of the law used (NaN where no law is given)."""

@@ -20,7 +20,7 @@ from planner.timegrid import parse_utc
 from planner.tomlfile import Fields, read_toml
 
 _TOP_KEYS = {"name", "target", "sites", "first_night", "nights", "seed", "rotation", "blocks", "cadence",
-             "weights", "weather", "photometry", "diagnostics", "site"}
+             "weights", "weather", "photometry", "diagnostics", "site", "object"}
 _ROTATION_KEYS = {"min_period_h", "max_period_h", "double_peaked", "amplitude_mag", "phase_bins", "oversample"}
 _BLOCK_KEYS = {"slot_min", "min_block_h", "max_block_h", "setup_min", "max_per_night"}
 _CADENCE_KEYS = {"max_gap_h"}
@@ -104,12 +104,21 @@ class Campaign:
     check_trials: int = 100
     #: Whole-campaign hour budget per site name (absent: no budget beyond the nightly allocation).
     total_hours: dict[str, float] = field(default_factory=dict)
+    #: Which line of a multi-line MPC target file (``--object`` of the other commands).
+    target_object: str | None = None
 
     def load_target(self):
         """The target file named by the campaign (geometry module's loader)."""
+        from planner.errors import InputError
         from planner.targets import load_target
 
-        return load_target(self.target_path)
+        try:
+            return load_target(self.target_path, self.target_object)
+        except InputError as e:
+            if e.field != "object":
+                raise
+            message = e.message.replace("with --object NAME", "with the campaign key object = \"NAME\"")
+            raise InputError(str(self.path), "object", f"{self.target_path.name}: {message}") from None
 
 
 def _path(f: Fields, key: str, base: Path, value: object) -> Path:
@@ -258,6 +267,7 @@ def load_campaign(path: str | Path) -> Campaign:
         max_airmass=ph_f.float("max_airmass", 2.0, lo=1.0, hi=40.0),
         sys_err_mag_per_airmass=ph_f.float("sys_err_mag_per_airmass", 0.005, lo=0.0, lo_open=True, hi=1.0),
         total_hours=total_hours,
+        target_object=f.str("object"),
     )
 
 

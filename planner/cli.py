@@ -79,7 +79,7 @@ def main(argv: list[str] | None = None) -> None:
     except ce.ClickException as exc:
         print(f"error: {' '.join(exc.format_message().split())}", file=sys.stderr)
         sys.exit(exc.exit_code)
-    except typer.Abort:
+    except typer.Abort:  # typer's own (its vendored click module has no Abort)
         print("aborted", file=sys.stderr)
         sys.exit(1)
     except BrokenPipeError:

@@ -265,6 +265,18 @@ def _verdict(cov_band: np.ndarray, rec: dict | None, alias_max: float, s: CheckS
     return "secure"
 
 
+def repeated_times(times_utc: np.ndarray, sites: np.ndarray | None = None) -> int:
+    """How many rows repeat an earlier row's time (to the second) at the same site: likely copies.
+
+    The same instant at two different sites is a normal simultaneous observation and is not counted.
+    """
+    sec = np.asarray(times_utc, dtype="datetime64[s]").astype(np.int64)
+    labels = np.full(sec.size, "") if sites is None else np.asarray(sites).astype(str)
+    order = np.lexsort((sec, labels))
+    same = (sec[order][1:] == sec[order][:-1]) & (labels[order][1:] == labels[order][:-1])
+    return int(same.sum())
+
+
 def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: float,
                 mag_err: np.ndarray | float = 0.02, sites: np.ndarray | None = None,
                 exposure_s: np.ndarray | None = None,
@@ -471,6 +483,10 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
                          f"bin at {min_period_h:g} h")
     if n and baseline_h < max_period_h:
         notes.append(f"the span ({baseline_h:.1f} h) is shorter than the longest period searched")
+    n_repeated = repeated_times(times, site_arr)
+    if n_repeated:
+        notes.append(f"{n_repeated} time(s) repeat an earlier row at the same site and instant: each counts as a "
+                     "separate point (more weight in the window and the trend); remove them if they are copies")
     return CheckResult(settings=s, times_utc=times, times_jd=t, sites=site_arr, mag_err=err,
                        periods_h=periods, coverage=cov, largest_phase_gap=gap, worst_periods=worst,
                        commensurate=commensurate, window_freq_per_day=wf, window_height=wh,

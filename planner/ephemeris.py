@@ -27,7 +27,7 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
-from planner.brightness import predicted_mag
+from planner.brightness import law_params, predicted_mag
 from planner.errors import InputError
 from planner.kepler import C_AU_PER_DAY, GM_SUN_AU3_D2, OBLIQUITY_J2000_DEG, propagate
 from planner.sites import Site
@@ -194,7 +194,8 @@ def geometry(target: Target, times_utc: np.ndarray, sites: Sequence[Site] = (),
 
     Columns: see docs/formats.md "Geometry columns". ``low_solar_elong`` flags epochs closer to the
     Sun than ``min_solar_elong_deg`` (a safety caution, not a permission). Each frame's ``attrs`` hold
-    ``mag_law``, ``target``, ``observer`` and ``min_solar_elong_deg``.
+    ``mag_law``, ``mag_params`` (the law's parameters, planner.brightness.law_params), ``target``,
+    ``observer`` and ``min_solar_elong_deg``.
     """
     names = [s.name for s in sites]
     for site in sites:
@@ -266,7 +267,8 @@ def _observer_frame(target: Target, sky: _SkyAtTimes, helio: np.ndarray, target_
     if site is not None:
         cols.update(_site_columns(sky, topo, p, tau, obs_au, obs_v))
     frame = pd.DataFrame(cols)
-    frame.attrs.update(mag_law=law, target=target.name, min_solar_elong_deg=min_solar_elong_deg)
+    frame.attrs.update(mag_law=law, mag_params=law_params(target.kind, target.brightness), target=target.name,
+                       min_solar_elong_deg=min_solar_elong_deg)
     return frame
 
 

@@ -13,8 +13,19 @@ def write_text_atomic(path: str | Path, text: str) -> Path:
 
 
 def write_bytes_atomic(path: str | Path, data: bytes) -> Path:
+    """Write ``data`` to a temporary file beside ``path``, then rename it into place (folders are made).
+
+    A ``path`` that is a folder, or whose parent is a file, is an InputError naming it.
+    """
+    from planner.errors import InputError
+
     p = Path(path)
-    p.parent.mkdir(parents=True, exist_ok=True)
+    if p.is_dir():
+        raise InputError(str(p), "out", "is a folder; give a file name (e.g. a name inside it)")
+    try:
+        p.parent.mkdir(parents=True, exist_ok=True)
+    except (FileExistsError, NotADirectoryError):
+        raise InputError(str(p), "out", "cannot make its folder: a file of that name is in the way") from None
     fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".part", dir=p.parent)
     try:
         with os.fdopen(fd, "wb") as fh:

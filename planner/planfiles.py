@@ -139,7 +139,11 @@ def comparison_text(result: PlanResult) -> str:
     hours_b = float(result.baseline["hours"].sum()) if len(result.baseline) else 0.0
     weather = "under weather: worst-period coverage, mean/10th pct"
     w = max(len(label) for label, _, _ in rows + [(weather, None, None)])
-    out = ["plan vs baseline (the baseline: one block per site-night at the highest altitude, same hours)",
+    head = "plan vs baseline (the baseline: one block per site-night at the highest altitude, same hours)"
+    if hours_b < hours_p - 0.05:  # one block a night, capped at max_block_h, cannot hold the plan's hours
+        head = (f"plan vs baseline (the baseline: one block per site-night at the highest altitude, at most "
+                f"{result.campaign.blocks.max_block_h:g} h each, so {hours_p - hours_b:.1f} h fewer than the plan)")
+    out = [head,
            f"{'':{w}} {'plan':>9} {'baseline':>9}",
            f"{'telescope hours':{w}} {hours_p:9.1f} {hours_b:9.1f}"]
     for label, pair, spec in rows:
@@ -211,7 +215,7 @@ def site_sheet(result: PlanResult, site) -> str:
     b = result.blocks[result.blocks["site"] == site.name]
     lines = [
         f"OBSERVING SHEET - {site.name}",
-        f"campaign: {camp.name}    target file: {camp.target_path.name}",
+        f"campaign: {camp.name}    target: {result.target_name or '-'} (file {camp.target_path.name})",
         f"site: lat {site.latitude_deg:+.3f}  lon {site.longitude_deg:+.3f}  time zone {site.timezone}",
         f"times: local ({site.timezone}) and UTC; each block starts with {camp.blocks.setup_min:g} min of set-up "
         "(slew, focus, acquisition), exposures start after it",
@@ -225,12 +229,15 @@ def site_sheet(result: PlanResult, site) -> str:
         else pd.DataFrame({"night": sorted(by_night), "note": ""})
     if not len(notes) and not by_night:
         lines.append("No blocks for this site in this plan.")
-    for night, note in zip(notes["night"], notes["note"], strict=True):
+    observed = notes["observed_h"] if "observed_h" in notes else pd.Series(0.0, index=notes.index)
+    for night, note, obs_h in zip(notes["night"], notes["note"], observed.fillna(0.0), strict=True):
         rows = by_night.get(night)
         if rows is None:
             lines += [f"Night of {night} (local evening date): no block. {note[:1].upper() + note[1:]}", ""]
             continue
         lines.append(f"Night of {night} (local evening date)")
+        if obs_h > 0:  # re-planned: the log already holds time on this night; the blocks come after it
+            lines.append(f"  already observed this night: {obs_h:.2f} h (observation log); the blocks below follow it")
         for k, r in enumerate(rows.itertuples(index=False), 1):
             exp = (f"{r.n_exposures} x {r.exposure_s:.0f} s" if isinstance(r.exposure_s, float)
                    and math.isfinite(r.exposure_s) else f"{r.n_exposures} exposures (exposure time not predicted)")
@@ -258,13 +265,17 @@ def diagnostics_json(result: PlanResult) -> dict:
                    "comparison": result.comparison, "replan": result.replan, "timings_s": result.timings_s})
 
 
+#: Number format of plan.csv, also when `phasewise plan --format csv` prints it.
+PLAN_CSV_FLOAT_FORMAT = "%.7g"
+
+
 def plan_json(result: PlanResult) -> dict:
-    return {"campaign": result.campaign.name, "blocks": records(result.blocks)}
+    return {"campaign": result.campaign.name, "target": result.target_name, "blocks": records(result.blocks)}
 
 
 def _write_folder(result: PlanResult, folder: Path) -> None:
     (folder / "sheets").mkdir(parents=True)
-    table_for_files(result.blocks).to_csv(folder / "plan.csv", index=False, float_format="%.7g")
+    table_for_files(result.blocks).to_csv(folder / "plan.csv", index=False, float_format=PLAN_CSV_FLOAT_FORMAT)
     (folder / "plan.json").write_text(json.dumps(plan_json(result), indent=1) + "\n")
     table_for_files(result.baseline).to_csv(folder / "baseline.csv", index=False, float_format="%.7g")
     (folder / "diagnostics.json").write_text(json.dumps(diagnostics_json(result), indent=1) + "\n")

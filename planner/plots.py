@@ -8,6 +8,7 @@ with any common colour-vision deficiency (the palette's lightness steps are far 
 
 from __future__ import annotations
 
+import textwrap
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 
@@ -246,7 +247,9 @@ def site_nights_figure(
             ax.plot([a, b], [86, 86], color=INK, lw=5, solid_capstyle="butt", zorder=4)
         if w.empty:
             reason = windows.loc[windows["night"].astype(str) == night, "reason"] if "reason" in windows else []
-            text = "no window" + (f":\n{reason.iloc[0]}" if len(reason) and str(reason.iloc[0]) != "nan" else "")
+            text = "no window" + (f":\n{textwrap.fill(str(reason.iloc[0]), 30)}"
+                                  if len(reason) and str(reason.iloc[0]) != "nan" else "")
+            # Kept out of the layout: a long reason must not squeeze the panels to nothing.
             ax.text(
                 0.5,
                 0.5,
@@ -256,6 +259,8 @@ def site_nights_figure(
                 va="center",
                 fontsize=8,
                 bbox=dict(facecolor="white", edgecolor=SLATE),
+                in_layout=False,
+                clip_on=True,
             )
         ax.set_xlim(x0, x1)
         ax.set_ylim(0, 90)
@@ -484,7 +489,11 @@ def recovery_figure(
     ax.set_ylim(-0.02, 1.05)
     ax.set_ylabel("recovered fraction")
     ax.grid(True, which="both", color="#dddddd", lw=0.6)
-    ax.legend(loc="lower left", fontsize=8)
+    if any(s.check.get("recovery") for s in series):
+        ax.legend(loc="lower left", fontsize=8)
+    else:  # trials = 0: nothing was injected; say so instead of an empty legend
+        ax.text(0.5, 0.5, "injection–recovery skipped (0 trials)", transform=ax.transAxes, ha="center",
+                va="center", fontsize=9, color=SLATE)
     for i, s in enumerate(series):
         y = len(series) - 1 - i
         for band in s.check.get("bands", []):
@@ -514,19 +523,22 @@ def sensitivity_figure(series: Sequence[Series]) -> Figure:
     ax, *bxs = fig.subplots(1, 3, gridspec_kw=dict(width_ratios=[3, 1.1, 1.1]))
     for s in series:
         pc = s.check.get("period_change", [])
-        if pc:
-            ax.plot(
-                _floats([r["period_h"] for r in pc]),
-                _floats([r["min_detectable_change_h"] for r in pc]) * 60.0,
-                **s.line_kw(),
-            )
-    ax.set_xscale("log")
-    ax.set_yscale("log")
+        x = _floats([r["period_h"] for r in pc])
+        y = _floats([r["min_detectable_change_h"] for r in pc]) * 60.0
+        ok = np.isfinite(x) & np.isfinite(y) & (x > 0) & (y > 0)  # null: too few points in a half
+        if ok.any():
+            ax.plot(x[ok], y[ok], **s.line_kw())
+    if ax.lines:
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        ax.legend(loc="upper left", fontsize=8)
+    else:  # e.g. a log of a few points, or one whose first half holds a single visit
+        ax.text(0.5, 0.5, "not defined: too few points\nin one half of the span", transform=ax.transAxes,
+                ha="center", va="center", fontsize=9, color=SLATE)
     ax.set_xlabel("rotation period (h)")
     ax.set_ylabel("smallest detectable change (min)")
     ax.set_title("period change, first vs second half (3σ)", fontsize=9)
     ax.grid(True, which="both", color="#dddddd", lw=0.6)
-    ax.legend(loc="upper left", fontsize=8)
     if ax.lines:
         xs = np.concatenate([line.get_xdata() for line in ax.lines])
         period_axis(ax.xaxis, float(xs.min()), float(xs.max()))

@@ -17,8 +17,10 @@ import html
 import io
 import json
 import math
+import re
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from datetime import datetime
 from pathlib import Path
 
 import numpy as np
@@ -134,6 +136,8 @@ def load_plan_folder(plan_dir: str | Path) -> PlanFolder:
         target = _read_toml(d / "target.toml")
     except InputError:  # only the target's name is wanted; a target given as MPC lines has no TOML copy
         target = {}
+    if not target.get("name") and (d / "plan.json").is_file():  # plan.json names an MPC-line target
+        target = {"name": _read_json(d / "plan.json").get("target")}
     target_name = str(target.get("name") or Path(str(campaign.get("target", ""))).stem or "")
 
     def optional(name: str, required: Sequence[str]) -> pd.DataFrame | None:
@@ -161,6 +165,27 @@ def _utc(values) -> np.ndarray:
         .dt.tz_localize(None)
         .to_numpy(dtype="datetime64[ns]")
     )
+
+
+def sheet_utc_offset_h(plan_dir: Path, site: str, night: str | None) -> float | None:
+    """The site's clock offset from UTC (h) at local noon of ``night``, from the time zone its observing
+    sheet names (``sheets/<slug>.txt``, line ``site: ... time zone ZONE``); None when unknown."""
+    from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+
+    from planner.planfiles import slug
+
+    sheet = plan_dir / "sheets" / f"{slug(site)}.txt"
+    if night is None or not sheet.is_file():
+        return None
+    found = re.search(r"^site: .*time zone (\S+)\s*$", sheet.read_text(encoding="utf-8"), re.MULTILINE)
+    if not found:
+        return None
+    try:
+        zone = ZoneInfo(found.group(1))
+        noon = datetime.fromisoformat(f"{night}T12:00").replace(tzinfo=zone)
+    except (ZoneInfoNotFoundError, ValueError):
+        return None
+    return noon.utcoffset().total_seconds() / 3600.0
 
 
 def utc_offset_h(df: pd.DataFrame | None) -> float | None:
@@ -513,6 +538,8 @@ def _nights_section(pf: PlanFolder) -> str:
             ws = windows[windows["site"] == site]
             bs = pf.plan[pf.plan["site"] == site]
             off = utc_offset_h(ws) if utc_offset_h(ws) is not None else utc_offset_h(bs)
+            if off is None:  # no window and no block: the site's sheet names its time zone
+                off = sheet_utc_offset_h(pf.path, site, pf.nights[0] if pf.nights else None)
             fig = plots.site_nights_figure(site, gs, ws, bs, pf.nights, off or 0.0, 20.0)
             out.append(
                 figure_html(fig, f"fig-site-{i}", f"Nights at {html.escape(site)}.", f"Altitude charts for {site}")

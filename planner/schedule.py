@@ -11,6 +11,7 @@ Monte Carlo (planner.robustness); an exact optimum of the coverage problem on re
 
 from __future__ import annotations
 
+import re
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -65,6 +66,8 @@ class PlanResult:
     timings_s: dict = field(default_factory=dict)
     #: Every site and campaign night: blocks planned, or why none (planner.nightnotes.NOTE_COLUMNS).
     nights: pd.DataFrame = field(default_factory=pd.DataFrame)
+    #: The target's name (from its file; an MPC line's designation and name).
+    target_name: str = ""
 
 
 @dataclass
@@ -88,6 +91,27 @@ def t_ref_for(campaign: Campaign) -> np.datetime64:
 
 def _hours_since(times_utc: np.ndarray, t_ref: np.datetime64) -> np.ndarray:
     return (np.asarray(times_utc, dtype="datetime64[ns]") - t_ref).astype(np.int64) / 3.6e12
+
+
+def _why_no_window(windows: pd.DataFrame, log_end_utc: np.datetime64 | None = None) -> str:
+    """``' (Site A: too close to the Sun: elongation 12.4° < 30°; ...)'``: each site's first reason for
+    a night without a window, without the parenthesised detail, so the one-line error says why. When an
+    observation log ends after the last window, that is the reason."""
+    if "reason" not in windows or not len(windows):
+        return ""
+    ends = pd.to_datetime(windows["end_utc"]).dropna()
+    if log_end_utc is not None and len(ends) and np.datetime64(ends.max().to_datetime64(), "ns") <= log_end_utc:
+        return (f" (the observation log runs to {str(log_end_utc)[:16]}Z, after the campaign's last window ends "
+                f"at {str(ends.max().to_datetime64())[:16]}Z)")
+    parts = []
+    for site, rows in windows.groupby("site", sort=False):
+        if (rows["hours"] > 0).any():
+            continue  # this site has windows: they are too short or already past
+        reasons = [r for r in rows["reason"].astype(str) if r.strip()]
+        if reasons:
+            short = re.sub(r"\s*\([^)]*\)", "", reasons[0]).strip()
+            parts.append(f"{site}: {short}")
+    return f" ({'; '.join(parts)})" if parts else ""
 
 
 def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | None = None, *,
@@ -115,7 +139,8 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
     grid = build_slots(windows, sites, campaign.blocks, t_ref, total_hours=campaign.total_hours, **kwargs)
     if not grid.parts:
         raise InputError(str(campaign.path), "sites",
-                         "no site has an observable window long enough for one block in the nights left to plan")
+                         "no site has an observable window long enough for one block in the nights left to plan"
+                         + _why_no_window(windows, None if done is None else done.end_utc))
     rot = campaign.rotation
     span_h = campaign.nights * 24.0
     periods = period_grid_h(rot.min_period_h, rot.max_period_h, span_h, rot.oversample)
@@ -211,14 +236,21 @@ def compare(plan_check: dict, base_check: dict) -> dict:
     return out
 
 
-def geometry_sample(target, sites, grid: SlotGrid) -> pd.DataFrame:
-    """Geometry every GEOMETRY_STEP_S over the campaign span, per site (column ``site`` first)."""
+def geometry_sample(target, sites, grid: SlotGrid, nights: int | None = None) -> pd.DataFrame:
+    """Geometry every GEOMETRY_STEP_S over the campaign span, per site (column ``site`` first).
+
+    With ``nights``, the span is every campaign night at every site (00:00 UTC the day before the
+    first night to ``nights`` + 2 days later: local noon to noon anywhere from UTC−12 to UTC+14), so
+    the report's night charts are complete also at sites whose windows are few or none."""
     from planner.ephemeris import geometry
     from planner.timegrid import time_grid
 
     lo, hi = grid.span_slots
     start = grid.slot_time(lo) - np.timedelta64(2, "h")
     stop = grid.slot_time(hi) + np.timedelta64(2, "h")
+    if nights is not None:
+        start = min(start, np.datetime64(grid.t_ref, "ns"))
+        stop = max(stop, np.datetime64(grid.t_ref, "ns") + np.timedelta64(nights + 2, "D"))
     t0 = start.astype("datetime64[h]").astype("datetime64[ns]")
     times = time_grid(t0, stop, GEOMETRY_STEP_S)
     frames = geometry(target, times, list(sites))
@@ -278,7 +310,7 @@ def plan_campaign(campaign: Campaign, done_log: str | Path | None = None, *, exa
     t = time.perf_counter()
     blocks, exposures = block_table(core.visits, core.grid, target, campaign.sites, **phot)
     baseline, base_exposures = block_table(core.baseline, core.grid, target, campaign.sites, **phot)
-    geo = geometry_sample(target, campaign.sites, core.grid)
+    geo = geometry_sample(target, campaign.sites, core.grid, campaign.nights)
     timings["blocks_and_geometry"] = time.perf_counter() - t
     t = time.perf_counter()
     trials = campaign.check_trials if check_trials is None else check_trials
@@ -296,4 +328,4 @@ def plan_campaign(campaign: Campaign, done_log: str | Path | None = None, *, exa
                       objective=core.objective, robustness=core.robustness, windows=windows, geometry=geo,
                       comparison=compare(diagnostics["plan"], diagnostics["baseline"]), exposures=exposures,
                       baseline_exposures=base_exposures, done_log=None if done is None else done.path,
-                      replan=replan, timings_s=timings, nights=core.nights)
+                      replan=replan, timings_s=timings, nights=core.nights, target_name=target.name)

@@ -352,8 +352,9 @@ def _load_mpc(path: Path, object_name: str | None) -> Target:
                              f"{object_name!r} matches {len(picked)} lines ({names}); be more specific")
         lines = picked
     elif len(lines) > 1:
+        names = ", ".join(_line_name(ln) for _, ln in lines[:5]) + (", ..." if len(lines) > 5 else "")
         raise InputError(str(path), "object",
-                         f"the file holds {len(lines)} orbit lines; pick one with --object NAME")
+                         f"the file holds {len(lines)} orbit lines ({names}); pick one with --object NAME")
     line_no, line = lines[0]
     if _is_minor_planet_line(line):
         return _minor_planet_line(path, line_no, line)

@@ -161,6 +161,8 @@ def register(app: typer.Typer) -> None:
         max_period: Annotated[str, typer.Option("--max-period", help="longest rotation period (30h, 2d)")] = "30h",
         target: Annotated[Path | None, typer.Option("--target", help="target file: adds the geometric trend "
                                                     "and the synodic–sidereal drift")] = None,
+        object_name: Annotated[str | None, typer.Option("--object", help="which line of a multi-line MPC "
+                                                        ".txt target file")] = None,
         site: Annotated[list[Path] | None, typer.Option("--site", help="site file (repeatable; with --target): "
                                                         "σ per point from its instrument")] = None,
         trials: Annotated[int, typer.Option("--trials", min=0, help="injected light curves (0: none)")] = 200,
@@ -199,7 +201,7 @@ def register(app: typer.Typer) -> None:
         if target is not None:
             from planner.targets import load_target
 
-            tgt = load_target(target)
+            tgt = load_target(target, object_name)
         sites = []
         if site:
             from planner.sites import load_site

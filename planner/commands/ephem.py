@@ -12,6 +12,7 @@ import numpy as np
 import pandas as pd
 import typer
 
+from planner.brightness import format_law
 from planner.ephemeris import MIN_SOLAR_ELONG_DEG, geometry, safety_warning
 from planner.errors import InputError
 from planner.fileio import write_text_atomic
@@ -96,8 +97,9 @@ def render_table(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
         body.append(["SUN" if flag else "" for flag in frame["low_solar_elong"]])
         widths = [max(len(h), len(u), *(len(v) for v in column)) if len(column) else max(len(h), len(u))
                   for h, u, column in zip(headers, units, body, strict=True)]
+        law = format_law(frame.attrs.get("mag_law", ""), frame.attrs.get("mag_params", {}))
         lines = [f"# {frame.attrs.get('target', '')} from {name}; predicted magnitude: "
-                 f"{frame.attrs.get('mag_law', '')}; RA/Dec astrometric ICRF; alt/az airless (no refraction)"]
+                 f"{law}; RA/Dec astrometric ICRF; alt/az airless (no refraction)"]
         lines.append("  ".join(h.rjust(w) for h, w in zip(headers, widths, strict=True)).rstrip())
         lines.append("  ".join(u.rjust(w) for u, w in zip(units, widths, strict=True)).rstrip())
         for row in zip(*body, strict=True):
@@ -129,6 +131,7 @@ def render_json(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
     doc = {
         "target": first.attrs.get("target"),
         "mag_law": first.attrs.get("mag_law"),
+        "mag_params": first.attrs.get("mag_params", {}),
         "min_solar_elong_deg": first.attrs.get("min_solar_elong_deg"),
         "caution": caution,
         "rows": rows,

@@ -28,6 +28,7 @@ def register(app: typer.Typer) -> None:
         """Optimise a multi-site campaign: when each site observes, night by night."""
         from planner.campaign import load_campaign
         from planner.planfiles import (
+            PLAN_CSV_FLOAT_FORMAT,
             comparison_text,
             night_table,
             nights_text,
@@ -47,7 +48,7 @@ def register(app: typer.Typer) -> None:
         if out is not None:
             write_plan_folder(result, out, force=force)
         if fmt == "csv":
-            sys.stdout.write(table_for_files(result.blocks).to_csv(index=False))
+            sys.stdout.write(table_for_files(result.blocks).to_csv(index=False, float_format=PLAN_CSV_FLOAT_FORMAT))
         elif fmt == "json":
             from planner.jsonsafe import json_safe
             from planner.planfiles import records

@@ -86,7 +86,8 @@ def render_table(df: pd.DataFrame, sites) -> str:
         for _, r in rows.iterrows():  # output rows, not epochs
             if r["hours"] == 0:
                 lines.append(f"  {r['night']:<10}  {'-':<11}  {'-':<11}  {0:5.2f}  {'':>6}  {'':>5}  {'':>4}  "
-                             f"{'':>4}  {'':>8}  {'':>5}  {'':>11}  {'':>4}  {r['reason']}")
+                             f"{'':>4}  {'':>8}  {'':>5}  {'':>11}  {'':>4}  {r['reason']}"
+                             + ("  !" if r["caution"] else ""))
                 flagged |= bool(r["caution"])
                 continue
             utc = [iso_utc(np.array([r[c]], dtype="datetime64[ns]"))[0][11:16] for c in _TIME_COLUMNS]
@@ -123,6 +124,8 @@ def register(app: typer.Typer) -> None:
         out: Annotated[Path | None, typer.Option("--out", help="write here (atomically), not to the screen")] = None,
         snr: Annotated[float, typer.Option("--snr", min=1.0,
                                            help="S/N goal per exposure (sites with an instrument)")] = 50.0,
+        object_name: Annotated[str | None, typer.Option("--object", help="which line of a multi-line MPC "
+                                                        ".txt file")] = None,
     ) -> None:
         """Observable windows per site and night, with the reason when there is none.
 
@@ -137,7 +140,7 @@ def register(app: typer.Typer) -> None:
         first = _parse_date(start)
         step_s = parse_duration_s(step, field="step")
         sites = [load_site(p) for p in site]
-        tgt = load_target(target)
+        tgt = load_target(target, object_name)
         df = observable_windows(tgt, sites, first, nights, step_s=step_s)
         df = df.join(window_photometry(df, tgt, sites, snr_target=snr))
         text = {"table": lambda: render_table(df, sites), "csv": lambda: render_csv(df),
