@@ -142,7 +142,7 @@ def test_site_instruments_set_the_noise_where_the_log_is_silent(capsys, tmp_path
     assert code == 0, err
     d = json.loads(out)
     assert d["input"]["mag_err_sources"] == {"log": 3, "model": 9, "fallback": 1}
-    model = mag_err_for_times(load_target(target), np.array(times[3:], dtype="datetime64[ns]"),
+    model = mag_err_for_times(load_target(target), np.array([t[:-1] for t in times[3:]], dtype="datetime64[ns]"),
                               ["Karoo Ridge"] * 9, [load_site(site_file)])
     want = np.median(np.concatenate([[0.005] * 3, model, [0.3]]))
     assert d["input"]["mag_err_median"] == pytest.approx(want, rel=1e-9)
