@@ -16,7 +16,7 @@ from pathlib import Path
 
 from planner.errors import InputError
 from planner.sites import Allocation, Site, load_site
-from planner.timegrid import parse_utc
+from planner.timegrid import parse_date, parse_utc
 from planner.tomlfile import Fields, read_toml
 
 _TOP_KEYS = {"name", "target", "sites", "first_night", "nights", "seed", "rotation", "blocks", "cadence",
@@ -138,10 +138,7 @@ def _first_night(f: Fields) -> date:
     if isinstance(value, date) and not hasattr(value, "hour"):
         return value
     if isinstance(value, str):
-        try:
-            return date.fromisoformat(value.strip())
-        except ValueError:
-            pass
+        return parse_date(value, f.file, f.name("first_night"))
     raise f.error("first_night", f"{value!r} is not a date such as 2034-03-16")
 
 

@@ -21,7 +21,7 @@ from pathlib import Path
 import numpy as np
 
 from planner.errors import InputError
-from planner.timegrid import parse_utc
+from planner.timegrid import parse_date, parse_utc
 
 KNOWN_COLUMNS = ("time_utc", "site", "exposure_s", "mag_err", "status", "night")
 STATUSES = ("observed", "lost")
@@ -87,11 +87,7 @@ def _positive(text: str, file: str, field_name: str, upper: float = math.inf) ->
 
 
 def _night(text: str, file: str, n: int) -> date:
-    try:
-        return date.fromisoformat(text)
-    except ValueError:
-        raise InputError(file, f"night (row {n})",
-                         f"{text!r} is not a local evening date such as 2034-03-17") from None
+    return parse_date(text, file, f"night (row {n})", "a local evening date such as 2034-03-17")
 
 
 def read_observation_log(path: str | Path) -> ObservationLog:

@@ -50,6 +50,15 @@ def parse_utc(text: str | datetime | date | np.datetime64, file: str = "command 
     return np.datetime64(dt, "ns")
 
 
+def parse_date(text: str, file: str = "command line", field: str = "date",
+               example: str = "a date such as 2034-03-16") -> date:
+    """ISO calendar date (``2034-03-16``), e.g. the local date on which a night begins."""
+    try:
+        return date.fromisoformat(str(text).strip())
+    except ValueError:
+        raise InputError(file, field, f"{text!r} is not {example}") from None
+
+
 def time_grid(start: np.datetime64, stop: np.datetime64, step_s: float) -> np.ndarray:
     """Epochs from ``start`` to ``stop`` inclusive (when it falls on the grid) every ``step_s`` seconds."""
     start = np.datetime64(start, "ns")

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import json
-from datetime import date
 from pathlib import Path
 from typing import Annotated
 
@@ -13,7 +12,7 @@ import typer
 
 from planner.errors import InputError
 from planner.fileio import write_text_atomic
-from planner.timegrid import iso_utc, parse_duration_s
+from planner.timegrid import iso_utc, parse_date, parse_duration_s
 from planner.windows import SUN_CAUTION
 
 FORMATS = ("table", "csv", "json")
@@ -21,13 +20,6 @@ _TIME_COLUMNS = ("start_utc", "end_utc", "best_utc")
 
 _EDGE_WORD = {"twilight": "twilight", "noon": "noon", "horizon": "horizon", "hour_angle": "HA limit",
               "dec_range": "dec limit", "moon": "Moon", "sun_elong": "Sun", "allocation": "allocation"}
-
-
-def _parse_date(text: str) -> date:
-    try:
-        return date.fromisoformat(text.strip())
-    except ValueError:
-        raise InputError("command line", "start", f"{text!r} is not a date such as 2034-03-16") from None
 
 
 def _plain(df: pd.DataFrame) -> pd.DataFrame:
@@ -137,7 +129,7 @@ def register(app: typer.Typer) -> None:
 
         if fmt not in FORMATS:
             raise InputError("command line", "format", f"{fmt!r} is not one of {', '.join(FORMATS)}")
-        first = _parse_date(start)
+        first = parse_date(start, field="start")
         step_s = parse_duration_s(step, field="step")
         sites = [load_site(p) for p in site]
         tgt = load_target(target, object_name)
