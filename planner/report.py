@@ -224,8 +224,9 @@ def _fmt(value, digits: int = 3) -> str:
     v = _float(value)
     if math.isnan(v):
         return "—" if str(value).strip() in ("", "nan", "NaN") else html.escape(str(value))
-    if v != 0 and (abs(v) >= 1e5 or abs(v) < 10 ** (-digits)):
-        return f"{v:.{digits}g}"
+    if v != 0 and (abs(v) >= 1e5 or abs(v) < 0.01):
+        # small rates (mag/day) keep significant figures, so 2.6e-4 and 2.7e-4 stay apart
+        return f"{v:.{max(digits - 1, 2)}g}"
     return f"{v:.{digits}f}".rstrip("0").rstrip(".") if "." in f"{v:.{digits}f}" else f"{v:.{digits}f}"
 
 
