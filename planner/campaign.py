@@ -15,6 +15,7 @@ from datetime import date
 from pathlib import Path
 
 from planner.errors import InputError
+from planner.photometry import LIGHTCURVE_MAX_EXPOSURE_S, LIGHTCURVE_MIN_EXPOSURE_S, LIGHTCURVE_SNR_TARGET
 from planner.sites import Allocation, Site, load_site
 from planner.timegrid import parse_date, parse_utc
 from planner.tomlfile import Fields, read_toml
@@ -91,11 +92,10 @@ class Campaign:
     max_gap_h: float = 12.0
     weights: Weights = field(default_factory=Weights)
     weather_trials: int = 200
-    snr_target: float = 30.0
-    #: Exposure limits: observers rarely take light-curve frames shorter than ~30 s even on bright
-    #: targets (scintillation, data volume; common practice); trailing may still cut below the floor.
-    min_exposure_s: float = 30.0
-    max_exposure_s: float = 300.0
+    snr_target: float = LIGHTCURVE_SNR_TARGET
+    #: Exposure limits (see planner.photometry.LIGHTCURVE_MIN_EXPOSURE_S).
+    min_exposure_s: float = LIGHTCURVE_MIN_EXPOSURE_S
+    max_exposure_s: float = LIGHTCURVE_MAX_EXPOSURE_S
     #: Soft airmass limit: slots above it earn no quality credit (common practice: X below ~2).
     max_airmass: float = 2.0
     #: Photometric error per unit airmass left by extinction changes (planner.quality), mag.
@@ -230,8 +230,8 @@ def load_campaign(path: str | Path) -> Campaign:
     wx_f.check_known(_WEATHER_KEYS)
     ph_f = f.sub("photometry") or Fields(path, {}, "photometry")
     ph_f.check_known(_PHOTOMETRY_KEYS)
-    min_exp = ph_f.float("min_exposure_s", 30.0, lo=0.1, hi=3600.0)
-    max_exp = ph_f.float("max_exposure_s", 300.0, lo=0.1, hi=3600.0)
+    min_exp = ph_f.float("min_exposure_s", LIGHTCURVE_MIN_EXPOSURE_S, lo=0.1, hi=3600.0)
+    max_exp = ph_f.float("max_exposure_s", LIGHTCURVE_MAX_EXPOSURE_S, lo=0.1, hi=3600.0)
     if max_exp < min_exp:
         raise ph_f.error("max_exposure_s", f"{max_exp:g} is below min_exposure_s ({min_exp:g})")
     dg_f = f.sub("diagnostics") or Fields(path, {}, "diagnostics")
@@ -257,7 +257,7 @@ def load_campaign(path: str | Path) -> Campaign:
         max_gap_h=cad_f.float("max_gap_h", 12.0, lo=0.5, hi=24.0 * 60),
         weights=weights,
         weather_trials=wx_f.int("trials", 200, lo=10, hi=100_000),
-        snr_target=ph_f.float("snr_target", 30.0, lo=1.0, hi=10_000.0),
+        snr_target=ph_f.float("snr_target", LIGHTCURVE_SNR_TARGET, lo=1.0, hi=10_000.0),
         check_trials=dg_f.int("trials", 100, lo=0, hi=100_000),
         min_exposure_s=min_exp,
         max_exposure_s=max_exp,

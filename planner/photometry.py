@@ -43,6 +43,14 @@ if TYPE_CHECKING:  # typing only: sites.py imports FILTER_BANDS from here
     from planner.sites import Instrument, Site
     from planner.targets import Target
 
+#: Defaults for light-curve frames, shared by `plan` (campaign file) and `ephem`/`windows` (options):
+#: S/N per exposure, and exposure limits. Observers rarely take light-curve frames shorter than ~30 s
+#: even on bright targets (scintillation, readout overhead, data volume; common practice); trailing
+#: may still cut an exposure below the floor.
+LIGHTCURVE_SNR_TARGET = 30.0
+LIGHTCURVE_MIN_EXPOSURE_S = 30.0
+LIGHTCURVE_MAX_EXPOSURE_S = 300.0
+
 #: Pogson (1856): flux ratio per magnitude is 10^0.4 ≈ 2.512.
 POGSON_RATIO = 10.0**0.4
 

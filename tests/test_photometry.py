@@ -582,11 +582,20 @@ def test_ephem_command_adds_photometry_for_instrument_sites(root, tmp_path, monk
     with pytest.raises(SystemExit) as exc:
         main(["ephem", "--target", DEMO_TARGET, "--site", "sites/karoo-ridge.toml", "--site", str(bare),
               "--start", "2034-03-19T00:00", "--stop", "2034-03-19T02:00", "--format", "csv", "--out", str(out),
-              "--snr", "100"])
+              "--snr", "100", "--min-exposure", "1s"])
     assert exc.value.code in (0, None)
     df = pd.read_csv(out)
     karoo = df[df["site"] == "Karoo Ridge"]
     assert karoo["snr_pred"].to_numpy() == pytest.approx(100.0, rel=1e-6)
+    # With the default 30 s floor (the campaign's light-curve default) the exposure is the floor, unless
+    # trailing cuts it: never the few seconds the S/N goal alone would ask of a 12th-magnitude comet.
+    with pytest.raises(SystemExit):
+        main(["ephem", "--target", DEMO_TARGET, "--site", "sites/karoo-ridge.toml", "--start", "2034-03-19T00:00",
+              "--stop", "2034-03-19T02:00", "--format", "csv", "--out", str(out)])
+    dflt = pd.read_csv(out)
+    want = np.minimum(30.0, dflt["trail_limit_s"].to_numpy())
+    assert dflt["exposure_s"].to_numpy() == pytest.approx(want, rel=1e-3)
+    assert (dflt["snr_pred"] > 30.0).all()
     assert df[df["site"] == "No Camera"]["snr_pred"].isna().all()
     assert {"exposure_s", "trail_limit_s", "aperture_arcsec", "aperture_km", "afrho_cm"} <= set(df.columns)
 

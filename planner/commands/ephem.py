@@ -16,7 +16,7 @@ from planner.brightness import format_law
 from planner.ephemeris import MIN_SOLAR_ELONG_DEG, geometry, safety_warning
 from planner.errors import InputError
 from planner.fileio import write_text_atomic
-from planner.photometry import add_photometry
+from planner.photometry import LIGHTCURVE_MIN_EXPOSURE_S, LIGHTCURVE_SNR_TARGET, add_photometry
 from planner.sites import load_site
 from planner.skydata import utc_times
 from planner.targets import load_target
@@ -149,6 +149,7 @@ _Format = Annotated[str, typer.Option("--format", help="table (for people), csv 
 _Out = Annotated[Path | None, typer.Option("--out", help="Write here (atomically), not to stdout.")]
 _MinElong = Annotated[float, typer.Option("--min-elong", help="Solar-elongation caution limit, deg.")]
 _Snr = Annotated[float, typer.Option("--snr", min=1.0, help="S/N goal per exposure (sites with an instrument).")]
+_MinExp = Annotated[str, typer.Option("--min-exposure", help="Shortest exposure worth taking (trailing may cut it).")]
 
 
 def register(app: typer.Typer) -> None:
@@ -163,7 +164,8 @@ def register(app: typer.Typer) -> None:
         fmt: _Format = "table",
         out: _Out = None,
         min_elong: _MinElong = MIN_SOLAR_ELONG_DEG,
-        snr: _Snr = 50.0,
+        snr: _Snr = LIGHTCURVE_SNR_TARGET,
+        min_exposure: _MinExp = f"{LIGHTCURVE_MIN_EXPOSURE_S:g}s",
     ) -> None:
         """Geometry table: RA/Dec, r, Delta, phase, elongation, motion, magnitude; alt/az per site."""
         if fmt not in FORMATS:
@@ -173,6 +175,7 @@ def register(app: typer.Typer) -> None:
         t0 = parse_utc(start, field="start")
         t1 = parse_utc(stop, field="stop")
         step_s = parse_duration_s(step, field="step")
+        min_exposure_s = parse_duration_s(min_exposure, field="min-exposure")
         if t1 < t0:
             raise InputError("command line", "stop", f"{stop} is before start {start}")
         if (t1 - t0) / np.timedelta64(1, "s") / step_s + 1 > MAX_ROWS:
@@ -182,7 +185,7 @@ def register(app: typer.Typer) -> None:
         tgt = load_target(target, object_name)
         sites = [load_site(p) for p in (site or [])]
         frames = add_photometry(geometry(tgt, time_grid(t0, t1, step_s), sites, min_solar_elong_deg=min_elong),
-                                sites, snr_target=snr)
+                                sites, snr_target=snr, min_exposure_s=min_exposure_s)
         caution = safety_warning(frames)
         if fmt == "table":
             text = render_table(frames, caution)

@@ -12,6 +12,7 @@ import typer
 
 from planner.errors import InputError
 from planner.fileio import write_text_atomic
+from planner.photometry import LIGHTCURVE_MIN_EXPOSURE_S, LIGHTCURVE_SNR_TARGET
 from planner.timegrid import iso_utc, parse_date, parse_duration_s
 from planner.windows import SUN_CAUTION
 
@@ -99,8 +100,8 @@ def render_table(df: pd.DataFrame, sites) -> str:
     lines.append("hours: window length; budget: hours the allocation allows that night; best: UTC of highest "
                  "altitude; X: airmass there; moon: separation and illuminated fraction there; mag: predicted "
                  "magnitude; exposures: how many of what length fit the budget (sites with an instrument, "
-                 "exposure set by the S/N goal or the trailing limit); S/N: per exposure; note: what opens → "
-                 "closes each window.")
+                 "exposure set by the S/N goal, the --min-exposure floor or the trailing limit); S/N: per "
+                 "exposure; note: what opens → closes each window.")
     return "\n".join(lines) + "\n"
 
 
@@ -114,8 +115,10 @@ def register(app: typer.Typer) -> None:
         step: Annotated[str, typer.Option("--step", help="coarse grid step; edges are then refined")] = "5m",
         fmt: Annotated[str, typer.Option("--format", help="table, csv or json")] = "table",
         out: Annotated[Path | None, typer.Option("--out", help="write here (atomically), not to the screen")] = None,
-        snr: Annotated[float, typer.Option("--snr", min=1.0,
-                                           help="S/N goal per exposure (sites with an instrument)")] = 50.0,
+        snr: Annotated[float, typer.Option("--snr", min=1.0, help="S/N goal per exposure (sites with an "
+                                           "instrument)")] = LIGHTCURVE_SNR_TARGET,
+        min_exposure: Annotated[str, typer.Option("--min-exposure", help="shortest exposure worth taking "
+                                                  "(trailing may cut it)")] = f"{LIGHTCURVE_MIN_EXPOSURE_S:g}s",
         object_name: Annotated[str | None, typer.Option("--object", help="which line of a multi-line MPC "
                                                         ".txt file")] = None,
     ) -> None:
@@ -134,7 +137,8 @@ def register(app: typer.Typer) -> None:
         sites = [load_site(p) for p in site]
         tgt = load_target(target, object_name)
         df = observable_windows(tgt, sites, first, nights, step_s=step_s)
-        df = df.join(window_photometry(df, tgt, sites, snr_target=snr))
+        df = df.join(window_photometry(df, tgt, sites, snr_target=snr,
+                                       min_exposure_s=parse_duration_s(min_exposure, field="min-exposure")))
         text = {"table": lambda: render_table(df, sites), "csv": lambda: render_csv(df),
                 "json": lambda: render_json(df)}[fmt]()
         if out is None:
