@@ -37,7 +37,6 @@ import numpy as np
 import pandas as pd
 
 from planner.brightness import LAW_HG, LAW_NUCLEAR, LAW_TOTAL
-from planner.errors import InputError
 
 if TYPE_CHECKING:  # typing only: sites.py imports FILTER_BANDS from here
     from planner.sites import Instrument, Site
@@ -766,8 +765,6 @@ def log_mag_err(
     from_log = np.isfinite(err)
     model = np.full(times.shape, np.nan)
     if target is not None and sites and not from_log.all():
-        if site_names is None and len(sites) > 1:
-            raise InputError("command line", "--site", "the log has no site column, so give exactly one --site")
         model = mag_err_for_times(target, times, site_names, sites, exposure_s=exposure_s, **kwargs)
     from_model = ~from_log & np.isfinite(model)
     err = np.where(from_log, err, np.where(from_model, model, float(fallback_mag_err)))

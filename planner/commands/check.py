@@ -209,6 +209,8 @@ def register(app: typer.Typer) -> None:
             if tgt is None:
                 raise InputError("command line", "--site", "needs --target: the noise model needs its brightness")
             sites = [load_site(p) for p in site]
+            if log.site is None and len(sites) > 1:
+                raise InputError("command line", "--site", "the log has no site column, so give exactly one --site")
         from planner.photometry import log_mag_err
 
         err, err_sources = log_mag_err(tgt, log.times_utc, log.site, sites, logged_mag_err=log.mag_err,
