@@ -1,6 +1,6 @@
 """Benchmark: phasewise geometry() vs astropy's coordinate frames, 4 demo sites × 7 days × 5 minutes.
 
-Both routes start from the same two-body target (planner.kepler.propagate) and the same DE421 file:
+Both routes start from the same two-body target (planner.sky.kepler.propagate) and the same DE421 file:
 
 - phasewise: ``geometry(target, times, sites)`` — every column (RA/Dec, r, Δ, angles, motion,
   magnitude, alt/az, airmass, hour angle, Sun and Moon columns) for all four sites.
@@ -26,12 +26,13 @@ import numpy as np
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from planner.ephemeris import geometry  # noqa: E402
-from planner.kepler import C_AU_PER_DAY, propagate  # noqa: E402
-from planner.sites import load_site  # noqa: E402
-from planner.skydata import no_iers_download, planets, utc_times  # noqa: E402
-from planner.targets import load_target  # noqa: E402
-from planner.timegrid import parse_utc, time_grid  # noqa: E402
+from planner.core.constants import C_AU_PER_DAY  # noqa: E402
+from planner.core.timegrid import parse_utc, time_grid  # noqa: E402
+from planner.inputs.sites import load_site  # noqa: E402
+from planner.inputs.targets import load_target  # noqa: E402
+from planner.sky.geometry import geometry  # noqa: E402
+from planner.sky.kepler import propagate  # noqa: E402
+from planner.sky.skydata import no_iers_download, planets, utc_times  # noqa: E402
 
 SITE_FILES = ["quebrada-alta", "karoo-ridge", "salmon-gum", "kahili-summit"]
 

@@ -18,10 +18,10 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from planner.coverage import period_grid_h  # noqa: E402
-from planner.periodogram import multiharmonic_power  # noqa: E402
-from planner.simulate import synthetic_light_curves  # noqa: E402
-from planner.skydata import no_iers_download  # noqa: E402
+from planner.diagnostics.coverage import period_grid_h  # noqa: E402
+from planner.diagnostics.periodogram import multiharmonic_power  # noqa: E402
+from planner.diagnostics.recovery import synthetic_light_curves  # noqa: E402
+from planner.sky.skydata import no_iers_download  # noqa: E402
 
 
 def sample(nights: int = 7, per_night: int = 36, sites: int = 4, seed: int = 0) -> np.ndarray:

@@ -19,12 +19,12 @@ import numpy as np
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from planner.campaign import load_campaign  # noqa: E402
-from planner.exact import exact_coverage  # noqa: E402
-from planner.greedy import greedy_lazy, greedy_plain  # noqa: E402
-from planner.objective import pack_cells  # noqa: E402
-from planner.schedule import plan_campaign, schedule_core  # noqa: E402
-from planner.skydata import no_iers_download  # noqa: E402
+from planner.inputs.campaign import load_campaign  # noqa: E402
+from planner.pipeline import plan_campaign, schedule_core  # noqa: E402
+from planner.schedule.exact import exact_coverage  # noqa: E402
+from planner.schedule.greedy import greedy_lazy, greedy_plain  # noqa: E402
+from planner.schedule.objective import pack_cells  # noqa: E402
+from planner.sky.skydata import no_iers_download  # noqa: E402
 
 
 def _sub(campaign, windows, nights: int, n_sites: int, **changes):

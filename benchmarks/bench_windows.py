@@ -26,14 +26,14 @@ import numpy as np
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from planner.ephemeris import geometry  # noqa: E402
-from planner.intervals import true_runs  # noqa: E402
-from planner.nights import night_bounds_utc  # noqa: E402
-from planner.sites import load_site  # noqa: E402
-from planner.skydata import no_iers_download  # noqa: E402
-from planner.targets import load_target  # noqa: E402
-from planner.timegrid import time_grid  # noqa: E402
-from planner.windows import in_blocks, observable_windows  # noqa: E402
+from planner.core.timegrid import time_grid  # noqa: E402
+from planner.inputs.sites import load_site  # noqa: E402
+from planner.inputs.targets import load_target  # noqa: E402
+from planner.sky.geometry import geometry  # noqa: E402
+from planner.sky.skydata import no_iers_download  # noqa: E402
+from planner.visibility.intervals import true_runs  # noqa: E402
+from planner.visibility.nights import night_bounds_utc  # noqa: E402
+from planner.visibility.windows import in_blocks, observable_windows  # noqa: E402
 
 FIRST, NIGHTS, STEP_S = date(2034, 3, 16), 7, 300.0
 

@@ -11,7 +11,7 @@ import sys
 
 import typer
 
-from planner.errors import InputError
+from planner.core.errors import InputError
 
 app = typer.Typer(
     name="phasewise",

@@ -1,8 +1,8 @@
 """The bundled demo campaign, end to end: plan, diagnostics, plan folder and report.
 
 The demo campaign (demo_targets/demo-campaign.toml, an invented comet and four invented sites) is
-planned with :func:`planner.schedule.plan_campaign`, written with the scheduler's plan-folder writer,
-and rendered with :func:`planner.report.write_report`. The output folder is marked as the demo's, so
+planned with :func:`planner.pipeline.plan_campaign`, written with the scheduler's plan-folder writer,
+its report rendered last. The output folder is marked as the demo's, so
 a second run refreshes it while a folder with anything else in it is never touched.
 """
 
@@ -11,11 +11,13 @@ from __future__ import annotations
 import time
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
 
-from planner.errors import InputError
-from planner.fileio import write_text_atomic
-from planner.report import REPORT_NAME, write_report
+from planner.core.errors import InputError
+from planner.core.fileio import write_text_atomic
+from planner.inputs.campaign import load_campaign
+from planner.outputs.layout import REPORT_HTML
+from planner.outputs.planfolder import write_plan_folder
+from planner.pipeline import PlanResult, plan_campaign
 
 DEMO_CAMPAIGN = Path(__file__).resolve().parent.parent / "demo_targets" / "demo-campaign.toml"
 DEFAULT_OUT = Path("phasewise-demo")
@@ -27,8 +29,8 @@ DEMO_MARKER = ".phasewise-demo"
 class DemoResult:
     out_dir: Path
     report_path: Path
-    #: The scheduler's PlanResult (blocks, baseline, diagnostics, comparison, ...).
-    plan: Any
+    #: The plan (blocks, baseline, checks, comparison, ...).
+    plan: PlanResult
     seconds: float
 
 
@@ -49,10 +51,6 @@ def run_demo(
 
     ``check_trials``: injection–recovery trials per diagnostics run (default: the campaign's).
     """
-    from planner.campaign import load_campaign
-    from planner.planfiles import write_plan_folder
-    from planner.schedule import plan_campaign
-
     t0 = time.perf_counter()
     out = Path(out_dir)
     check_demo_folder(out)
@@ -63,12 +61,10 @@ def run_demo(
             "-",
             "demo campaign not found: run phasewise from its source checkout (pip install -e .)",
         )
-    result = plan_campaign(load_campaign(campaign_path), check_trials=check_trials)
+    campaign = load_campaign(campaign_path)
+    result = plan_campaign(campaign, campaign.load_target(), check_trials=check_trials)
     write_plan_folder(result, out, force=True)
     write_text_atomic(
         out / DEMO_MARKER, "Written by `phasewise demo`; a later `phasewise demo` replaces this folder.\n"
     )
-    report = out / REPORT_NAME
-    if not report.is_file():  # the plan-folder writer renders it when wired to; otherwise render here
-        report = write_report(out)
-    return DemoResult(out_dir=out, report_path=report, plan=result, seconds=time.perf_counter() - t0)
+    return DemoResult(out_dir=out, report_path=out / REPORT_HTML, plan=result, seconds=time.perf_counter() - t0)

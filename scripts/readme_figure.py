@@ -33,8 +33,8 @@ def main() -> None:
     ap.add_argument("--out", type=Path, default=ROOT / "docs" / "demo-spectral-window.png")
     args = ap.parse_args()
     sys.path.insert(0, str(ROOT))
-    from planner.fileio import write_bytes_atomic
-    from planner.report import render_report
+    from planner.core.fileio import write_bytes_atomic
+    from planner.outputs.report import render_report
 
     with tempfile.TemporaryDirectory() as tmp:
         plan_dir = args.plan_dir

@@ -7,7 +7,7 @@ from pathlib import Path
 import pytest
 from hypothesis import settings
 
-from planner.skydata import no_iers_download
+from planner.sky.skydata import no_iers_download
 
 ROOT = Path(__file__).resolve().parent.parent
 
@@ -21,3 +21,21 @@ settings.load_profile("phasewise")
 @pytest.fixture
 def root() -> Path:
     return ROOT
+
+
+@pytest.fixture(scope="session")
+def demo_plan():
+    """The bundled demo campaign planned once for the whole session: ``(campaign, PlanResult)``."""
+    from planner.inputs.campaign import load_campaign
+    from planner.pipeline import plan_campaign
+
+    campaign = load_campaign(ROOT / "demo_targets" / "demo-campaign.toml")
+    return campaign, plan_campaign(campaign, campaign.load_target())
+
+
+@pytest.fixture(scope="session")
+def demo_folder(demo_plan, tmp_path_factory) -> Path:
+    """The demo plan's folder, written once (read it; copy it before changing anything)."""
+    from planner.outputs.planfolder import write_plan_folder
+
+    return write_plan_folder(demo_plan[1], tmp_path_factory.mktemp("demo") / "plan")

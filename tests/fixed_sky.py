@@ -1,5 +1,5 @@
 """A sky provider for a fixed star, computed with skyfield directly: a test route to windows that
-shares nothing with planner.ephemeris, so the windows core can be checked against astroplan's
+shares nothing with planner.sky.geometry, so the windows core can be checked against astroplan's
 FixedTarget at exactly the same RA/Dec."""
 
 from __future__ import annotations
@@ -9,11 +9,11 @@ import pandas as pd
 from skyfield import almanac
 from skyfield.api import Star, wgs84
 
-from planner.skydata import planets, utc_times
+from planner.sky.skydata import planets, utc_times
 
 
 def fixed_star_sky(ra_deg: float, dec_deg: float, sites):
-    """``sky_at`` for :func:`planner.windows.find_windows`: geometric (unrefracted) alt/az of a fixed star."""
+    """``sky_at`` for :func:`planner.visibility.windows.find_windows`: geometric (unrefracted) alt/az of a fixed star."""
     eph = planets()
     star = Star(ra_hours=ra_deg / 15.0, dec_degrees=dec_deg)
     by_name = {s.name: s for s in sites}

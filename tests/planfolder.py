@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from planner.diagnostics import check_times
+from planner.diagnostics.check import check_times
 
 SITES = [
     # name, latitude, east longitude, UTC offset (h)
@@ -81,7 +81,6 @@ def make_plan_folder(
     out: Path,
     target_name: str = "Demo comet 2034 Q1",
     site_names: list[str] | None = None,
-    notes: str = "hand-made fixture",
 ) -> Path:
     """Write a plan folder at ``out`` and return it."""
     out.mkdir(parents=True, exist_ok=True)
@@ -177,13 +176,13 @@ def make_plan_folder(
                         hours=round((b1 - b0).total_seconds() / 3600, 4),
                         solar_elong_deg=118.5,
                         sun_alt_max_deg=float(sun_alt[(times >= b0) & (times <= b1)].max()),
+                        cautions="twilight" if float(sun_alt[(times >= b0) & (times <= b1)].max()) > -12 else "",
                     )
                 )
     pd.concat(geom_rows).to_csv(out / "geometry.csv", index=False)
     pd.DataFrame(win_rows).to_csv(out / "windows.csv", index=False)
     plan = pd.DataFrame(plan_rows)
     plan.to_csv(out / "plan.csv", index=False)
-    (out / "plan.json").write_text(plan.to_json(orient="records", indent=1))
     pd.DataFrame(base_rows).to_csv(out / "baseline.csv", index=False)
 
     # objective and robustness in the scheduler's shape (values invented).
@@ -203,13 +202,20 @@ def make_plan_folder(
         },
     }
     (out / "diagnostics.json").write_text(json.dumps(diag, indent=1, allow_nan=False))
-    site_list = ", ".join(json.dumps(f"sites/{_slug(s[0])}.toml") for s in sites)
-    (out / "campaign.toml").write_text(
-        f'name = {json.dumps(target_name + " week")}\ntarget = "targets/fixture.toml"\n'
-        f"sites = [{site_list}]\n"
-        f'first_night = "{NIGHTS[0]}"\nnights = {len(NIGHTS)}\nseed = 1\nnotes = {json.dumps(notes)}\n\n'
-        "[rotation]\nmin_period_h = 2.0\nmax_period_h = 30.0\ndouble_peaked = true\n"
-    )
+    # The manifest: what the report knows of the inputs (docs/formats.md, "plan.json").
+    zones = {2.0: "Africa/Johannesburg", 11.0: "Australia/Sydney"}
+    manifest = {
+        "schema_version": 2,
+        "phasewise_version": "fixture",
+        "campaign": {"name": target_name + " week", "first_night": NIGHTS[0], "nights": len(NIGHTS), "seed": 1},
+        "target": {"name": target_name, "kind": "comet"},
+        "sites": [{"name": s[0], "timezone": zones[s[3]], "latitude_deg": s[1], "longitude_deg": s[2],
+                   "min_alt_deg": 20.0, "min_solar_elong_deg": 30.0, "sheet": f"sheets/{_slug(s[0])}.txt"}
+                  for s in sites],
+        "settings": {"rotation": {"min_period_h": 2.0, "max_period_h": 30.0, "double_peaked": True}},
+        "blocks": json.loads(plan.to_json(orient="records")),
+    }
+    (out / "plan.json").write_text(json.dumps(manifest, indent=1))
     # The target file's copy (name only here): the report takes the target's name from it when present.
     (out / "target.toml").write_text(f"name = {json.dumps(target_name)}\n")
     (out / "sheets").mkdir(exist_ok=True)

@@ -7,11 +7,11 @@ from datetime import date, timedelta
 import numpy as np
 import pandas as pd
 
-from planner.campaign import Blocks, Weights
-from planner.objective import alias_freq_grid
-from planner.planstate import Done, PlanModel
-from planner.sites import Allocation, Site
-from planner.slots import build_slots
+from planner.inputs.settings import Blocks, Weights
+from planner.inputs.sites import Allocation, Site
+from planner.schedule.objective import alias_freq_grid
+from planner.schedule.slots import build_slots
+from planner.schedule.state import Done, PlanModel
 
 T_REF = np.datetime64("2034-03-15T00:00", "ns")
 
@@ -36,7 +36,7 @@ def synthetic_windows(n_sites: int, n_nights: int, window_h: float = 8.0, stagge
 
 
 def period_grid(min_h: float, max_h: float, n: int) -> np.ndarray:
-    """Trial periods uniform in frequency (test-local; the real grid is planner.coverage.period_grid_h)."""
+    """Trial periods uniform in frequency (test-local; the real grid is planner.diagnostics.coverage.period_grid_h)."""
     return 1.0 / np.linspace(1.0 / min_h, 1.0 / max_h, n)
 
 

@@ -7,7 +7,8 @@ import math
 import numpy as np
 import pytest
 
-from planner.brightness import (
+from planner.inputs.targets import Brightness
+from planner.sky.brightness import (
     LAW_HG,
     LAW_NONE,
     LAW_NUCLEAR,
@@ -17,7 +18,6 @@ from planner.brightness import (
     hg_mag,
     predicted_mag,
 )
-from planner.targets import Brightness
 
 
 def test_hg_matches_sbpy():

@@ -6,9 +6,9 @@ from datetime import date
 
 import pytest
 
-from planner.campaign import load_campaign
 from planner.cli import main
-from planner.errors import InputError
+from planner.core.errors import InputError
+from planner.inputs.campaign import load_campaign
 
 GOOD = """
 name = "t"

@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 
 from planner.cli import main
-from planner.errors import InputError
-from planner.obslog import read_observation_log
+from planner.core.errors import InputError
+from planner.inputs.obslog import read_observation_log
 
 
 def _write_log(path, hours, sites=None, extra=""):
@@ -61,7 +61,7 @@ def test_table_json_out_and_plots(single_log, tmp_path):
     assert d["settings"]["max_period_h"] == pytest.approx(30.0)
     assert d["input"]["n_times"] == 240 and d["input"]["sites"] == {"hilltop": 240}
     assert sorted(p.name for p in plots.iterdir()) == [
-        "check_coverage_map.png", "check_recovery.png", "check_spectral_window.png"]
+        "check_coverage_map.png", "check_recovery.png", "check_sensitivity.png", "check_spectral_window.png"]
     assert all(p.read_bytes()[:4] == b"\x89PNG" for p in plots.iterdir())
 
 
@@ -103,7 +103,7 @@ def test_read_log_defaults_and_order(tmp_path):
 
 
 def test_target_adds_geometric_trend_and_synodic_drift(root, tmp_path):
-    # The demo target through planner.ephemeris.geometry; the command reports the bisector motion.
+    # The demo target through planner.sky.geometry.geometry; the command reports the bisector motion.
     hours = np.concatenate([n * 24 + start + np.arange(20) / 4 for n in range(4) for start in (20, 4, 12)])
     log = tmp_path / "demo.csv"
     base = np.datetime64("2034-03-16T00:00", "s")
@@ -124,11 +124,11 @@ def test_missing_target_file_exit_2(capsys, single_log, tmp_path):
 
 
 def test_site_instruments_set_the_noise_where_the_log_is_silent(capsys, tmp_path, root):
-    # The log's own σ wins; elsewhere the site's CCD model (planner.photometry, Howell 2006 CCD equation)
+    # The log's own σ wins; elsewhere the site's CCD model (planner.photometry.tables, Howell 2006 CCD equation)
     # gives it; only points without a prediction (target down, Sun up) fall back to --mag-err.
-    from planner.photometry import mag_err_for_times
-    from planner.sites import load_site
-    from planner.targets import load_target
+    from planner.inputs.sites import load_site
+    from planner.inputs.targets import load_target
+    from planner.photometry.tables import mag_err_for_times
 
     target = root / "demo_targets/c2034-b3-quillfeather.toml"
     site_file = root / "sites/karoo-ridge.toml"

@@ -7,7 +7,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.coverage import (
+from planner.diagnostics.coverage import (
     period_grid_h,
     phase_bin_index,
     phase_coverage,

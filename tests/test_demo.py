@@ -6,8 +6,8 @@ import pytest
 from browser import Browser, find_chromium
 from test_report import FIGURE_IDS, _assert_numbers_match, _parse
 
+from planner.core.errors import InputError
 from planner.demo import DEMO_MARKER, check_demo_folder
-from planner.errors import InputError
 
 
 def test_demo_refuses_a_foreign_folder_and_accepts_its_own(tmp_path):
@@ -31,7 +31,6 @@ def test_demo_refuses_a_foreign_folder_and_accepts_its_own(tmp_path):
 
 @pytest.fixture(scope="module")
 def demo_dir(tmp_path_factory):
-    pytest.importorskip("planner.schedule", reason="the scheduler (plan_campaign) has not landed yet")
     from planner.demo import run_demo
 
     out = tmp_path_factory.mktemp("demo") / "phasewise-demo"

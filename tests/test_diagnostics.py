@@ -7,7 +7,7 @@ import json
 import numpy as np
 import pytest
 
-from planner.diagnostics import VERDICTS, check_times
+from planner.diagnostics.check import VERDICTS, check_times
 
 BASE = np.datetime64("2034-03-10T00:00", "ns")
 
@@ -95,7 +95,7 @@ def test_json_has_the_documented_keys_and_no_nan(single):
 
 
 def test_geometry_arrays_give_trend_and_synodic_drift():
-    # synthetic geometry (the contract of planner.ephemeris.geometry): bisector longitude
+    # synthetic geometry (the contract of planner.sky.geometry.geometry): bisector longitude
     # moving 2°/day; Harris et al. (1984): offset = ω P², here (2/360)(P/24 d)² in days.
     times = multi_site(6)
     days = (times - times[0]).astype("timedelta64[s]").astype(float) / 86400
@@ -136,9 +136,9 @@ def test_too_few_times_is_reported_not_crashed():
 
 
 def test_real_target_geometry_path(root):
-    # Once the geometry module is present: the demo target through planner.ephemeris.geometry.
-    pytest.importorskip("planner.ephemeris")
-    from planner.targets import load_target
+    # Once the geometry module is present: the demo target through planner.sky.geometry.geometry.
+    pytest.importorskip("planner.sky.geometry")
+    from planner.inputs.targets import load_target
 
     path = root / "demo_targets" / "c2034-b3-quillfeather.toml"
     if not path.exists():
@@ -153,7 +153,7 @@ def test_real_target_geometry_path(root):
 def test_alias_failures_tell_sampling_from_noise():
     # f = 2 c/d with window peaks at 1 c/d: a winner at 3 c/d (f + 1) or 1.5 c/d (2f − 1, fitted
     # as the 2nd harmonic of 1.5) is an alias; 4.37 c/d is not (VanderPlas 2018, §4).
-    from planner.diagnostics import alias_failures
+    from planner.diagnostics.aliases import alias_failures
 
     true = np.array([2.0, 2.0, 2.0, 2.0])
     found = np.array([3.0, 1.5, 4.37, 1.0])

@@ -12,7 +12,10 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from planner.ephemeris import (
+from planner.core.errors import InputError
+from planner.inputs.sites import Site
+from planner.inputs.targets import Brightness, Orbit, Target
+from planner.sky.geometry import (
     KM_PER_ARCSEC_AT_1AU,
     airmass,
     geometry,
@@ -20,9 +23,6 @@ from planner.ephemeris import (
     safety_warning,
     sun_alt_deg,
 )
-from planner.errors import InputError
-from planner.sites import Site
-from planner.targets import Brightness, Orbit, Target
 
 GM = 0.01720209895 ** 2  # Gauss's constant squared (IAU 1976), au^3/day^2
 C_AU_D = 299792.458 * 86400 / 149597870.700  # IAU 2009 c, IAU 2012 B2 au
@@ -216,7 +216,7 @@ def test_phase_angle_elongation_and_sunward_pa_by_independent_formulas():
     from astropy import units as u
     from astropy.coordinates import SkyCoord
 
-    from planner.skydata import planets, utc_times
+    from planner.sky.skydata import planets, utc_times
 
     frame = geometry(_target(2.5, 1.2, 2464000.5), TIMES)["geocentre"]
     st = utc_times(TIMES)
@@ -252,7 +252,7 @@ def test_sky_motion_matches_finite_differences():
 def test_phase_angle_bisector_halves_the_phase_angle():
     # Harris et al. (1984), Icarus 57, 251: the bisector makes α/2 with both the heliocentric and the
     # observer-centred directions of the target.
-    from planner.ephemeris import phase_angle_bisector_deg
+    from planner.sky.geometry import phase_angle_bisector_deg
 
     helio = np.array([[1.2, -0.4, 0.3]])
     obs_to_target = np.array([[0.3, 0.5, -0.2]])
@@ -290,8 +290,8 @@ def test_airmass_kasten_young():
 
 def test_low_elongation_is_flagged_with_a_caution():
     # A target placed close to the Sun in the sky (elongation ~ 20°) on the demo dates.
-    from planner.kepler import orbit_from_state
-    from planner.skydata import planets, utc_times
+    from planner.sky.kepler import orbit_from_state
+    from planner.sky.skydata import planets, utc_times
 
     st = utc_times(TIMES[:1])
     earth = planets()["earth"].at(st).position.au[:, 0] - planets()["sun"].at(st).position.au[:, 0]

@@ -5,11 +5,11 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from planner.errors import InputError
-from planner.fileio import write_text_atomic
-from planner.skydata import utc_times
-from planner.timegrid import from_jd_utc, parse_duration_s, parse_utc, time_grid, to_jd_utc
-from planner.tomlfile import Fields, read_toml
+from planner.core.errors import InputError
+from planner.core.fileio import write_text_atomic
+from planner.core.timegrid import from_jd_utc, parse_duration_s, parse_utc, time_grid, to_jd_utc
+from planner.core.tomlfile import Fields, read_toml
+from planner.sky.skydata import utc_times
 
 
 @pytest.mark.parametrize("text, seconds", [("30s", 30), ("5m", 300), ("1h", 3600), ("1.5h", 5400), ("1d", 86400)])
@@ -94,7 +94,7 @@ def test_atomic_write_keeps_the_old_file_on_failure(tmp_path, monkeypatch):
     def boom(*a, **k):
         raise OSError("disk full")
 
-    monkeypatch.setattr("planner.fileio.os.replace", boom)
+    monkeypatch.setattr("planner.core.fileio.os.replace", boom)
     with pytest.raises(OSError):
         write_text_atomic(p, "half")
     assert p.read_text() == "good\n"

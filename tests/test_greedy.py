@@ -12,10 +12,10 @@ import itertools
 import numpy as np
 import pytest
 
-from planner.campaign import Blocks
-from planner.exact import exact_coverage
-from planner.greedy import greedy_lazy, greedy_plain, merge_elements
-from planner.objective import arc_mask_slow, pack_cells
+from planner.inputs.settings import Blocks
+from planner.schedule.exact import exact_coverage
+from planner.schedule.greedy import greedy_lazy, greedy_plain, merge_elements
+from planner.schedule.objective import arc_mask_slow, pack_cells
 from tests.schedule_helpers import model_for
 
 SMALL = Blocks(slot_min=15, min_block_h=1.0, max_block_h=4.0, setup_min=15, max_per_night=2)

@@ -6,7 +6,7 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.intervals import refine_edge_slow, refine_edges, true_runs, true_runs_slow
+from planner.visibility.intervals import refine_edge_slow, refine_edges, true_runs, true_runs_slow
 
 T0 = np.datetime64("2034-03-16T00:00:00", "ns")
 

@@ -10,15 +10,15 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.kepler import (
-    GM_SUN_AU3_D2,
+from planner.core.constants import GM_SUN_AU3_D2
+from planner.inputs.targets import Orbit
+from planner.sky.kepler import (
     orbit_from_state,
     propagate,
     propagate_reference,
     propagate_state,
     stumpff,
 )
-from planner.targets import Orbit
 
 T0 = 2462000.5  # an epoch in 2028, TDB
 
@@ -45,7 +45,7 @@ def _skyfield_heliocentric(orbit: Orbit, tdb_jd: np.ndarray) -> np.ndarray:
     from skyfield.data.spice import inertial_frames
     from skyfield.keplerlib import _KeplerOrbit as KeplerOrbit
 
-    from planner.skydata import timescale
+    from planner.sky.skydata import timescale
 
     ts = timescale()
     e, q = orbit.eccentricity, orbit.perihelion_dist_au

@@ -1,4 +1,4 @@
-"""Every site-night gets a line: its blocks, or why it has none (planner.nightnotes)."""
+"""Every site-night gets a line: its blocks, or why it has none (planner.schedule.nightnotes)."""
 
 from __future__ import annotations
 
@@ -9,10 +9,11 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from planner.campaign import Blocks, Campaign, Rotation, Weights
-from planner.nightnotes import night_notes
-from planner.planstate import PlanState, Visit
-from planner.schedule import schedule_core
+from planner.inputs.campaign import Campaign
+from planner.inputs.settings import Blocks, Rotation, Weights
+from planner.pipeline import schedule_core
+from planner.schedule.nightnotes import night_notes
+from planner.schedule.state import PlanState, Visit
 from tests.schedule_helpers import T_REF, synthetic_windows
 
 BLOCKS = Blocks(slot_min=10, min_block_h=1.0, max_block_h=3.0, setup_min=10, max_per_night=2)

@@ -20,15 +20,15 @@ import pytest
 from skyfield import almanac
 from skyfield.api import wgs84
 
-from planner.nights import (
+from planner.inputs.sites import TWILIGHT_SUN_ALT_DEG, Site
+from planner.sky.skydata import planets, timescale
+from planner.visibility.nights import (
     SUNRISE_SUN_ALT_DEG,
     dark_intervals,
     night_bounds_utc,
     spans_grid,
     sun_below_intervals,
 )
-from planner.sites import TWILIGHT_SUN_ALT_DEG, Site
-from planner.skydata import planets, timescale
 
 LATITUDES = (0.0, 30.0, -30.0, 50.0, -50.0, 65.0, -65.0)
 FIRST = date(2034, 3, 16)

@@ -7,7 +7,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.objective import (
+from planner.schedule.objective import (
     alias_freq_grid,
     arc_mask,
     arc_mask_slow,

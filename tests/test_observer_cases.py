@@ -17,11 +17,12 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from planner.campaign import load_campaign
 from planner.cli import main
-from planner.diagnostics import repeated_times
-from planner.errors import InputError
-from planner.targets import load_target
+from planner.core.errors import InputError
+from planner.diagnostics.check import repeated_times
+from planner.inputs.campaign import load_campaign
+from planner.inputs.donelog import read_done_log
+from planner.inputs.targets import load_target
 
 ORBITS = Path(__file__).parent / "data" / "observer_orbits.txt"
 
@@ -167,12 +168,13 @@ def test_output_piped_into_head_is_quiet(monkeypatch):
 # --- a target near the Sun ----------------------------------------------------------------------
 
 def test_plan_of_a_target_always_near_the_sun_says_why(tmp_path):
-    from planner.schedule import plan_campaign
+    from planner.pipeline import plan_campaign
 
     # In mid-June the invented comet is 12° from the Sun (geocentric), below the 30° default limit.
     path = _campaign(tmp_path, "2034-06-10", "Wrenfield", ("south.toml", SOUTH))
     with pytest.raises(InputError) as err:
-        plan_campaign(load_campaign(path))
+        campaign = load_campaign(path)
+        plan_campaign(campaign, campaign.load_target())
     assert "Sierra Sur: too close to the Sun" in err.value.message
     assert "(" not in err.value.message.split("Sierra Sur:")[1]  # the long caution is left to `windows`
 
@@ -207,17 +209,18 @@ def test_plan_near_the_sun_keeps_the_limit_and_warns_everywhere(tmp_path, capsys
     sheet = (out_dir / "sheets" / "desert-mesa.txt").read_text()
     assert "target: C/2034 K2 (Wrenfield) (file orbits.txt)" in sheet
     assert "CAUTION: target only" in sheet and "from the Sun" in sheet
-    assert json.loads((out_dir / "plan.json").read_text())["target"] == "C/2034 K2 (Wrenfield)"
+    assert json.loads((out_dir / "plan.json").read_text())["target"]["name"] == "C/2034 K2 (Wrenfield)"
     assert "Campaign report: C/2034 K2 (Wrenfield)" in (out_dir / "report.html").read_text()
     # Birch Hill has no window at all: its night charts still span each local noon-to-noon night
     # (BST = UTC+1 in July: EU summer time, Directive 2000/84/EC), on its own clock.
-    from planner.report import sheet_utc_offset_h
+    from planner.outputs.reader import load_plan_folder
 
     geo = pd.read_csv(out_dir / "geometry.csv")
     times = pd.to_datetime(geo.loc[geo["site"] == "Birch Hill", "time_utc"])
     assert times.min() <= pd.Timestamp("2034-07-12T11:00Z") and times.max() >= pd.Timestamp("2034-07-15T11:00Z")
-    assert sheet_utc_offset_h(out_dir, "Birch Hill", "2034-07-12") == 1.0
-    assert sheet_utc_offset_h(out_dir, "Desert Mesa", "2034-07-12") == -7.0  # Arizona keeps MST all year
+    folder = load_plan_folder(out_dir)  # the manifest names each site's time zone
+    assert folder.utc_offset_h("Birch Hill", "2034-07-12") == 1.0
+    assert folder.utc_offset_h("Desert Mesa", "2034-07-12") == -7.0  # Arizona keeps MST all year
     # The windows table marks the Sun caution on the nights without a window as well.
     code, out, _ = call(capsys, "windows", "--target", str(tmp_path / "orbits.txt"), "--object", "Wrenfield",
                         "--site", str(tmp_path / "north.toml"), "--start", "2034-07-12", "--nights", "1")
@@ -226,7 +229,7 @@ def test_plan_near_the_sun_keeps_the_limit_and_warns_everywhere(tmp_path, capsys
 
 
 def test_night_chart_with_a_long_reason_keeps_its_layout():
-    from planner import plots
+    from planner.outputs import figures_sky as plots
 
     t = np.arange(np.datetime64("2034-07-12T12:00"), np.datetime64("2034-07-13T12:00"), np.timedelta64(10, "m"))
     hours = (t - t[0]) / np.timedelta64(1, "h")
@@ -266,7 +269,7 @@ def test_check_notes_repeated_rows(tmp_path, capsys):
 # --- a site without an instrument in the plan's diagnostics ----------------------------------------
 
 def test_stacked_points_without_sigma_stay_unknown_quietly():
-    from planner.blocktable import binned_points
+    from planner.schedule.blocktable import binned_points
 
     t_ref = np.datetime64("2034-06-12T00:00:00", "ns")
     t = t_ref + (np.tile(np.arange(4), 2) * 60 + 30).astype("timedelta64[s]").astype("timedelta64[ns]")
@@ -305,13 +308,14 @@ def test_check_report_of_three_points(tmp_path, capsys):
 
 
 def test_log_ending_after_the_campaign_says_so(tmp_path):
-    from planner.schedule import plan_campaign
+    from planner.pipeline import plan_campaign
 
     path = _campaign(tmp_path, "2034-06-10", "qa1", ("south.toml", SOUTH))
     log = tmp_path / "late.csv"
     log.write_text("time_utc,site\n2034-07-01T02:00:00Z,Sierra Sur\n")
     with pytest.raises(InputError) as err:
-        plan_campaign(load_campaign(path), log)
+        campaign = load_campaign(path)
+        plan_campaign(campaign, campaign.load_target(), read_done_log(log, campaign.sites))
     assert "the observation log runs to 2034-07-01T02:00Z, after the campaign's last window" in err.value.message
 
 

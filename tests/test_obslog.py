@@ -8,10 +8,10 @@ import numpy as np
 import pytest
 
 from planner.cli import main
-from planner.errors import InputError
-from planner.obslog import read_observation_log
-from planner.replan import read_done_log
-from planner.sites import Site
+from planner.core.errors import InputError
+from planner.inputs.donelog import read_done_log
+from planner.inputs.obslog import read_observation_log
+from planner.inputs.sites import Site
 
 HEADER = "time_utc,site,exposure_s,mag_err,status,night"
 

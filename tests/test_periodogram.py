@@ -8,7 +8,7 @@ from astropy.timeseries import LombScargle
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.periodogram import (
+from planner.diagnostics.periodogram import (
     best_frequencies,
     multiharmonic_power,
     multiharmonic_power_slow,

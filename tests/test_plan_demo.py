@@ -11,28 +11,24 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from planner.campaign import load_campaign
 from planner.cli import main
-from planner.errors import InputError
-from planner.planfiles import write_plan_folder
-from planner.replan import read_done_log
-from planner.schedule import plan_campaign, schedule_core
+from planner.core.errors import InputError
+from planner.inputs.donelog import read_done_log
+from planner.outputs.planfolder import write_plan_folder
+from planner.schedule.solve import schedule_core
 
 
-@pytest.fixture(scope="module")
-def demo(request):
-    from tests.conftest import ROOT
-
-    campaign = load_campaign(ROOT / "demo_targets" / "demo-campaign.toml")
-    return campaign, plan_campaign(campaign)
+@pytest.fixture
+def demo(demo_plan):
+    return demo_plan
 
 
 def test_demo_plan_beats_the_baseline_on_worst_coverage_and_highest_alias(demo):
     _, r = demo
     c = r.comparison
     # Measured by the independent `check` diagnostics on the planned exposure times.
-    assert c["worst_period_coverage"]["plan"] > c["worst_period_coverage"]["baseline"]
-    assert c["highest_alias"]["plan"] < c["highest_alias"]["baseline"]
+    assert c.worst_period_coverage[0] > c.worst_period_coverage[1]
+    assert c.highest_alias[0] < c.highest_alias[1]
     # Same telescope time for both (the baseline's definition).
     assert r.blocks["hours"].sum() == pytest.approx(r.baseline["hours"].sum())
 
@@ -97,7 +93,7 @@ def _run(args) -> int:
 
 def test_plan_command_prints_the_table_and_comparison(demo, tmp_path, capsys, monkeypatch):
     campaign, r = demo
-    monkeypatch.setattr("planner.schedule.plan_campaign", lambda *a, **k: r)
+    monkeypatch.setattr("planner.pipeline.plan_campaign", lambda *a, **k: r)
     assert _run(["plan", str(campaign.path), "--out", str(tmp_path / "p")]) == 0
     out = capsys.readouterr().out
     assert "worst-period phase coverage" in out and "highest spectral-window alias" in out
@@ -184,11 +180,11 @@ def test_greedy_against_exact_on_a_demo_sub_instance(demo, record_property):
                                blocks=dataclasses.replace(campaign.blocks, slot_min=15),
                                rotation=dataclasses.replace(campaign.rotation, oversample=1.0, phase_bins=10))
     core = schedule_core(camp, w, max_evaluations=0, exact=True, exact_time_limit_s=30)
-    ex = core.objective["exact"]
-    assert ex["optimal"]
-    assert ex["greedy_ratio"] >= core.objective["guarantee"]["ratio"]
-    record_property("demo_sub_instance_greedy_over_exact", ex["greedy_ratio"])
-    print(f"greedy/exact on the demo sub-instance: {ex['greedy_ratio']:.4f}")
+    ex = core.objective.exact
+    assert ex.result.optimal
+    assert ex.greedy_ratio >= core.objective.guarantee_ratio
+    record_property("demo_sub_instance_greedy_over_exact", ex.greedy_ratio)
+    print(f"greedy/exact on the demo sub-instance: {ex.greedy_ratio:.4f}")
 
 
 def test_a_failure_while_writing_leaves_the_old_plan_untouched(demo, tmp_path, monkeypatch):
@@ -200,7 +196,7 @@ def test_a_failure_while_writing_leaves_the_old_plan_untouched(demo, tmp_path, m
     def broken(*args, **kwargs):
         raise RuntimeError("disk full")
 
-    monkeypatch.setattr("planner.planfiles.site_sheet", broken)
+    monkeypatch.setattr("planner.outputs.planfolder.site_sheet", broken)
     with pytest.raises(RuntimeError):
         write_plan_folder(r, out, force=True)
     assert sorted(p.name for p in out.iterdir()) == ["plan.csv"]
@@ -217,7 +213,7 @@ def test_demo_uses_granted_time_at_low_airmass_and_explains_every_night(demo, tm
     # Granted time is used unless a note says why not (here it all is: the quality term rewards it).
     assert (per_site["planned_h"] >= per_site["budget_h"] - 1e-9).all()
     # Photometrists keep X below ~2 where they can (common practice): the demo windows allow it.
-    assert r.blocks["airmass_max"].max() <= campaign.max_airmass + 0.02
+    assert r.blocks["airmass_max"].max() <= campaign.photometry.max_airmass + 0.02
     out = write_plan_folder(r, tmp_path / "plan")
     nights = pd.read_csv(out / "nights.csv")
     assert list(nights.columns)[:3] == ["site", "night", "blocks"]

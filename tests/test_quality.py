@@ -1,4 +1,4 @@
-"""Slot quality (planner.quality) and the objective's preference for precise, low-airmass time.
+"""Slot quality (planner.schedule.quality) and the objective's preference for precise, low-airmass time.
 
 Sources: Bouguer's extinction law m = m0 + k·X (e.g. Sterken & Manfroid 1992, Astronomical
 Photometry: A Guide, ch. 4; from memory), so an error δk in the extinction coefficient leaves δk·X
@@ -17,13 +17,13 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.campaign import Blocks, Weights
-from planner.ephemeris import airmass
-from planner.greedy import greedy_lazy, greedy_plain
-from planner.objective import arc_mask_slow, pack_cells
-from planner.optimise import optimise
-from planner.planstate import PlanModel, PlanState, Visit
-from planner.quality import point_sigma_mag, slot_quality, slot_quality_slow
+from planner.inputs.settings import Blocks, Weights
+from planner.schedule.greedy import greedy_lazy, greedy_plain
+from planner.schedule.objective import arc_mask_slow, pack_cells
+from planner.schedule.optimise import optimise
+from planner.schedule.quality import point_sigma_mag, slot_quality, slot_quality_slow
+from planner.schedule.state import PlanModel, PlanState, Visit
+from planner.sky.geometry import airmass
 from tests.schedule_helpers import model_for
 
 SMALL = Blocks(slot_min=15, min_block_h=1.0, max_block_h=4.0, setup_min=15, max_per_night=2)

@@ -24,11 +24,12 @@ from browser import Browser, find_chromium
 from matplotlib.image import imread
 from planfolder import make_plan_folder
 
-from planner import plots
 from planner.cli import main
-from planner.diagnostics import check_times
-from planner.errors import InputError
-from planner.report import load_plan_folder, render_check_report, render_report, utc_offset_h, write_report
+from planner.core.errors import InputError
+from planner.diagnostics.check import check_times
+from planner.outputs import figstyle, figures_sky
+from planner.outputs.reader import load_plan_folder, utc_offset_h
+from planner.outputs.report import render_check_report, render_report, write_report
 
 FIGURE_IDS = [
     "fig-geometry",
@@ -57,7 +58,6 @@ def markup_dir(tmp_path_factory) -> Path:
         tmp_path_factory.mktemp("markup"),
         target_name=MARKUP_TARGET,
         site_names=[MARKUP_SITE, "Gum </td></tr></table> Flat"],
-        notes="<i>notes</i> & more",
     )
     write_report(d)
     return d
@@ -172,7 +172,6 @@ def test_markup_in_names_is_shown_as_text(markup_dir):
     assert "script" not in parsed.tags
     assert "<b onclick" not in text and '<img src="http://example.invalid' not in text
     assert "&lt;script&gt;" in text and "&lt;img src=&quot;http://example.invalid" in text
-    assert "&lt;i&gt;notes&lt;/i&gt; &amp; more" in text
     # Structure survives a site name that tries to close the table.
     assert parsed.figures == FIGURE_IDS
 
@@ -362,9 +361,9 @@ def test_coverage_map_bins_are_the_checks_own(plan_dir):
     diag = json.loads((plan_dir / "diagnostics.json").read_text())
     for kind in ("plan", "baseline"):
         check = diag[kind]
-        times = plots.check_times_utc(check, np.array([], dtype="datetime64[ns]"))
+        times = figstyle.check_times_utc(check, np.array([], dtype="datetime64[ns]"))
         assert times.size == check["input"]["n_times"]
-        occupied = plots.phase_occupancy(times, np.array(check["periods_h"]), check["settings"]["phase_bins"])
+        occupied = figstyle.phase_occupancy(times, np.array(check["periods_h"]), check["settings"]["phase_bins"])
         np.testing.assert_allclose(occupied.mean(axis=1), check["coverage"], atol=1e-12)
         assert 0 < occupied.mean() < 1
 
@@ -373,7 +372,7 @@ def test_phase_occupancy_by_hand():
     # Times at 0, 1.2, 2.2 and 3.2 h (phase zero at the first) folded on a 4 h period with 4 bins fill
     # every bin; on 8 h (bins of 2 h) only the first two.
     t = np.datetime64("2034-03-16T20:00", "ns") + np.array([0, 72, 132, 192]) * np.timedelta64(1, "m")
-    occ = plots.phase_occupancy(t, np.array([4.0, 8.0]), 4)
+    occ = figstyle.phase_occupancy(t, np.array([4.0, 8.0]), 4)
     assert occ[0].tolist() == [True, True, True, True]
     assert occ[1].tolist() == [True, True, False, False]
 
@@ -381,7 +380,7 @@ def test_phase_occupancy_by_hand():
 def test_darkness_levels_follow_the_twilight_definitions():
     # Explanatory Supplement (Urban & Seidelmann 2013): civil −6°, nautical −12°, astronomical −18°;
     # sunrise/sunset at −0.833° (upper limb with standard refraction).
-    idx = plots._darkness_index(np.array([10.0, -0.5, -3.0, -6.5, -12.5, -18.5, -40.0]))
+    idx = figures_sky._darkness_index(np.array([10.0, -0.5, -3.0, -6.5, -12.5, -18.5, -40.0]))
     assert idx.tolist() == [0, 0, 1, 2, 3, 4, 4]
 
 

@@ -6,12 +6,12 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from planner.baseline import baseline_visits
-from planner.campaign import Blocks
-from planner.localsearch import fits
-from planner.optimise import optimise, total_slots
-from planner.planstate import Done, PlanState, Visit
-from planner.robustness import weather_monte_carlo
+from planner.inputs.settings import Blocks
+from planner.schedule.baseline import baseline_visits
+from planner.schedule.localsearch import fits
+from planner.schedule.optimise import optimise, total_slots
+from planner.schedule.robustness import weather_monte_carlo
+from planner.schedule.state import Done, PlanState, Visit
 from tests.schedule_helpers import T_REF, model_for
 
 BLOCKS = Blocks(slot_min=5, min_block_h=1.0, max_block_h=3.0, setup_min=10, max_per_night=2)
@@ -59,8 +59,8 @@ def test_every_visit_respects_windows_allocation_and_block_rules(seed):
 
 
 def test_fixed_block_allocation_is_respected():
-    from planner.sites import Allocation
-    from planner.slots import build_slots
+    from planner.inputs.sites import Allocation
+    from planner.schedule.slots import build_slots
     from tests.schedule_helpers import synthetic_windows
 
     w, sites = synthetic_windows(1, 2, window_h=8.0, hours_per_night=None)
@@ -130,8 +130,8 @@ def test_weather_monte_carlo_agrees_with_the_closed_form_expectation():
 
 
 def test_all_clear_weather_reproduces_the_plain_coverage():
-    from planner.sites import Allocation, Site
-    from planner.slots import build_slots
+    from planner.inputs.sites import Allocation, Site
+    from planner.schedule.slots import build_slots
     from tests.schedule_helpers import synthetic_windows
 
     w, _ = synthetic_windows(2, 2)

@@ -9,7 +9,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.sensitivity import (
+from planner.diagnostics.sensitivity import (
     fading_rate_sigma,
     fading_rate_sigma_slow,
     frequency_sigma,

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 from astropy.timeseries import LombScargle
 
-from planner.simulate import (
+from planner.diagnostics.recovery import (
     classify_matches,
     injection_recovery,
     search_frequencies_per_day,

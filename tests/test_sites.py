@@ -8,8 +8,8 @@ import sys
 import numpy as np
 import pytest
 
-from planner.errors import InputError
-from planner.sites import Site, load_site
+from planner.core.errors import InputError
+from planner.inputs.sites import Site, load_site
 
 GOOD = """
 name = "Test Ridge"

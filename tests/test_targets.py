@@ -10,9 +10,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from planner.errors import InputError
-from planner.kepler import GM_SUN_AU3_D2, propagate
-from planner.targets import load_target
+from planner.core.constants import GM_SUN_AU3_D2
+from planner.core.errors import InputError
+from planner.inputs.targets import load_target
+from planner.sky.kepler import propagate
 
 DATA = Path(__file__).parent / "data"
 
@@ -144,7 +145,7 @@ def _skyfield_comet(line: str):
     from skyfield.constants import AU_KM, DAY_S
     from skyfield.data import mpc
 
-    from planner.skydata import timescale
+    from planner.sky.skydata import timescale
 
     df = mpc.load_comets_dataframe(io.BytesIO((line + "\n").encode()))
     return mpc.comet_orbit(df.iloc[0], timescale(), GM_SUN_AU3_D2 * AU_KM ** 3 / DAY_S ** 2), df.iloc[0]
@@ -153,7 +154,7 @@ def _skyfield_comet(line: str):
 def test_mpc_comet_lines_match_skyfield_parser_and_orbit():
     # Independent route: skyfield.data.mpc parses the same MPC comet layout and builds its own Kepler
     # orbit; heliocentric positions must agree (<= 1e-8 au, issue 2).
-    from planner.skydata import timescale
+    from planner.sky.skydata import timescale
 
     ts = timescale()
     lines = (DATA / "mpc_comets.txt").read_text().splitlines()
@@ -175,7 +176,7 @@ def test_mpc_minor_planet_lines_match_skyfield_parser_and_orbit():
     from skyfield.constants import AU_KM, DAY_S
     from skyfield.data import mpc
 
-    from planner.skydata import timescale
+    from planner.sky.skydata import timescale
 
     ts = timescale()
     df = mpc.load_mpcorb_dataframe(io.BytesIO((DATA / "mpc_minor_planets.txt").read_bytes()))

@@ -9,9 +9,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.window import (
-    alias_height,
-    alias_partners,
+from planner.diagnostics.aliases import alias_height, alias_partners
+from planner.diagnostics.specwindow import (
     nyquist_freq_per_day,
     nyquist_freq_per_day_slow,
     spectral_window,

@@ -23,11 +23,11 @@ from fixed_sky import fixed_star_sky
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.intervals import true_runs
-from planner.nights import dark_intervals, night_bounds_utc
-from planner.sites import Allocation, Site
-from planner.timegrid import time_grid
-from planner.windows import find_windows, limit_masks, moon_limit_deg
+from planner.core.timegrid import time_grid
+from planner.inputs.sites import Allocation, Site
+from planner.visibility.intervals import true_runs
+from planner.visibility.nights import dark_intervals, night_bounds_utc
+from planner.visibility.windows import find_windows, limit_masks, moon_limit_deg
 
 SIDEREAL_H_PER_SOLAR_H = 0.99727  # (common practice; 86164.1 s sidereal day / 86400 s)
 
@@ -209,10 +209,10 @@ def test_demo_comet_windows_match_astroplan_with_its_ephemeris(root):
     from astropy.coordinates import EarthLocation, SkyCoord, get_body
     from astropy.time import Time
 
-    from planner.ephemeris import geometry
-    from planner.sites import load_site
-    from planner.targets import load_target
-    from planner.windows import observable_windows
+    from planner.inputs.sites import load_site
+    from planner.inputs.targets import load_target
+    from planner.sky.geometry import geometry
+    from planner.visibility.windows import observable_windows
 
     site = load_site(root / "sites" / "karoo-ridge.toml")
     target = load_target(root / "demo_targets" / "c2034-b3-quillfeather.toml")
@@ -266,7 +266,7 @@ def test_command_table_csv_json_and_atomic_out(root, tmp_path):
     assert len(df) == 4 and df["start_utc"].str.endswith("Z").all()
     # Both sites have an instrument, so each window carries its exposure plan: whole exposures of exposure_s
     # plus readout that fit the night's budget after one block overhead (planner/sites.py Instrument).
-    from planner.sites import load_site
+    from planner.inputs.sites import load_site
 
     for _, w in df.iterrows():
         inst = load_site(root / ("sites/kahili-summit.toml" if w["site"] == "Kahili Summit"

@@ -9,8 +9,8 @@ from typing import Annotated
 
 import typer
 
-from planner.errors import InputError
-from planner.timegrid import parse_duration_s
+from planner.core.errors import InputError
+from planner.core.timegrid import parse_duration_s
 
 
 def _hours(text: str, field: str) -> float:
@@ -185,9 +185,9 @@ def register(app: typer.Typer) -> None:
         = None,
     ) -> None:
         """Coverage, alias and trend diagnostics for a list of observation times."""
-        from planner.diagnostics import check_times
-        from planner.fileio import write_text_atomic
-        from planner.obslog import read_observation_log
+        from planner.core.fileio import write_text_atomic
+        from planner.diagnostics.check import check_times
+        from planner.inputs.obslog import read_observation_log
 
         if fmt not in ("table", "json"):
             raise InputError("command line", "--format", f"{fmt!r}: choose table or json")
@@ -199,19 +199,19 @@ def register(app: typer.Typer) -> None:
             raise InputError(str(times_csv), "status", f"no observed rows to check ({len(log.lost)} lost rows only)")
         tgt = None
         if target is not None:
-            from planner.targets import load_target
+            from planner.inputs.targets import load_target
 
             tgt = load_target(target, object_name)
         sites = []
         if site:
-            from planner.sites import load_site
+            from planner.inputs.sites import load_site
 
             if tgt is None:
                 raise InputError("command line", "--site", "needs --target: the noise model needs its brightness")
             sites = [load_site(p) for p in site]
             if log.site is None and len(sites) > 1:
                 raise InputError("command line", "--site", "the log has no site column, so give exactly one --site")
-        from planner.photometry import log_mag_err
+        from planner.photometry.tables import log_mag_err
 
         err, err_sources = log_mag_err(tgt, log.times_utc, log.site, sites, logged_mag_err=log.mag_err,
                                        exposure_s=log.exposure_s, fallback_mag_err=mag_err)
@@ -233,11 +233,11 @@ def register(app: typer.Typer) -> None:
         d["input"]["mag_err_sources"] = err_sources
         text = json.dumps(d, indent=1, allow_nan=False) + "\n" if fmt == "json" else render_table(d)
         if plot is not None:
-            from planner.plots_check import write_check_plots
+            from planner.outputs.figures_diag import write_check_plots
 
             write_check_plots(d, plot)
         if report is not None:
-            from planner.report import render_check_report
+            from planner.outputs.report import render_check_report
 
             write_text_atomic(report, render_check_report(d, title=f"Sampling check: {times_csv.name}",
                                                           source=str(times_csv)))

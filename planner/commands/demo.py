@@ -25,7 +25,7 @@ def register(app: typer.Typer) -> None:
         """Plan the bundled demo campaign (invented comet, four invented sites, one week), check it and
         write the plan folder with its HTML report."""
         from planner.demo import run_demo
-        from planner.planfiles import comparison_text, night_table
+        from planner.outputs.terminal import comparison_text, night_table
 
         r = run_demo(out)
         c = r.plan.campaign

@@ -12,15 +12,16 @@ import numpy as np
 import pandas as pd
 import typer
 
-from planner.brightness import format_law
-from planner.ephemeris import MIN_SOLAR_ELONG_DEG, geometry, safety_warning
-from planner.errors import InputError
-from planner.fileio import write_text_atomic
-from planner.photometry import LIGHTCURVE_MIN_EXPOSURE_S, LIGHTCURVE_SNR_TARGET, add_photometry
-from planner.sites import load_site
-from planner.skydata import utc_times
-from planner.targets import load_target
-from planner.timegrid import iso_utc, parse_duration_s, parse_utc, time_grid
+from planner.core.errors import InputError
+from planner.core.fileio import write_text_atomic
+from planner.core.timegrid import iso_utc, parse_duration_s, parse_utc, time_grid
+from planner.inputs.settings import ExposureRules
+from planner.inputs.sites import load_site
+from planner.inputs.targets import load_target
+from planner.photometry.tables import add_photometry
+from planner.sky.brightness import format_law
+from planner.sky.geometry import MIN_SOLAR_ELONG_DEG, geometry, safety_warning
+from planner.sky.skydata import utc_times
 
 FORMATS = ("table", "csv", "json")
 MAX_ROWS = 200_000
@@ -164,8 +165,8 @@ def register(app: typer.Typer) -> None:
         fmt: _Format = "table",
         out: _Out = None,
         min_elong: _MinElong = MIN_SOLAR_ELONG_DEG,
-        snr: _Snr = LIGHTCURVE_SNR_TARGET,
-        min_exposure: _MinExp = f"{LIGHTCURVE_MIN_EXPOSURE_S:g}s",
+        snr: _Snr = ExposureRules.snr_target,
+        min_exposure: _MinExp = f"{ExposureRules.min_exposure_s:g}s",
     ) -> None:
         """Geometry table: RA/Dec, r, Delta, phase, elongation, motion, magnitude; alt/az per site."""
         if fmt not in FORMATS:
@@ -185,7 +186,7 @@ def register(app: typer.Typer) -> None:
         tgt = load_target(target, object_name)
         sites = [load_site(p) for p in (site or [])]
         frames = add_photometry(geometry(tgt, time_grid(t0, t1, step_s), sites, min_solar_elong_deg=min_elong),
-                                sites, snr_target=snr, min_exposure_s=min_exposure_s)
+                                sites, rules=ExposureRules(snr_target=snr, min_exposure_s=min_exposure_s))
         caution = safety_warning(frames)
         if fmt == "table":
             text = render_table(frames, caution)

@@ -9,7 +9,7 @@ from typing import Annotated
 
 import typer
 
-from planner.errors import InputError
+from planner.core.errors import InputError
 
 
 def register(app: typer.Typer) -> None:
@@ -26,35 +26,32 @@ def register(app: typer.Typer) -> None:
         fmt: Annotated[str, typer.Option("--format", help="table, csv or json (printed output)")] = "table",
     ) -> None:
         """Optimise a multi-site campaign: when each site observes, night by night."""
-        from planner.campaign import load_campaign
-        from planner.planfiles import (
-            PLAN_CSV_FLOAT_FORMAT,
-            comparison_text,
-            night_table,
-            nights_text,
-            plan_json,
-            safety_text,
-            table_for_files,
-            write_plan_folder,
-        )
-        from planner.schedule import plan_campaign
+        from planner.inputs.campaign import load_campaign
+        from planner.inputs.donelog import read_done_log
+        from planner.outputs.planfolder import plan_manifest, write_plan_folder
+        from planner.outputs.tablefiles import PLAN_CSV_FLOAT_FORMAT, records, table_for_files
+        from planner.outputs.terminal import comparison_text, night_table, nights_text, safety_text
+        from planner.pipeline import plan_campaign
 
         if fmt not in ("table", "csv", "json"):
             raise InputError("command line", "--format", f"{fmt!r} is not one of table, csv, json")
         if out is not None and out.is_dir() and any(out.iterdir()) and not force:
             raise InputError(str(out), "--out", "folder is not empty (use --force to replace it)")
         camp = load_campaign(campaign)
-        result = plan_campaign(camp, done_log=done, exact=exact)
+        target = camp.load_target()
+        done_log = read_done_log(done, camp.sites) if done is not None else None
+        result = plan_campaign(camp, target, done_log, exact=exact)
         if out is not None:
             write_plan_folder(result, out, force=force)
         if fmt == "csv":
             sys.stdout.write(table_for_files(result.blocks).to_csv(index=False, float_format=PLAN_CSV_FLOAT_FORMAT))
         elif fmt == "json":
-            from planner.jsonsafe import json_safe
-            from planner.planfiles import records
+            from planner.core.jsonsafe import json_safe
 
-            doc = {**plan_json(result), "comparison": result.comparison, "objective": result.objective,
-                   "robustness": result.robustness, "nights": records(result.nights)}
+            doc = {**plan_manifest(result), "comparison": result.comparison.to_dict(),
+                   "objective": result.objective.to_dict(),
+                   "robustness": {k: v.to_dict() for k, v in result.robustness.items()},
+                   "nights": records(result.nights)}
             sys.stdout.write(json.dumps(json_safe(doc), indent=1) + "\n")
         else:
             sys.stdout.write(f"{camp.name}: {len(result.blocks)} blocks at {result.blocks['site'].nunique()} "

@@ -7,7 +7,7 @@ from typing import Annotated
 
 import typer
 
-from planner.report import write_report
+from planner.outputs.report import write_report
 
 
 def register(app: typer.Typer) -> None:

@@ -10,11 +10,11 @@ import numpy as np
 import pandas as pd
 import typer
 
-from planner.errors import InputError
-from planner.fileio import write_text_atomic
-from planner.photometry import LIGHTCURVE_MIN_EXPOSURE_S, LIGHTCURVE_SNR_TARGET
-from planner.timegrid import iso_utc, parse_date, parse_duration_s
-from planner.windows import SUN_CAUTION
+from planner.core.errors import InputError
+from planner.core.fileio import write_text_atomic
+from planner.core.timegrid import iso_utc, parse_date, parse_duration_s
+from planner.inputs.settings import ExposureRules
+from planner.visibility.windows import SUN_CAUTION
 
 FORMATS = ("table", "csv", "json")
 _TIME_COLUMNS = ("start_utc", "end_utc", "best_utc")
@@ -116,19 +116,19 @@ def register(app: typer.Typer) -> None:
         fmt: Annotated[str, typer.Option("--format", help="table, csv or json")] = "table",
         out: Annotated[Path | None, typer.Option("--out", help="write here (atomically), not to the screen")] = None,
         snr: Annotated[float, typer.Option("--snr", min=1.0, help="S/N goal per exposure (sites with an "
-                                           "instrument)")] = LIGHTCURVE_SNR_TARGET,
+                                           "instrument)")] = ExposureRules.snr_target,
         min_exposure: Annotated[str, typer.Option("--min-exposure", help="shortest exposure worth taking "
-                                                  "(trailing may cut it)")] = f"{LIGHTCURVE_MIN_EXPOSURE_S:g}s",
+                                                  "(trailing may cut it)")] = f"{ExposureRules.min_exposure_s:g}s",
         object_name: Annotated[str | None, typer.Option("--object", help="which line of a multi-line MPC "
                                                         ".txt file")] = None,
     ) -> None:
         """Observable windows per site and night, with the reason when there is none.
 
         Sites with an instrument table also get the exposure plan at each window's best moment."""
-        from planner.photometry import window_photometry
-        from planner.sites import load_site
-        from planner.targets import load_target
-        from planner.windows import observable_windows
+        from planner.inputs.sites import load_site
+        from planner.inputs.targets import load_target
+        from planner.photometry.tables import window_photometry
+        from planner.visibility.windows import observable_windows
 
         if fmt not in FORMATS:
             raise InputError("command line", "format", f"{fmt!r} is not one of {', '.join(FORMATS)}")
@@ -137,8 +137,8 @@ def register(app: typer.Typer) -> None:
         sites = [load_site(p) for p in site]
         tgt = load_target(target, object_name)
         df = observable_windows(tgt, sites, first, nights, step_s=step_s)
-        df = df.join(window_photometry(df, tgt, sites, snr_target=snr,
-                                       min_exposure_s=parse_duration_s(min_exposure, field="min-exposure")))
+        df = df.join(window_photometry(df, tgt, sites, rules=ExposureRules(
+            snr_target=snr, min_exposure_s=parse_duration_s(min_exposure, field="min-exposure"))))
         text = {"table": lambda: render_table(df, sites), "csv": lambda: render_csv(df),
                 "json": lambda: render_json(df)}[fmt]()
         if out is None:

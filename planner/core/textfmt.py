@@ -1,0 +1,63 @@
+"""Formatting numbers, angles and times for people: one set of formatters for tables, sheets and report.
+
+Rounding happens once, on the smallest unit shown, and carries upward, so 59.97 s of right ascension
+prints as the next minute (``10h05m00.0s``), never as ``60.0s``, and declinations round instead of
+truncating.
+"""
+
+from __future__ import annotations
+
+import math
+
+
+def _sexagesimal(value: float, decimals: int) -> tuple[int, int, float]:
+    """(whole units, minutes, seconds) of a non-negative value, rounded on the seconds with carry."""
+    scale = 10 ** decimals
+    total = round(value * 3600.0 * scale)  # in units of the last digit shown
+    whole, rest = divmod(total, 3600 * scale)
+    minutes, sec = divmod(rest, 60 * scale)
+    return int(whole), int(minutes), sec / scale
+
+
+def ra_hms(ra_deg: float, decimals: int = 1) -> str:
+    """Right ascension as ``HHhMMmSS.Ss`` (24h wraps to 00h); ``-`` when not finite."""
+    if not math.isfinite(ra_deg):
+        return "-"
+    h, m, s = _sexagesimal((ra_deg % 360.0) / 15.0, decimals)
+    width = 3 + decimals if decimals else 2
+    return f"{h % 24:02d}h{m:02d}m{s:0{width}.{decimals}f}s"
+
+
+def dec_dms(dec_deg: float, decimals: int = 0) -> str:
+    """Declination as ``+DDdMMmSSs`` (rounded, with carry); ``-`` when not finite."""
+    if not math.isfinite(dec_deg):
+        return "-"
+    d, m, s = _sexagesimal(abs(dec_deg), decimals)
+    sign = "-" if dec_deg < 0 and (d or m or s) else "+"
+    width = 3 + decimals if decimals else 2
+    return f"{sign}{d:02d}d{m:02d}m{s:0{width}.{decimals}f}s"
+
+
+def clock_hm(iso_text: str) -> str:
+    """``hh:mm`` of an ISO 8601 time text (``2034-03-16T20:15:00Z`` → ``20:15``); the text itself if short."""
+    s = str(iso_text)
+    return s[11:16] if len(s) >= 16 else s
+
+
+def fixed(value, spec: str, width: int = 0) -> str:
+    """``format(value, spec)`` right-aligned to ``width``; ``-`` for a missing or non-finite number."""
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "-".rjust(width)
+    return format(value, spec).rjust(width)
+
+
+def readable(value: float, digits: int = 3) -> str:
+    """A number rounded for reading: ``digits`` decimals, trailing zeros dropped; very small or large
+    values keep significant figures (so 2.6e-4 and 2.7e-4 stay apart)."""
+    v = float(value)
+    if not math.isfinite(v):
+        return "—"
+    if v != 0 and (abs(v) >= 1e5 or abs(v) < 0.01):
+        return f"{v:.{max(digits - 1, 2)}g}"
+    text = f"{v:.{digits}f}"
+    return text.rstrip("0").rstrip(".") if "." in text else text

@@ -1,0 +1,157 @@
+"""Reading and validating our TOML input files (targets, sites, campaigns).
+
+Every accessor raises :class:`InputError` naming the file and the dotted field, so loaders
+stay short and every message says what to fix.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable
+from pathlib import Path
+from typing import Any
+
+import tomllib
+
+from planner.core.errors import InputError
+
+
+def read_toml(path: str | Path) -> dict[str, Any]:
+    """Parse a TOML file; a missing file or a syntax error becomes an :class:`InputError`."""
+    p = Path(path)
+    try:
+        with p.open("rb") as fh:
+            return tomllib.load(fh)
+    except FileNotFoundError:
+        raise InputError(str(p), "-", "file not found") from None
+    except IsADirectoryError:
+        raise InputError(str(p), "-", "is a folder, expected a TOML file") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(str(p), "-", f"not valid TOML ({exc})") from None
+
+
+class Fields:
+    """Typed, range-checked access to one table of a TOML document.
+
+    ``prefix`` is the dotted path of the table (``""`` for the top level), used in messages.
+    """
+
+    def __init__(self, file: str | Path, table: dict[str, Any], prefix: str = "") -> None:
+        self.file = str(file)
+        self.table = table
+        self.prefix = prefix
+
+    def name(self, key: str) -> str:
+        return f"{self.prefix}.{key}" if self.prefix else key
+
+    def error(self, key: str, message: str) -> InputError:
+        return InputError(self.file, self.name(key), message)
+
+    def has(self, key: str) -> bool:
+        return key in self.table
+
+    def check_known(self, allowed: Iterable[str]) -> None:
+        """Reject keys we do not know: a typo should not silently fall back to a default."""
+        allowed = set(allowed)
+        for key in self.table:
+            if key not in allowed:
+                raise self.error(key, f"unknown field (known: {', '.join(sorted(allowed))})")
+
+    def sub(self, key: str, required: bool = False) -> Fields | None:
+        if key not in self.table:
+            if required:
+                raise self.error(key, "missing table")
+            return None
+        value = self.table[key]
+        if not isinstance(value, dict):
+            raise self.error(key, "must be a table")
+        return Fields(self.file, value, self.name(key))
+
+    def _get(self, key: str, required: bool, default: Any) -> Any:
+        if key not in self.table:
+            if required:
+                raise self.error(key, "missing")
+            return default
+        return self.table[key]
+
+    def float(
+        self,
+        key: str,
+        default: float | None = None,
+        *,
+        required: bool = False,
+        lo: float | None = None,
+        hi: float | None = None,
+        lo_open: bool = False,
+        hi_open: bool = False,
+    ) -> float | None:
+        value = self._get(key, required, default)
+        if value is None:
+            return None
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise self.error(key, f"{value!r} is not a number")
+        value = float(value)
+        if not math.isfinite(value):
+            raise self.error(key, f"{value} is not finite")
+        lo_bad = lo is not None and (value <= lo if lo_open else value < lo)
+        hi_bad = hi is not None and (value >= hi if hi_open else value > hi)
+        if lo_bad or hi_bad:
+            left = "(" if lo_open else "["
+            right = ")" if hi_open else "]"
+            lo_s = "-inf" if lo is None else f"{lo:g}"
+            hi_s = "inf" if hi is None else f"{hi:g}"
+            raise self.error(key, f"{value:g} is outside {left}{lo_s}, {hi_s}{right}")
+        return value
+
+    def int(self, key: str, default: int | None = None, *, required: bool = False,
+            lo: int | None = None, hi: int | None = None) -> int | None:
+        value = self._get(key, required, default)
+        if value is None:
+            return None
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise self.error(key, f"{value!r} is not a whole number")
+        if (lo is not None and value < lo) or (hi is not None and value > hi):
+            raise self.error(key, f"{value} is outside [{lo}, {hi}]")
+        return value
+
+    def str(self, key: str, default: str | None = None, *, required: bool = False,
+            choices: Iterable[str] | None = None) -> str | None:
+        value = self._get(key, required, default)
+        if value is None:
+            return None
+        if not isinstance(value, str):
+            raise self.error(key, f"{value!r} is not a string")
+        if choices is not None:
+            choices = list(choices)
+            if value not in choices:
+                raise self.error(key, f"{value!r} is not one of {', '.join(choices)}")
+        return value
+
+    def bool(self, key: str, default: bool | None = None, *, required: bool = False) -> bool | None:
+        value = self._get(key, required, default)
+        if value is None:
+            return None
+        if not isinstance(value, bool):
+            raise self.error(key, f"{value!r} is not true or false")
+        return value
+
+    def float_list(self, key: str, *, length: int | None = None, required: bool = False) -> list[float] | None:
+        value = self._get(key, required, None)
+        if value is None:
+            return None
+        if not isinstance(value, list) or not all(
+            isinstance(v, (int, float)) and not isinstance(v, bool) for v in value
+        ):
+            raise self.error(key, "must be a list of numbers")
+        if length is not None and len(value) != length:
+            raise self.error(key, f"must hold {length} numbers, not {len(value)}")
+        return [float(v) for v in value]
+
+    def pairs(self, key: str, *, required: bool = False) -> list[tuple[Any, Any]] | None:
+        """A list of two-element lists, e.g. ``horizon = [[az, alt], ...]``."""
+        value = self._get(key, required, None)
+        if value is None:
+            return None
+        if not isinstance(value, list) or not all(isinstance(v, list) and len(v) == 2 for v in value):
+            raise self.error(key, "must be a list of [a, b] pairs")
+        return [(v[0], v[1]) for v in value]

@@ -1,0 +1,112 @@
+"""HTML building blocks of the reports: numbers that carry their source, tables, figures, the page.
+
+Every number shown keeps its exact source value in a ``data-value`` attribute and its origin in
+``data-src`` (``plan.csv:ROW:COLUMN`` or ``diagnostics.json:plan.trend.longest_gap_h``), so a test
+can compare the page with the files. Every string that came from a user goes through
+:func:`html.escape`. The page has no scripts and fetches nothing.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import json
+from collections.abc import Sequence
+
+import numpy as np
+
+from planner.core.safety import SUN_SAFETY_TEXT
+from planner.core.textfmt import readable
+from planner.outputs.figstyle import png_bytes
+from planner.outputs.reader import cell_float
+
+
+def fmt(value, digits: int = 3) -> str:
+    """Readable rounding for display; the exact value stays in data-value."""
+    if isinstance(value, bool) or value is None:
+        return "—" if value is None else str(value).lower()
+    if isinstance(value, (int, np.integer)):
+        return f"{int(value):,}".replace(",", " ")
+    v = cell_float(value)
+    if np.isnan(v):
+        return "—" if str(value).strip() in ("", "nan", "NaN") else html.escape(str(value))
+    return readable(v, digits)
+
+
+def num(value, src: str, digits: int = 3, unit: str = "") -> str:
+    """A number as HTML: rounded text, exact source value and origin in attributes."""
+    exact = value if isinstance(value, str) else json.dumps(value)
+    return (
+        f'<span class="num" data-src="{html.escape(src)}" data-value="{html.escape(exact)}">'
+        f"{fmt(value, digits)}{html.escape(unit)}</span>"
+    )
+
+
+def json_num(diag: dict, path: str, digits: int = 3, unit: str = "") -> str:
+    value: object = diag
+    for key in path.split("."):
+        if isinstance(value, dict) and key in value:
+            value = value[key]
+        elif isinstance(value, list) and key.isdigit() and int(key) < len(value):
+            value = value[int(key)]
+        else:
+            return '<span class="missing">—</span>'
+    return num(value, f"diagnostics.json:{path}", digits, unit)
+
+
+def figure_html(fig, fig_id: str, caption: str, alt: str) -> str:
+    """Embed a Figure as a base64 PNG inside <figure>; the figure is cleared afterwards."""
+    data = base64.b64encode(png_bytes(fig)).decode("ascii")
+    fig.clear()
+    return (
+        f'<figure id="{fig_id}"><img src="data:image/png;base64,{data}" alt="{html.escape(alt)}">'
+        f"<figcaption>{caption}</figcaption></figure>"
+    )
+
+
+def table(header: Sequence[str], rows: Sequence[Sequence[str]], cls: str = "") -> str:
+    head = "".join(f"<th>{h}</th>" for h in header)
+    body = "".join("<tr>" + "".join(f"<td>{c}</td>" for c in row) + "</tr>" for row in rows)
+    return f'<table class="{cls}"><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>'
+
+
+CSS = """
+:root { --ink:#1b2a41; --rule:#c9ced6; --soft:#f3f4f6; --warn:#8a3f72; }
+* { box-sizing: border-box; }
+body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif;
+       color: var(--ink); max-width: 1100px; margin: 0 auto; padding: 1.2rem 1.4rem 3rem; line-height: 1.45; }
+h1 { font-size: 1.6rem; margin-bottom: .2rem; }
+h2 { border-bottom: 2px solid var(--ink); padding-bottom: .2rem;
+     margin-top: 2.2rem; } h3 { margin-bottom: .3rem; }
+.sub { color: #4a5566; margin-top: 0; }
+nav ol { columns: 2; font-size: .95rem; }
+table { border-collapse: collapse; margin: .6rem 0 1rem; font-size: .88rem; }
+th, td { border: 1px solid var(--rule); padding: .25rem .5rem; text-align: left; vertical-align: top; }
+th { background: var(--soft); } tbody tr:nth-child(even) { background: #fafafa; }
+td .num, td.numcol { font-variant-numeric: tabular-nums; }
+table.blocks { font-size: .8rem; } table.blocks td { white-space: nowrap; }
+tr.nightstart td { border-top: 2px solid var(--ink); }
+figure { margin: 1rem 0; } figure img { max-width: 100%; height: auto; border: 1px solid var(--rule); }
+figcaption { font-size: .88rem; color: #3d4757; margin-top: .3rem; }
+.caution { border: 2px solid var(--warn); border-left-width: 8px; padding: .6rem .9rem; margin: 1rem 0;
+           background: #fbf5f9; }
+.caution strong { color: var(--warn); }
+.verdict-secure { font-weight: 600; } .verdict-alias-prone { font-style: italic; }
+.verdict-under-covered { text-decoration: underline; }
+.missing { color: #888; }
+@media print { nav { display: none; } h2 { break-before: page; } figure { break-inside: avoid; } }
+"""
+
+
+def page(title: str, subtitle: str, toc: Sequence[tuple[str, str]], body: str) -> str:
+    nav = "".join(f'<li><a href="#{a}">{html.escape(t)}</a></li>' for a, t in toc)
+    return (
+        '<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
+        '<meta name="viewport" content="width=device-width, initial-scale=1">'
+        f"<title>{html.escape(title)}</title><style>{CSS}</style></head><body>"
+        f'<header><h1>{html.escape(title)}</h1><p class="sub">{subtitle}</p>'
+        f'<div class="caution" role="note"><strong>Sun safety.</strong> {html.escape(SUN_SAFETY_TEXT)}</div>'
+        f"<nav><ol>{nav}</ol></nav></header><main>{body}</main>"
+        '<footer><p class="sub">Rendered by phasewise from the files in this folder. Times are UTC unless '
+        "marked local.</p></footer></body></html>\n"
+    )

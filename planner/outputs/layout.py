@@ -1,0 +1,40 @@
+"""The plan folder's layout: its file names, and file names made from user-given names.
+
+The writer (:mod:`planner.outputs.planfolder`) and the reader (:mod:`planner.outputs.reader`) both take
+every name from here, so the two cannot drift apart.
+"""
+
+from __future__ import annotations
+
+PLAN_CSV = "plan.csv"
+BASELINE_CSV = "baseline.csv"
+#: The manifest: target, sites with time zones and limits, settings, version (and the plan's blocks).
+MANIFEST_JSON = "plan.json"
+DIAGNOSTICS_JSON = "diagnostics.json"
+WINDOWS_CSV = "windows.csv"
+GEOMETRY_CSV = "geometry.csv"
+NIGHTS_CSV = "nights.csv"
+#: Verbatim copies of the inputs, for the record (the report reads the manifest, not these).
+CAMPAIGN_COPY = "campaign.toml"
+TARGET_COPY = "target.toml"
+SHEETS_DIR = "sheets"
+REPORT_HTML = "report.html"
+
+#: Every file of a plan folder, in the order docs/formats.md lists them.
+PLAN_FILES = (PLAN_CSV, MANIFEST_JSON, BASELINE_CSV, DIAGNOSTICS_JSON, WINDOWS_CSV, GEOMETRY_CSV, NIGHTS_CSV,
+              CAMPAIGN_COPY, TARGET_COPY, SHEETS_DIR + "/", REPORT_HTML)
+#: Version of the manifest's and diagnostics.json's layout; raised when a key changes meaning.
+SCHEMA_VERSION = 2
+
+
+def slug(name: str) -> str:
+    """Lower-case letters and digits with single hyphens: ``"Karoo Ridge"`` → ``"karoo-ridge"``."""
+    s = "".join(c.lower() if c.isalnum() else "-" for c in name)
+    while "--" in s:
+        s = s.replace("--", "-")
+    return s.strip("-") or "site"
+
+
+def sheet_name(site_name: str) -> str:
+    """The observing sheet's file name inside ``sheets/``."""
+    return f"{slug(site_name)}.txt"

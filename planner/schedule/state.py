@@ -1,0 +1,307 @@
+"""A schedule being optimised: its visits, and the running sums that make the objective cheap to update.
+
+``PlanModel`` fixes what a schedule is scored on (slot grid, period grid, phase bins, alias
+frequencies, weights, anything already observed). ``PlanState`` holds one schedule plus the
+running cell counts, per-site-night counts and spectral-window sums, so that scoring a move
+(remove some visits, add others) costs O(periods × bins + frequencies), never a full rescore.
+``PlanModel.terms`` scores a schedule from scratch and is the reference the tests compare against.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from planner.inputs.settings import Weights
+from planner.schedule.objective import (
+    Terms,
+    arc_mask,
+    excess_gap_h,
+    pack_cells,
+    point_mask,
+    point_window_sum,
+)
+from planner.schedule.slots import SlotGrid
+
+
+@dataclass(frozen=True)
+class SlotCredit:
+    """The greedy's per-slot credit: ``value`` per flat slot (quality and hours shares), each
+    element's science-slot range ``[elem_i0, elem_i1)`` in that layout, and the weight of one cell."""
+
+    value: np.ndarray
+    elem_i0: np.ndarray
+    elem_i1: np.ndarray
+    cell_weight: float
+
+#: Chance a site-night is clear is kept inside (0, 1) so log-survival stays finite.
+_CLEAR_CLIP = (1e-6, 1.0 - 1e-9)
+_ELEMENT_CHUNK = 256
+#: Visits whose cells and phasors are kept between moves (~20 kB each on the demo grid).
+_CACHE_VISITS = 2000
+
+
+@dataclass(frozen=True)
+class Visit:
+    """A contiguous block of slots at one site-night: telescope time ``[start, start+length)``."""
+
+    part: int
+    start: int
+    length: int
+
+    @property
+    def stop(self) -> int:
+        return self.start + self.length
+
+
+@dataclass
+class Done:
+    """What was already observed (re-planning): instants and runs, hours from t_ref."""
+
+    times_h: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    intervals_h: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
+
+
+class PlanModel:
+    def __init__(self, grid: SlotGrid, periods_h: np.ndarray, n_bins: int, freq_per_day: np.ndarray,
+                 weights: Weights, max_gap_h: float, done: Done | None = None,
+                 slot_weight: list[np.ndarray] | None = None, slot_quality: list[np.ndarray] | None = None) -> None:
+        self.grid = grid
+        self.periods_h = np.asarray(periods_h, dtype=float)
+        self.n_bins = int(n_bins)
+        self.freq_per_day = np.asarray(freq_per_day, dtype=float)
+        self.weights = weights
+        self.max_gap_h = float(max_gap_h)
+        self.done = done or Done()
+        self.n_cells = self.periods_h.size * self.n_bins
+        self.done_cells = point_mask(self.done.times_h, self.periods_h, self.n_bins)
+        # Already-observed instants count once per slot, like planned science slots.
+        done_slots = np.unique(np.floor(np.asarray(self.done.times_h) / grid.slot_h)) if len(self.done.times_h) \
+            else np.zeros(0)
+        self.done_phasor = point_window_sum((done_slots + 0.5) * grid.slot_h, self.freq_per_day)
+        self.done_n = float(done_slots.size)
+        # Quality of every slot (planner.schedule.quality), parts laid end to end over their slot spans.
+        self.part_lo, self.part_off, n_flat = grid.part_spans()
+        q_flat = self._flat(slot_quality, n_flat, "slot_quality", 1.0)
+        self.slot_quality = q_flat
+        self._quality_cum = np.concatenate([[0.0], np.cumsum(q_flat)])
+        #: Weight of each science slot in the spectral window (its precision 1/σ², mean 1), as in a
+        #: weighted window W = Σ w e^{2πiνt} / Σ w (what ``check`` computes); already-observed slots weigh 1.
+        self.slot_weight = self._flat(slot_weight, n_flat, "slot_weight", 1.0)
+        sizes = [p.intervals[-1][1] - p.intervals[0][0] for p in grid.parts]
+        slots = (np.concatenate([np.arange(a, a + n) for a, n in zip(self.part_lo, sizes, strict=True)])
+                 if sizes else np.zeros(0))
+        #: Centre of every flat slot, hours from t_ref.
+        self.slot_centre_h = (slots + 0.5) * grid.slot_h
+        # Prefix sums of w·e^{2πiνt} and of w: any visit's window sum in O(frequencies).
+        phasors = self.slot_weight[:, None] * np.exp(2j * np.pi * np.outer(self.slot_centre_h / 24.0,
+                                                                           self.freq_per_day))
+        self._phasor_cum = np.vstack([np.zeros((1, self.freq_per_day.size), dtype=complex),
+                                      np.cumsum(phasors, axis=0)])
+        self._weight_cum = np.concatenate([[0.0], np.cumsum(self.slot_weight)])
+        clear = np.array([p.clear_fraction for p in grid.parts], dtype=float)
+        self.log_cloudy = np.log1p(-np.clip(clear, *_CLEAR_CLIP))
+        lo, hi = grid.span_slots
+        self.span_h = (lo * grid.slot_h, hi * grid.slot_h)
+        if len(self.done.intervals_h):
+            self.span_h = (min(self.span_h[0], float(np.min(self.done.intervals_h[:, 0]))), self.span_h[1])
+        self._elem_packed: np.ndarray | None = None
+        # Time the plan may use: the site-nights' budgets, capped by any whole-campaign site budget.
+        per_site: dict[int, int] = {}
+        for p in grid.parts:
+            per_site[p.site_index] = per_site.get(p.site_index, 0) + p.budget_slots
+        self.budget_slots = int(sum(min(v, grid.site_budget_slots.get(k, v)) for k, v in per_site.items()))
+
+    @staticmethod
+    def _flat(arrays: list[np.ndarray] | None, n_flat: int, name: str, default: float) -> np.ndarray:
+        if arrays is None:
+            return np.full(n_flat, default)
+        flat = np.concatenate([np.asarray(a, dtype=float) for a in arrays]) if arrays else np.zeros(0)
+        if flat.size != n_flat:
+            raise ValueError(f"{name} holds {flat.size} slots, the site-nights span {n_flat}")
+        return flat
+
+    # --- per-visit pieces -------------------------------------------------------------------------
+    def science_h(self, start: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        return self.grid.science_hours(start, length)
+
+    def visit_masks(self, starts: np.ndarray, lengths: np.ndarray) -> np.ndarray:
+        t0, t1 = self.science_h(starts, lengths)
+        return arc_mask(t0, t1, self.periods_h, self.n_bins)
+
+    def visit_phasors(self, parts: np.ndarray, starts: np.ndarray, lengths: np.ndarray) -> tuple[np.ndarray,
+                                                                                                  np.ndarray]:
+        """Weighted window sums Σ w e^{2πiνt} over each visit's science slots (N, F), and Σ w (N,)."""
+        i0, i1 = self.science_flat(parts, starts, lengths)
+        return self._phasor_cum[i1] - self._phasor_cum[i0], self._weight_cum[i1] - self._weight_cum[i0]
+
+    def visit_phasors_slow(self, part: int, start: int, length: int) -> tuple[np.ndarray, float]:
+        """Slow twin of :meth:`visit_phasors` for one visit: add each science slot's phasor in turn."""
+        a, b = self.science_flat(np.array([part]), np.array([start]), np.array([length]))
+        i0, i1 = int(a[0]), int(b[0])
+        total = np.zeros(self.freq_per_day.size, dtype=complex)
+        weight = 0.0
+        for i in range(i0, i1):
+            total += self.slot_weight[i] * np.exp(2j * np.pi * self.freq_per_day * self.slot_centre_h[i] / 24.0)
+            weight += float(self.slot_weight[i])
+        return total, weight
+
+    def science_flat(self, part: np.ndarray, start: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Flat index range ``[i0, i1)`` (``slot_quality`` layout) of the science slots of visits."""
+        p = np.asarray(part, dtype=np.int64)
+        base = self.part_off[p] - self.part_lo[p]
+        st = np.asarray(start, dtype=np.int64)
+        return base + st + self.grid.setup_slots, base + st + np.asarray(length, dtype=np.int64)
+
+    def quality_sum(self, visits: list[Visit]) -> float:
+        """Σ slot quality over the science slots of visits (visits of one site-night never overlap)."""
+        if not visits:
+            return 0.0
+        i0, i1 = self.science_flat(np.array([v.part for v in visits]), np.array([v.start for v in visits]),
+                                   np.array([v.length for v in visits]))
+        return float(np.sum(self._quality_cum[i1] - self._quality_cum[i0]))
+
+    def slot_credit(self) -> SlotCredit:
+        """What the greedy adds to coverage: each science slot's share of the quality and hours terms."""
+        g = self.grid
+        w = self.weights
+        value = (w.quality * self.slot_quality + w.hours) / max(self.budget_slots, 1)
+        i0, i1 = self.science_flat(g.elem_part, g.elem_start, g.elem_len)
+        return SlotCredit(value=value, elem_i0=i0, elem_i1=i1, cell_weight=w.coverage / max(self.n_cells, 1))
+
+    def element_packed(self) -> np.ndarray:
+        """Cells of every greedy element, packed (E, W); built once, in chunks to bound memory."""
+        if self._elem_packed is None:
+            g = self.grid
+            chunks = [pack_cells(self.visit_masks(g.elem_start[i:i + _ELEMENT_CHUNK], g.elem_len[i:i + _ELEMENT_CHUNK]))
+                      for i in range(0, g.n_elements, _ELEMENT_CHUNK)]
+            n_words = -(-self.n_cells // 64)
+            self._elem_packed = np.concatenate(chunks) if chunks else np.zeros((0, n_words), dtype=np.uint64)
+        return self._elem_packed
+
+    def element_masks(self, idx: np.ndarray) -> np.ndarray:
+        g = self.grid
+        return self.visit_masks(g.elem_start[idx], g.elem_len[idx])
+
+    # --- scoring from scratch (reference) --------------------------------------------------------
+    def combine(self, coverage: float, expected: float, alias: float, gap_h: float, used_slots: int,
+                quality_slots: float = 0.0) -> Terms:
+        span = max(self.span_h[1] - self.span_h[0], 1e-9)
+        w = self.weights
+        gap_frac = gap_h / span
+        hours_frac = used_slots / max(self.budget_slots, 1)
+        quality = quality_slots / max(self.budget_slots, 1)
+        total = (w.coverage * coverage + w.robustness * expected - w.alias * alias - w.cadence * gap_frac
+                 + w.hours * hours_frac + w.quality * quality)
+        return Terms(coverage=coverage, expected_coverage=expected, alias=alias, excess_gap_h=gap_h,
+                     gap_fraction=gap_frac, hours_fraction=hours_frac, quality=quality, total=total)
+
+    def intervals_h(self, visits: list[Visit]) -> np.ndarray:
+        if not visits:
+            iv = np.zeros((0, 2))
+        else:
+            t0, t1 = self.science_h(np.array([v.start for v in visits]), np.array([v.length for v in visits]))
+            iv = np.column_stack([t0, t1])
+        return np.concatenate([iv, np.asarray(self.done.intervals_h, dtype=float).reshape(-1, 2)])
+
+    def terms(self, visits: list[Visit]) -> Terms:
+        """Score a schedule from scratch (no running sums)."""
+        covered = self.done_cells.copy()
+        per_part: dict[int, np.ndarray] = {}
+        phasor = self.done_phasor.copy()
+        n = self.done_n
+        for v in visits:
+            m = self.visit_masks(np.array([v.start]), np.array([v.length]))[0]
+            covered |= m
+            per_part[v.part] = per_part.get(v.part, np.zeros_like(m)) | m
+            ph, w = self.visit_phasors_slow(v.part, v.start, v.length)
+            phasor = phasor + ph
+            n += w
+        log_surv = np.zeros(covered.shape)
+        for p, m in per_part.items():
+            log_surv += m * self.log_cloudy[p]
+        expected = np.where(self.done_cells, 1.0, 1.0 - np.exp(log_surv)).mean()
+        alias = float(np.abs(phasor).max() / n) if n > 0 and phasor.size else 0.0
+        gap = excess_gap_h(self.intervals_h(visits), self.span_h, self.max_gap_h)
+        return self.combine(float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits),
+                            self.quality_sum(visits))
+
+
+class PlanState:
+    """One schedule with running sums; ``score`` a move without applying it, ``apply`` to keep it."""
+
+    def __init__(self, model: PlanModel, visits: list[Visit] | tuple[Visit, ...] = ()) -> None:
+        self.model = model
+        shape = (model.periods_h.size, model.n_bins)
+        self.visits: list[Visit] = []
+        self.counts = np.zeros(shape, dtype=np.int32)
+        self.part_counts: dict[int, np.ndarray] = {}
+        self.log_surv = np.zeros(shape)
+        self.phasor = model.done_phasor.copy()
+        self.n_slots = model.done_n
+        self._cache: dict[Visit, tuple[np.ndarray, np.ndarray, float]] = {}
+        for v in visits:
+            self.apply([], [v])
+        self.current = self.score([], [])
+
+    def _pieces(self, v: Visit) -> tuple[np.ndarray, np.ndarray, float]:
+        hit = self._cache.get(v)
+        if hit is None:
+            m = self.model.visit_masks(np.array([v.start]), np.array([v.length]))[0]
+            ph, w = self.model.visit_phasors(np.array([v.part]), np.array([v.start]), np.array([v.length]))
+            hit = (m, ph[0], float(w[0]))
+            if len(self._cache) > _CACHE_VISITS:
+                self._cache.clear()
+            self._cache[v] = hit
+        return hit
+
+    def _updated(self, remove: list[Visit], add: list[Visit]):
+        model = self.model
+        counts = self.counts.copy()
+        phasor = self.phasor.copy()
+        n = self.n_slots
+        touched: dict[int, np.ndarray] = {}
+        for sign, group in ((-1, remove), (1, add)):
+            for v in group:
+                m, ph, w = self._pieces(v)
+                counts += sign * m
+                phasor += sign * ph
+                n += sign * w
+                pc = touched.get(v.part)
+                if pc is None:
+                    base = self.part_counts.get(v.part)
+                    pc = np.zeros(counts.shape, dtype=np.int32) if base is None else base.copy()
+                    touched[v.part] = pc
+                pc += sign * m
+        log_surv = self.log_surv.copy() if touched else self.log_surv
+        for p, pc in touched.items():
+            old = self.part_counts.get(p)
+            was = np.zeros(pc.shape, dtype=bool) if old is None else old > 0
+            log_surv += ((pc > 0).astype(float) - was) * model.log_cloudy[p]
+        return counts, phasor, n, touched, log_surv
+
+    def score(self, remove: list[Visit], add: list[Visit]) -> Terms:
+        model = self.model
+        counts, phasor, n, _, log_surv = self._updated(remove, add)
+        covered = (counts > 0) | model.done_cells
+        expected = np.where(model.done_cells, 1.0, -np.expm1(log_surv)).mean()
+        alias = float(np.abs(phasor).max() / n) if n > 0 and phasor.size else 0.0
+        visits = [v for v in self.visits if v not in remove] + list(add)
+        gap = excess_gap_h(model.intervals_h(visits), model.span_h, model.max_gap_h)
+        return model.combine(float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits),
+                             model.quality_sum(visits))
+
+    def apply(self, remove: list[Visit], add: list[Visit]) -> None:
+        counts, phasor, n, touched, log_surv = self._updated(remove, add)
+        self.counts, self.phasor, self.n_slots, self.log_surv = counts, phasor, n, log_surv
+        for p, pc in touched.items():
+            self.part_counts[p] = pc
+        for v in remove:
+            self.visits.remove(v)
+        self.visits.extend(add)
+        self.visits.sort(key=lambda v: (v.start, v.part))
+        self.current = self.score([], [])
+
+    def covered_packed(self) -> np.ndarray:
+        return pack_cells((self.counts > 0) | self.model.done_cells)

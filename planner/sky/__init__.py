@@ -1,0 +1,1 @@
+"""Stage 2, sky: the bundled planetary ephemeris, orbit propagation, brightness laws and the target's geometry."""

@@ -1,0 +1,1 @@
+"""Stage 4, visibility: nights and dark time per site, and the observable windows within them."""
