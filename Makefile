@@ -22,7 +22,8 @@ bench: $(STAMP)
 	for b in benchmarks/bench_*.py; do echo "== $$b"; $(PY) $$b || exit 1; done
 
 lint: $(STAMP)
-	$(PY) -m ruff check planner tests benchmarks
+	$(PY) -m ruff format --check planner tests benchmarks scripts conftest.py
+	$(PY) -m ruff check planner tests benchmarks scripts conftest.py
 
 clean:
 	rm -rf $(VENV) build *.egg-info

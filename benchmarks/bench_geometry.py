@@ -54,8 +54,11 @@ def astropy_route(target, times_utc, sites, dut1_s):
 
     de421 = str(Path(get_skyfield_data_path()) / "de421.bsp")
     out = {}
-    with warnings.catch_warnings(), iers.conf.set_temp("iers_degraded_accuracy", "ignore"), \
-            solar_system_ephemeris.set(de421):
+    with (
+        warnings.catch_warnings(),
+        iers.conf.set_temp("iers_degraded_accuracy", "ignore"),
+        solar_system_ephemeris.set(de421),
+    ):
         warnings.simplefilter("ignore")
         t = Time(times_utc, format="datetime64", scale="utc")
         t.delta_ut1_utc = dut1_s
@@ -63,8 +66,9 @@ def astropy_route(target, times_utc, sites, dut1_s):
         sun = get_body_barycentric("sun", t).xyz.to_value(u.au).T
         tdb = t.tdb.jd1 + t.tdb.jd2
         for site in sites:
-            loc = EarthLocation.from_geodetic(site.longitude_deg * u.deg, site.latitude_deg * u.deg,
-                                              site.height_m * u.m)
+            loc = EarthLocation.from_geodetic(
+                site.longitude_deg * u.deg, site.latitude_deg * u.deg, site.height_m * u.m
+            )
             obs = earth + loc.get_gcrs_posvel(t)[0].xyz.to_value(u.au).T
             tau = np.zeros(len(t))
             for k in range(3):
@@ -113,8 +117,10 @@ def main() -> None:
     print(f"  phasewise geometry() (all columns):      {t_ours:8.3f} s")
     print(f"  astropy frames (RA/Dec + alt/az only):   {t_astropy:8.3f} s")
     print(f"  ratio astropy / phasewise:               {t_astropy / t_ours:8.1f} x   (target >= 10)")
-    print(f"  largest disagreement: RA/Dec {worst['radec']:.3f}\", alt {worst['alt']:.3f}\", "
-          f"az*cos(alt) {worst['az']:.3f}\"   (target <= 0.5\")")
+    print(
+        f'  largest disagreement: RA/Dec {worst["radec"]:.3f}", alt {worst["alt"]:.3f}", '
+        f'az*cos(alt) {worst["az"]:.3f}"   (target <= 0.5")'
+    )
 
 
 if __name__ == "__main__":

@@ -66,8 +66,10 @@ def main() -> None:
     span_h = (t.max() - t.min()) * 24
     freq = np.sort(24.0 / period_grid_h(2.0, 30.0, span_h))
     y, sigma = light_curves(t, args.trials)
-    print(f"sample: {t.size} points, 7 nights, 4 sites; grid: {freq.size} frequencies "
-          f"({freq[0]:.3f}–{freq[-1]:.3f} c/d); {args.trials} trials; nterms=2")
+    print(
+        f"sample: {t.size} points, 7 nights, 4 sites; grid: {freq.size} frequencies "
+        f"({freq[0]:.3f}–{freq[-1]:.3f} c/d); {args.trials} trials; nterms=2"
+    )
 
     ours_s, power = time_ours(t, y, sigma, freq)
     best_ours = freq[power.argmax(axis=0)]
@@ -90,8 +92,10 @@ def main() -> None:
 
     # an exact astropy route ('chi2' solves the normal equations) on a few trials: values
     ex = min(5, args.trials)
-    diff = max(np.max(np.abs(LombScargle(t_rel, y[:, j], sigma, nterms=2).power(freq, method="chi2")
-                              - power[:, j])) for j in range(ex))
+    diff = max(
+        np.max(np.abs(LombScargle(t_rel, y[:, j], sigma, nterms=2).power(freq, method="chi2") - power[:, j]))
+        for j in range(ex)
+    )
     print(f"max |power difference| vs astropy method='chi2' on {ex} trials: {diff:.2e}")
 
     print("\ncost growth (phasewise batched, seconds):")

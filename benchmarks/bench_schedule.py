@@ -46,27 +46,42 @@ def main() -> None:
     total = time.perf_counter() - t
     print(f"plan_campaign: {total:.2f} s  ({', '.join(f'{k} {v:.2f} s' for k, v in r.timings_s.items())})")
     obj = r.objective
-    print(f"elements {obj['greedy']['elements']}, periods {obj['n_periods']} x {obj['phase_bins']} bins, "
-          f"alias freqs {obj['n_alias_freqs']}; greedy {obj['seconds']['greedy']:.3f} s, local search "
-          f"{obj['seconds']['local_search']:.2f} s ({obj['local_search']['evaluations']} moves scored)")
+    print(
+        f"elements {obj['greedy']['elements']}, periods {obj['n_periods']} x {obj['phase_bins']} bins, "
+        f"alias freqs {obj['n_alias_freqs']}; greedy {obj['seconds']['greedy']:.3f} s, local search "
+        f"{obj['seconds']['local_search']:.2f} s ({obj['local_search']['evaluations']} moves scored)"
+    )
     c = r.comparison
     for key in ("worst_period_coverage", "highest_alias", "trend_min_detectable_mag_per_day"):
         p, b = c[key]["plan"], c[key]["baseline"]
         print(f"{key:36} plan {p:.4g}  baseline {b:.4g}  ratio plan/baseline {p / b:.3f}")
     rob = r.robustness
-    print(f"{'weather: expected coverage / p10':36} plan {rob['plan']['expected_coverage']:.4f}/"
-          f"{rob['plan']['p10_coverage']:.4f}  baseline {rob['baseline']['expected_coverage']:.4f}/"
-          f"{rob['baseline']['p10_coverage']:.4f}")
+    print(
+        f"{'weather: expected coverage / p10':36} plan {rob['plan']['expected_coverage']:.4f}/"
+        f"{rob['plan']['p10_coverage']:.4f}  baseline {rob['baseline']['expected_coverage']:.4f}/"
+        f"{rob['baseline']['p10_coverage']:.4f}"
+    )
     windows = r.windows
 
     print("\n== greedy vs exact (HiGHS) on sub-instances of the demo windows")
     print("nights sites slot  periods bins elements  greedy  exact   ratio  t_greedy  t_exact  exact/greedy time")
     ratios = []
-    for nights, n_sites, slot, oversample, bins in [(1, 2, 15, 1.0, 10), (1, 3, 15, 1.0, 10), (2, 2, 15, 1.0, 10),
-                                                    (2, 3, 15, 1.0, 12), (1, 4, 15, 2.0, 12), (2, 4, 20, 1.0, 10)]:
-        camp, w = _sub(campaign, windows, nights, n_sites,
-                       blocks=dataclasses.replace(campaign.blocks, slot_min=slot),
-                       rotation=dataclasses.replace(campaign.rotation, oversample=oversample, phase_bins=bins))
+    for nights, n_sites, slot, oversample, bins in [
+        (1, 2, 15, 1.0, 10),
+        (1, 3, 15, 1.0, 10),
+        (2, 2, 15, 1.0, 10),
+        (2, 3, 15, 1.0, 12),
+        (1, 4, 15, 2.0, 12),
+        (2, 4, 20, 1.0, 10),
+    ]:
+        camp, w = _sub(
+            campaign,
+            windows,
+            nights,
+            n_sites,
+            block_rules=dataclasses.replace(campaign.block_rules, slot_minutes=slot),
+            rotation=dataclasses.replace(campaign.rotation, oversample=oversample, phase_bins=bins),
+        )
         core = schedule_core(camp, w, max_evaluations=0)
         m = core.model
         packed = m.element_packed()
@@ -77,9 +92,11 @@ def main() -> None:
         ratio = g.covered_cells / ex.upper_bound_cells
         ratios.append(ratio)
         flag = "" if ex.optimal else " (bound)"
-        print(f"{nights:6} {n_sites:5} {slot:4.0f} {m.periods_h.size:8} {bins:4} {m.grid.n_elements:8} "
-              f"{g.covered_cells:7} {ex.upper_bound_cells:6.0f}{flag} {ratio:6.4f} {tg:8.4f} {ex.seconds:8.2f} "
-              f"{ex.seconds / max(tg, 1e-6):10.0f}x")
+        print(
+            f"{nights:6} {n_sites:5} {slot:4.0f} {m.periods_h.size:8} {bins:4} {m.grid.n_elements:8} "
+            f"{g.covered_cells:7} {ex.upper_bound_cells:6.0f}{flag} {ratio:6.4f} {tg:8.4f} {ex.seconds:8.2f} "
+            f"{ex.seconds / max(tg, 1e-6):10.0f}x"
+        )
     print(f"greedy/exact: min {min(ratios):.4f}, mean {np.mean(ratios):.4f} (target >= 0.97; proven bound 0.5)")
 
     print("\n== lazy vs plain greedy on the full demo instance")
@@ -93,8 +110,10 @@ def main() -> None:
     t = time.perf_counter()
     plain = greedy_plain(m.grid, packed, start)
     tp = time.perf_counter() - t
-    print(f"lazy {tl:.3f} s ({lazy.evaluations} gains), plain {tp:.3f} s ({plain.evaluations} gains), "
-          f"same picks: {lazy.elements == plain.elements}, plain/lazy time {tp / max(tl, 1e-9):.1f}x")
+    print(
+        f"lazy {tl:.3f} s ({lazy.evaluations} gains), plain {tp:.3f} s ({plain.evaluations} gains), "
+        f"same picks: {lazy.elements == plain.elements}, plain/lazy time {tp / max(tl, 1e-9):.1f}x"
+    )
     credit = m.slot_credit()  # the plan's greedy: coverage plus the slots' quality and hours credit
     t = time.perf_counter()
     lazy = greedy_lazy(m.grid, packed, start, credit)
@@ -102,15 +121,28 @@ def main() -> None:
     t = time.perf_counter()
     plain = greedy_plain(m.grid, packed, start, credit)
     tp = time.perf_counter() - t
-    print(f"with slot credit: lazy {tl:.3f} s ({lazy.evaluations} gains), plain {tp:.3f} s ({plain.evaluations} "
-          f"gains), same picks: {lazy.elements == plain.elements}, plain/lazy time {tp / max(tl, 1e-9):.1f}x")
+    print(
+        f"with slot credit: lazy {tl:.3f} s ({lazy.evaluations} gains), plain {tp:.3f} s ({plain.evaluations} "
+        f"gains), same picks: {lazy.elements == plain.elements}, plain/lazy time {tp / max(tl, 1e-9):.1f}x"
+    )
 
     print("\n== cost growth (schedule_core: slots, greedy, local search 6000 moves, baseline, weather MC)")
     print("nights sites periods elements  seconds")
-    for nights, n_sites, oversample in [(1, 4, 10.0), (2, 4, 10.0), (4, 4, 10.0), (7, 4, 10.0), (7, 1, 10.0),
-                                        (7, 2, 10.0), (7, 3, 10.0), (7, 4, 2.5), (7, 4, 5.0), (7, 4, 20.0)]:
-        camp, w = _sub(campaign, windows, nights, n_sites,
-                       rotation=dataclasses.replace(campaign.rotation, oversample=oversample))
+    for nights, n_sites, oversample in [
+        (1, 4, 10.0),
+        (2, 4, 10.0),
+        (4, 4, 10.0),
+        (7, 4, 10.0),
+        (7, 1, 10.0),
+        (7, 2, 10.0),
+        (7, 3, 10.0),
+        (7, 4, 2.5),
+        (7, 4, 5.0),
+        (7, 4, 20.0),
+    ]:
+        camp, w = _sub(
+            campaign, windows, nights, n_sites, rotation=dataclasses.replace(campaign.rotation, oversample=oversample)
+        )
         t = time.perf_counter()
         core = schedule_core(camp, w)
         dt = time.perf_counter() - t

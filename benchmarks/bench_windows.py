@@ -32,8 +32,9 @@ from planner.inputs.targets import load_target  # noqa: E402
 from planner.sky.geometry import geometry  # noqa: E402
 from planner.sky.skydata import no_iers_download  # noqa: E402
 from planner.visibility.intervals import true_runs  # noqa: E402
+from planner.visibility.limits import in_granted  # noqa: E402
 from planner.visibility.nights import night_bounds_utc  # noqa: E402
-from planner.visibility.windows import in_blocks, observable_windows  # noqa: E402
+from planner.visibility.windows import observable_windows  # noqa: E402
 
 FIRST, NIGHTS, STEP_S = date(2034, 3, 16), 7, 300.0
 
@@ -51,8 +52,9 @@ def astroplan_windows(target, sites):
         grid = time_grid(bounds[0], bounds[-1], STEP_S)
         geo = geometry(target, grid)["geocentre"]
         coords = SkyCoord(geo["ra_deg"].to_numpy() * u.deg, geo["dec_deg"].to_numpy() * u.deg)
-        obs = Observer(location=EarthLocation(lat=s.latitude_deg * u.deg, lon=s.longitude_deg * u.deg,
-                                              height=s.height_m * u.m))
+        obs = Observer(
+            location=EarthLocation(lat=s.latitude_deg * u.deg, lon=s.longitude_deg * u.deg, height=s.height_m * u.m)
+        )
         times = Time(grid, scale="utc")
         ok = np.ravel(AtNightConstraint(max_solar_altitude=s.night_sun_alt_deg * u.deg)(obs, coords, times=times))
         altaz = obs.altaz(times, coords)
@@ -66,7 +68,7 @@ def astroplan_windows(target, sites):
             ok &= np.abs(ha) <= s.max_hour_angle_h
         if s.dec_range_deg is not None:
             ok &= (coords.dec.deg >= s.dec_range_deg[0]) & (coords.dec.deg <= s.dec_range_deg[1])
-        ok &= in_blocks(grid, s.allocation.blocks_utc)
+        ok &= in_granted(grid, s.allocation.granted_utc)
         night = np.minimum(np.searchsorted(bounds, grid, side="right") - 1, NIGHTS - 1)
         first, last = true_runs(ok, night)
         out += [(s.name, int(night[a]), grid[a], grid[b]) for a, b in zip(first, last, strict=True)]

@@ -23,7 +23,8 @@ import numpy as np
 import pandas as pd
 
 from planner.core.timegrid import time_grid
-from planner.diagnostics.check import CheckResult, check_times
+from planner.diagnostics.check import check_times
+from planner.diagnostics.result import CheckResult
 from planner.inputs.campaign import Campaign
 from planner.inputs.donelog import DoneLog
 from planner.inputs.targets import Target
@@ -113,8 +114,10 @@ def compare(plan: CheckResult, base: CheckResult) -> Comparison:
     return Comparison(
         worst_period_coverage=(_worst_coverage(plan), _worst_coverage(base)),
         highest_alias=(_highest_alias(plan), _highest_alias(base)),
-        trend_min_detectable_mag_per_day=(plan.trend.get("min_detectable_mag_per_day"),
-                                          base.trend.get("min_detectable_mag_per_day")),
+        trend_min_detectable_mag_per_day=(
+            plan.trend.get("min_detectable_mag_per_day"),
+            base.trend.get("min_detectable_mag_per_day"),
+        ),
         n_times=(int(plan.times_jd.size), int(base.times_jd.size)),
     )
 
@@ -138,8 +141,9 @@ def geometry_sample(target: Target, sites, grid: SlotGrid, nights: int | None = 
     return pd.concat(out, ignore_index=True)
 
 
-def diagnose_points(campaign: Campaign, target: Target, points: pd.DataFrame, done: DoneLog | None,
-                    trials: int) -> CheckResult:
+def diagnose_points(
+    campaign: Campaign, target: Target, points: pd.DataFrame, done: DoneLog | None, trials: int
+) -> CheckResult:
     """``check_times`` on light-curve points (one per slot: frames stacked) plus anything already done.
 
     Each point's σ is its stacked photometric error with the per-airmass systematic term
@@ -148,8 +152,9 @@ def diagnose_points(campaign: Campaign, target: Target, points: pd.DataFrame, do
     times = points["time_utc"].to_numpy("datetime64[ns]")
     err = points["mag_err"].to_numpy(dtype=float)
     if "airmass" in points:
-        err = point_sigma_mag(err, 1, points["airmass"].to_numpy(dtype=float),
-                              campaign.photometry.sys_err_mag_per_airmass)
+        err = point_sigma_mag(
+            err, 1, points["airmass"].to_numpy(dtype=float), campaign.photometry.sys_err_mag_per_airmass
+        )
     site = points["site"].to_numpy(dtype=object)
     if done is not None and done.times_utc.size:
         times = np.concatenate([done.times_utc, times])
@@ -158,14 +163,31 @@ def diagnose_points(campaign: Campaign, target: Target, points: pd.DataFrame, do
     fallback = float(np.nanmedian(err)) if np.isfinite(err).any() else 0.02
     err = np.where(np.isfinite(err) & (err > 0), err, fallback)
     rot = campaign.rotation
-    return check_times(times, min_period_h=rot.min_period_h, max_period_h=rot.max_period_h, mag_err=err,
-                       sites=site, target=target, trials=trials, seed=campaign.seed,
-                       amplitude_range_mag=rot.amplitude_mag, double_peaked=rot.double_peaked,
-                       phase_bins=rot.phase_bins, oversample=rot.oversample)
+    return check_times(
+        times,
+        min_period_h=rot.min_period_h,
+        max_period_h=rot.max_period_h,
+        mag_err=err,
+        sites=site,
+        target=target,
+        trials=trials,
+        seed=campaign.seed,
+        amplitude_range_mag=rot.amplitude_mag,
+        double_peaked=rot.double_peaked,
+        phase_bins=rot.phase_bins,
+        oversample=rot.oversample,
+    )
 
 
-def plan_campaign(campaign: Campaign, target: Target, done: DoneLog | None = None, *, exact: bool = False,
-                  exact_time_limit_s: float = 60.0, check_trials: int | None = None) -> PlanResult:
+def plan_campaign(
+    campaign: Campaign,
+    target: Target,
+    done: DoneLog | None = None,
+    *,
+    exact: bool = False,
+    exact_time_limit_s: float = 60.0,
+    check_trials: int | None = None,
+) -> PlanResult:
     """Optimise a campaign; compute its baseline, diagnostics, robustness, windows and geometry sample.
 
     Parameters
@@ -186,18 +208,25 @@ def plan_campaign(campaign: Campaign, target: Target, done: DoneLog | None = Non
     Returns
     -------
     PlanResult
-        Blocks, baseline, both checks, objective, weather robustness, windows, geometry sample,
+        BlockRules, baseline, both checks, objective, weather robustness, windows, geometry sample,
         comparison and night notes; :func:`planner.outputs.planfolder.write_plan_folder` writes it.
     """
     timings: dict[str, float] = {}
     t = time.perf_counter()
-    windows = observable_windows(target, list(campaign.sites), campaign.first_night, campaign.nights,
-                                 step_s=campaign.blocks.slot_s)
+    windows = observable_windows(
+        target, list(campaign.sites), campaign.first_night, campaign.nights, step_s=campaign.block_rules.slot_s
+    )
     timings["windows"] = time.perf_counter() - t
     t = time.perf_counter()
     rules = campaign.photometry
-    core = schedule_core(campaign, windows, done, exact=exact, exact_time_limit_s=exact_time_limit_s,
-                         precision_fn=lambda grid: slot_precision(grid, target, campaign.sites, rules))
+    core = schedule_core(
+        campaign,
+        windows,
+        done,
+        exact=exact,
+        exact_time_limit_s=exact_time_limit_s,
+        precision_fn=lambda grid: slot_precision(grid, target, campaign.sites, rules),
+    )
     timings["schedule"] = time.perf_counter() - t
     t = time.perf_counter()
     blocks, exposures = block_table(core.visits, core.grid, target, campaign.sites, rules)
@@ -206,19 +235,37 @@ def plan_campaign(campaign: Campaign, target: Target, done: DoneLog | None = Non
     timings["blocks_and_geometry"] = time.perf_counter() - t
     t = time.perf_counter()
     trials = campaign.check_trials if check_trials is None else check_trials
-    bin_s = campaign.blocks.slot_s
-    checks = {"plan": diagnose_points(campaign, target, binned_points(exposures, core.grid.t_ref, bin_s), done,
-                                      trials),
-              "baseline": diagnose_points(campaign, target, binned_points(base_exposures, core.grid.t_ref, bin_s),
-                                          done, trials)}
+    bin_s = campaign.block_rules.slot_s
+    checks = {
+        "plan": diagnose_points(campaign, target, binned_points(exposures, core.grid.t_ref, bin_s), done, trials),
+        "baseline": diagnose_points(
+            campaign, target, binned_points(base_exposures, core.grid.t_ref, bin_s), done, trials
+        ),
+    }
     timings["diagnostics"] = time.perf_counter() - t
     replan = None
     if done is not None:
-        replan = ReplanSummary(log=done.path, n_done_times=int(done.times_utc.size),
-                               not_before_utc=None if done.end_utc is None else str(done.end_utc)[:16] + "Z",
-                               lost_site_nights=sorted([s, n.isoformat()] for s, n in done.lost))
-    return PlanResult(campaign=campaign, target=target, blocks=blocks, baseline=baseline, checks=checks,
-                      objective=core.objective, robustness=core.robustness, windows=windows, geometry=geo,
-                      comparison=compare(checks["plan"], checks["baseline"]), exposures=exposures,
-                      baseline_exposures=base_exposures, done=done, replan=replan, timings_s=timings,
-                      nights=core.nights)
+        replan = ReplanSummary(
+            log=done.path,
+            n_done_times=int(done.times_utc.size),
+            not_before_utc=None if done.end_utc is None else str(done.end_utc)[:16] + "Z",
+            lost_site_nights=sorted([s, n.isoformat()] for s, n in done.lost),
+        )
+    return PlanResult(
+        campaign=campaign,
+        target=target,
+        blocks=blocks,
+        baseline=baseline,
+        checks=checks,
+        objective=core.objective,
+        robustness=core.robustness,
+        windows=windows,
+        geometry=geo,
+        comparison=compare(checks["plan"], checks["baseline"]),
+        exposures=exposures,
+        baseline_exposures=base_exposures,
+        done=done,
+        replan=replan,
+        timings_s=timings,
+        nights=core.nights,
+    )

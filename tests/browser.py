@@ -29,9 +29,7 @@ def find_chromium() -> str | None:
 class Browser:
     """One headless Chromium with one page, controlled through the DevTools pipe."""
 
-    def __init__(
-        self, executable: str, width: int = 1200, height: int = 900, timeout_s: float = 60.0
-    ) -> None:
+    def __init__(self, executable: str, width: int = 1200, height: int = 900, timeout_s: float = 60.0) -> None:
         self.timeout_s = timeout_s
         self.profile = tempfile.mkdtemp(prefix="phasewise-chromium-")
         to_browser_r, self._to_browser = os.pipe()
@@ -153,11 +151,7 @@ class Browser:
         return out
 
     def requested_urls(self) -> list[str]:
-        return [
-            ev["params"]["request"]["url"]
-            for ev in self.events
-            if ev.get("method") == "Network.requestWillBeSent"
-        ]
+        return [ev["params"]["request"]["url"] for ev in self.events if ev.get("method") == "Network.requestWillBeSent"]
 
     def close(self) -> None:
         try:

@@ -35,7 +35,13 @@ def demo_plan():
 
 @pytest.fixture(scope="session")
 def demo_folder(demo_plan, tmp_path_factory) -> Path:
-    """The demo plan's folder, written once (read it; copy it before changing anything)."""
-    from planner.outputs.planfolder import write_plan_folder
+    """The demo's folder as ``phasewise demo`` writes it (run_demo on the session's plan), written once:
+    read it, or copy it before changing anything."""
+    import planner.demo
 
-    return write_plan_folder(demo_plan[1], tmp_path_factory.mktemp("demo") / "plan")
+    out = tmp_path_factory.mktemp("demo") / "phasewise-demo"
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(planner.demo, "plan_campaign", lambda *args, **kwargs: demo_plan[1])
+        result = planner.demo.run_demo(out)
+    assert result.report_path == out / "report.html"
+    return out

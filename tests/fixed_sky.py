@@ -13,7 +13,7 @@ from planner.sky.skydata import planets, utc_times
 
 
 def fixed_star_sky(ra_deg: float, dec_deg: float, sites):
-    """``sky_at`` for :func:`planner.visibility.windows.find_windows`: geometric (unrefracted) alt/az of a fixed star."""
+    """``sky_at`` for :func:`planner.visibility.windows.find_windows`: geometric alt/az of a fixed star."""
     eph = planets()
     star = Star(ra_hours=ra_deg / 15.0, dec_degrees=dec_deg)
     by_name = {s.name: s for s in sites}
@@ -38,20 +38,42 @@ def fixed_star_sky(ra_deg: float, dec_deg: float, sites):
             moon_alt = moon.altaz()[0].degrees
             h = np.atleast_1d(alt.degrees)
             airmass = 1.0 / (np.sin(np.radians(h)) + 0.50572 * (np.maximum(h, -6.0) + 6.07995) ** -1.6364)
-            out[name] = pd.DataFrame({
-                "time_utc": times, "ra_deg": ra_deg, "dec_deg": dec_deg,
-                "solar_elong_deg": np.atleast_1d(tgt.separation_from(sun).degrees),
-                "mag_pred": np.nan, "motion_arcsec_min": 0.0,
-                "alt_deg": h, "az_deg": np.atleast_1d(az.degrees), "airmass": airmass,
-                "hour_angle_h": (np.atleast_1d(ha.hours) + 12.0) % 24.0 - 12.0,
-                "sun_alt_deg": np.atleast_1d(sun_alt), "moon_alt_deg": np.atleast_1d(moon_alt),
-                "moon_sep_deg": np.atleast_1d(tgt.separation_from(moon).degrees),
-                "moon_illum": np.atleast_1d(almanac.fraction_illuminated(eph, "moon", t)),
-            })
+            out[name] = pd.DataFrame(
+                {
+                    "time_utc": times,
+                    "ra_deg": ra_deg,
+                    "dec_deg": dec_deg,
+                    "solar_elong_deg": np.atleast_1d(tgt.separation_from(sun).degrees),
+                    "mag_pred": np.nan,
+                    "motion_arcsec_per_min": 0.0,
+                    "alt_deg": h,
+                    "az_deg": np.atleast_1d(az.degrees),
+                    "airmass": airmass,
+                    "hour_angle_h": (np.atleast_1d(ha.hours) + 12.0) % 24.0 - 12.0,
+                    "sun_alt_deg": np.atleast_1d(sun_alt),
+                    "moon_alt_deg": np.atleast_1d(moon_alt),
+                    "moon_sep_deg": np.atleast_1d(tgt.separation_from(moon).degrees),
+                    "moon_illum": np.atleast_1d(almanac.fraction_illuminated(eph, "moon", t)),
+                }
+            )
         return out
 
     return sky_at
 
 
-COLUMNS = ["time_utc", "ra_deg", "dec_deg", "solar_elong_deg", "mag_pred", "motion_arcsec_min", "alt_deg",
-           "az_deg", "airmass", "hour_angle_h", "sun_alt_deg", "moon_alt_deg", "moon_sep_deg", "moon_illum"]
+COLUMNS = [
+    "time_utc",
+    "ra_deg",
+    "dec_deg",
+    "solar_elong_deg",
+    "mag_pred",
+    "motion_arcsec_per_min",
+    "alt_deg",
+    "az_deg",
+    "airmass",
+    "hour_angle_h",
+    "sun_alt_deg",
+    "moon_alt_deg",
+    "moon_sep_deg",
+    "moon_illum",
+]

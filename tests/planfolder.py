@@ -127,7 +127,7 @@ def make_plan_folder(
                         moon_sep_deg=np.nan,
                         moon_illum=np.nan,
                         mag_pred=np.nan,
-                        motion_arcsec_min=np.nan,
+                        motion_arcsec_per_min=np.nan,
                         reason="allocation withdrawn",
                     )
                 )
@@ -145,7 +145,7 @@ def make_plan_folder(
                     moon_sep_deg=80.0,
                     moon_illum=0.3,
                     mag_pred=15.1,
-                    motion_arcsec_min=1.2,
+                    motion_arcsec_per_min=1.2,
                     reason="",
                     caution="Moon <rises> late" if k == 1 else "",
                 )
@@ -164,18 +164,18 @@ def make_plan_folder(
                         exposure_s=150.0,
                         ra_deg=TARGET_RA_DEG,
                         dec_deg=TARGET_DEC_DEG,
-                        motion_arcsec_min=1.234567,
+                        motion_arcsec_per_min=1.234567,
                         motion_pa_deg=211.5,
-                        alt_min_deg=35.25,
-                        alt_max_deg=61.5,
-                        airmass_min=1.139,
-                        airmass_max=1.739,
+                        min_alt_deg=35.25,
+                        max_alt_deg=61.5,
+                        min_airmass=1.139,
+                        max_airmass=1.739,
                         moon_sep_deg=81.25,
                         mag_pred=15.123456,
                         snr_pred=48.7,
                         hours=round((b1 - b0).total_seconds() / 3600, 4),
                         solar_elong_deg=118.5,
-                        sun_alt_max_deg=float(sun_alt[(times >= b0) & (times <= b1)].max()),
+                        max_sun_alt_deg=float(sun_alt[(times >= b0) & (times <= b1)].max()),
                         cautions="twilight" if float(sun_alt[(times >= b0) & (times <= b1)].max()) > -12 else "",
                     )
                 )
@@ -209,9 +209,18 @@ def make_plan_folder(
         "phasewise_version": "fixture",
         "campaign": {"name": target_name + " week", "first_night": NIGHTS[0], "nights": len(NIGHTS), "seed": 1},
         "target": {"name": target_name, "kind": "comet"},
-        "sites": [{"name": s[0], "timezone": zones[s[3]], "latitude_deg": s[1], "longitude_deg": s[2],
-                   "min_alt_deg": 20.0, "min_solar_elong_deg": 30.0, "sheet": f"sheets/{_slug(s[0])}.txt"}
-                  for s in sites],
+        "sites": [
+            {
+                "name": s[0],
+                "timezone": zones[s[3]],
+                "latitude_deg": s[1],
+                "longitude_deg": s[2],
+                "min_alt_deg": 20.0,
+                "min_solar_elong_deg": 30.0,
+                "sheet": f"sheets/{_slug(s[0])}.txt",
+            }
+            for s in sites
+        ],
         "settings": {"rotation": {"min_period_h": 2.0, "max_period_h": 30.0, "double_peaked": True}},
         "blocks": json.loads(plan.to_json(orient="records")),
     }

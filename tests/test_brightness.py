@@ -44,7 +44,7 @@ def test_pogson_ratio_and_k1_convention():
     assert 10 ** (0.4 * 1.0) == pytest.approx(2.512, abs=5e-4)
     m1 = comet_total_mag(11.0, 10.0, 1.0, 1.0)
     m2 = comet_total_mag(11.0, 10.0, 2.0, 1.0)
-    assert 10 ** (0.4 * (m2 - m1)) == pytest.approx(2.0 ** 4, rel=1e-12)
+    assert 10 ** (0.4 * (m2 - m1)) == pytest.approx(2.0**4, rel=1e-12)
     # Δ enters as 5 log Δ: 10× farther is 100× fainter (inverse square).
     assert 10 ** (0.4 * (comet_total_mag(11.0, 10.0, 1.0, 10.0) - m1)) == pytest.approx(100.0, rel=1e-12)
 
@@ -58,8 +58,10 @@ def test_nuclear_law_phase_term():
 
 def test_law_selection():
     r, d, a = np.array([1.5]), np.array([0.6]), np.array([20.0])
-    assert predicted_mag("comet", Brightness(M1=11, K1=10, M2=16, K2=5, phase_coeff_mag_per_deg=0.03),
-                         r, d, a)[1] == LAW_TOTAL
+    assert (
+        predicted_mag("comet", Brightness(M1=11, K1=10, M2=16, K2=5, phase_coeff_mag_per_deg=0.03), r, d, a)[1]
+        == LAW_TOTAL
+    )
     nucleus = Brightness(M2=16, K2=5, phase_coeff_mag_per_deg=0.03)
     assert predicted_mag("comet", nucleus, r, d, a)[1] == LAW_NUCLEAR
     assert predicted_mag("asteroid", Brightness(H=15, G=0.15), r, d, a)[1] == LAW_HG

@@ -21,8 +21,12 @@ seed = 1
 
 
 def _write(tmp_path, root, extra="", **over):
-    text = GOOD.format(target=root / "demo_targets" / "c2034-b3-quillfeather.toml",
-                       site=root / "sites" / "karoo-ridge.toml") + extra
+    text = (
+        GOOD.format(
+            target=root / "demo_targets" / "c2034-b3-quillfeather.toml", site=root / "sites" / "karoo-ridge.toml"
+        )
+        + extra
+    )
     for k, v in over.items():
         text = text.replace(k, v)
     p = tmp_path / "c.toml"
@@ -46,21 +50,36 @@ def test_paths_are_relative_to_the_campaign_file(tmp_path, root):
     shutil.copy(root / "demo_targets" / "c2034-b3-quillfeather.toml", tmp_path / "t" / "comet.toml")
     shutil.copy(root / "sites" / "karoo-ridge.toml", tmp_path / "site.toml")
     p = tmp_path / "t" / "c.toml"
-    p.write_text('name = "x"\ntarget = "comet.toml"\nsites = ["../site.toml"]\nfirst_night = "2034-03-16"\n'
-                 "nights = 1\n")
+    p.write_text(
+        'name = "x"\ntarget = "comet.toml"\nsites = ["../site.toml"]\nfirst_night = "2034-03-16"\nnights = 1\n'
+    )
     c = load_campaign(p)
     assert c.target_path == tmp_path / "t" / "comet.toml"
 
 
-@pytest.mark.parametrize("extra, field, words", [
-    ("\n[blocks]\nmin_block_h = 3\nmax_block_h = 2\n", "blocks.max_block_h", "below min_block_h"),
-    ("\n[rotation]\nmin_period_h = 10\nmax_period_h = 5\n", "rotation.max_period_h", "above min_period_h"),
-    ("\n[blocks]\nsetup_min = 70\nmin_block_h = 1\n", "blocks.setup_min", "no science time"),
-    ("\n[weigths]\ncoverage = 1\n", "weigths", "unknown field"),
-    ('\n[site."Nowhere"]\nhours_per_night = 2\n', "site.Nowhere", "no campaign site"),
-    ('\n[site."Karoo Ridge"]\nhours_per_night = 2\nblocks = [["2034-03-16T20:00", "2034-03-16T22:00"]]\n',
-     'site.Karoo Ridge.blocks', "not both"),
-])
+@pytest.mark.parametrize(
+    "extra, field, words",
+    [
+        ("\n[blocks]\nmin_block_h = 3\nmax_block_h = 2\n", "blocks.max_block_h", "below min_block_h"),
+        ("\n[rotation]\nmin_period_h = 10\nmax_period_h = 5\n", "rotation.max_period_h", "above min_period_h"),
+        ("\n[blocks]\nsetup_minutes = 70\nmin_block_h = 1\n", "blocks.setup_minutes", "no science time"),
+        # Keys renamed since 0.1 name their new spelling instead of falling to "unknown field".
+        ("\n[blocks]\nslot_min = 10\n", "blocks.slot_min", "now called 'slot_minutes'"),
+        ("\n[blocks]\nsetup_min = 10\n", "blocks.setup_min", "now called 'setup_minutes'"),
+        (
+            '\n[site."Karoo Ridge"]\nblocks = [["2034-03-16T20:00", "2034-03-16T22:00"]]\n',
+            "site.Karoo Ridge.blocks",
+            "now called 'granted_utc'",
+        ),
+        ("\n[weigths]\ncoverage = 1\n", "weigths", "unknown field"),
+        ('\n[site."Nowhere"]\nhours_per_night = 2\n', "site.Nowhere", "no campaign site"),
+        (
+            '\n[site."Karoo Ridge"]\nhours_per_night = 2\ngranted_utc = [["2034-03-16T20:00", "2034-03-16T22:00"]]\n',
+            "site.Karoo Ridge.granted_utc",
+            "not both",
+        ),
+    ],
+)
 def test_bad_fields_name_the_field(tmp_path, root, extra, field, words):
     with pytest.raises(InputError) as e:
         load_campaign(_write(tmp_path, root, extra))

@@ -3,11 +3,10 @@
 from __future__ import annotations
 
 import json
-import subprocess
-import sys
 
 import numpy as np
 import pytest
+from clirun import run_cli
 
 from planner.cli import main
 from planner.core.errors import InputError
@@ -23,11 +22,6 @@ def _write_log(path, hours, sites=None, extra=""):
         lines.append(f"{ti}Z,{site},{'' if i % 4 == 0 else 0.015}")
     path.write_text("\n".join(lines) + "\n")
     return path
-
-
-def _run(*args):
-    return subprocess.run([sys.executable, "-m", "planner", "check", *map(str, args)],
-                          capture_output=True, text=True, timeout=120)
 
 
 def _call(capsys, *args) -> tuple[int, str, str]:
@@ -47,32 +41,56 @@ def single_log(tmp_path):
     return _write_log(tmp_path / "single.csv", hours)
 
 
-def test_table_json_out_and_plots(single_log, tmp_path):
-    r = _run(single_log, "--min-period", "2h", "--max-period", "30h", "--trials", "60", "--seed", "4")
+def test_table_json_out_and_plots(single_log, tmp_path, capsys):
+    r = run_cli(
+        capsys, "check", single_log, "--min-period", "2h", "--max-period", "30h", "--trials", "60", "--seed", "4"
+    )
     assert r.returncode == 0, r.stderr
     assert "Verdict by period band" in r.stdout and "under-covered" in r.stdout
     assert "24 h" in r.stdout and "12.00 h ↔" in r.stdout
     out = tmp_path / "check.json"
     plots = tmp_path / "plots"
-    r = _run(single_log, "--min-period", "120m", "--max-period", "1.25d", "--trials", "60",
-             "--format", "json", "--out", out, "--plot", plots)
+    r = run_cli(
+        capsys,
+        "check",
+        single_log,
+        "--min-period",
+        "120m",
+        "--max-period",
+        "1.25d",
+        "--trials",
+        "60",
+        "--format",
+        "json",
+        "--out",
+        out,
+        "--plot",
+        plots,
+    )
     assert r.returncode == 0, r.stderr
     d = json.loads(out.read_text())
     assert d["settings"]["max_period_h"] == pytest.approx(30.0)
     assert d["input"]["n_times"] == 240 and d["input"]["sites"] == {"hilltop": 240}
     assert sorted(p.name for p in plots.iterdir()) == [
-        "check_coverage_map.png", "check_recovery.png", "check_sensitivity.png", "check_spectral_window.png"]
+        "check_coverage_map.png",
+        "check_recovery.png",
+        "check_sensitivity.png",
+        "check_spectral_window.png",
+    ]
     assert all(p.read_bytes()[:4] == b"\x89PNG" for p in plots.iterdir())
 
 
-@pytest.mark.parametrize("content, message", [
-    ("time_utc\n2034-03-10T20:00Z\nyesterday\n", "time_utc (row 2): 'yesterday' is not an ISO 8601"),
-    ("time_utc,mag_err\n2034-03-10T20:00Z,-0.1\n", "mag_err (row 1): '-0.1' must be a positive number"),
-    ("time_utc,colour\n2034-03-10T20:00Z,red\n", "colour: unknown column"),
-    ("site\nhilltop\n", "time_utc: missing column"),
-    ("time_utc\n", "time_utc: no observation times"),
-    ("time_utc,exposure_s\n2034-03-10T20:00Z,abc\n", "exposure_s (row 1): 'abc' is not a number"),
-])
+@pytest.mark.parametrize(
+    "content, message",
+    [
+        ("time_utc\n2034-03-10T20:00Z\nyesterday\n", "time_utc (row 2): 'yesterday' is not an ISO 8601"),
+        ("time_utc,mag_err\n2034-03-10T20:00Z,-0.1\n", "mag_err (row 1): '-0.1' must be a positive number"),
+        ("time_utc,colour\n2034-03-10T20:00Z,red\n", "colour: unknown column"),
+        ("site\nhilltop\n", "time_utc: missing column"),
+        ("time_utc\n", "time_utc: no observation times"),
+        ("time_utc,exposure_s\n2034-03-10T20:00Z,abc\n", "exposure_s (row 1): 'abc' is not a number"),
+    ],
+)
 def test_bad_log_is_one_line_exit_2(capsys, tmp_path, content, message):
     f = tmp_path / "bad.csv"
     f.write_text(content)
@@ -83,10 +101,12 @@ def test_bad_log_is_one_line_exit_2(capsys, tmp_path, content, message):
 
 
 def test_bad_options_exit_2(capsys, single_log, tmp_path):
-    for args, field in ((["--min-period", "soon"], "--min-period"),
-                        (["--min-period", "30h", "--max-period", "2h"], "--max-period"),
-                        (["--format", "xml"], "--format"),
-                        (["--amplitude", "big"], "--amplitude")):
+    for args, field in (
+        (["--min-period", "soon"], "--min-period"),
+        (["--min-period", "30h", "--max-period", "2h"], "--max-period"),
+        (["--format", "xml"], "--format"),
+        (["--amplitude", "big"], "--amplitude"),
+    ):
         code, _, err = _call(capsys, single_log, *args)
         assert code == 2 and err.startswith("error: command line: " + field), err
     code, _, err = _call(capsys, tmp_path / "missing.csv")
@@ -102,7 +122,7 @@ def test_read_log_defaults_and_order(tmp_path):
         read_observation_log(tmp_path)
 
 
-def test_target_adds_geometric_trend_and_synodic_drift(root, tmp_path):
+def test_target_adds_geometric_trend_and_synodic_drift(root, tmp_path, capsys):
     # The demo target through planner.sky.geometry.geometry; the command reports the bisector motion.
     hours = np.concatenate([n * 24 + start + np.arange(20) / 4 for n in range(4) for start in (20, 4, 12)])
     log = tmp_path / "demo.csv"
@@ -110,12 +130,22 @@ def test_target_adds_geometric_trend_and_synodic_drift(root, tmp_path):
     times = base + np.round(hours * 3600).astype("int64").astype("timedelta64[s]")
     log.write_text("time_utc\n" + "".join(f"{t}Z\n" for t in times))
     out = tmp_path / "c.json"
-    r = _run(log, "--target", root / "demo_targets" / "c2034-b3-quillfeather.toml", "--trials", "20",
-             "--format", "json", "--out", out)
+    r = run_cli(
+        capsys,
+        "check",
+        log,
+        "--target",
+        root / "demo_targets" / "c2034-b3-quillfeather.toml",
+        "--trials",
+        "20",
+        "--format",
+        "json",
+        "--out",
+        out,
+    )
     assert r.returncode == 0, r.stderr
     d = json.loads(out.read_text())
     assert d["trend"]["geometric_trend_used"] and d["synodic"]["pab_lon_rate_deg_per_day"] is not None
-
 
 
 def test_missing_target_file_exit_2(capsys, single_log, tmp_path):
@@ -137,15 +167,20 @@ def test_site_instruments_set_the_noise_where_the_log_is_silent(capsys, tmp_path
     rows = [f"{t},Karoo Ridge,{'0.005' if i < 3 else ''}" for i, t in enumerate(times)]
     rows.append("2034-03-17T12:00:00Z,Karoo Ridge,")  # local 14:00: Sun up, no prediction
     log.write_text("time_utc,site,mag_err\n" + "\n".join(rows) + "\n")
-    code, out, err = _call(capsys, log, "--target", target, "--site", site_file, "--trials", "0",
-                           "--mag-err", "0.3", "--format", "json")
+    code, out, err = _call(
+        capsys, log, "--target", target, "--site", site_file, "--trials", "0", "--mag-err", "0.3", "--format", "json"
+    )
     assert code == 0, err
     d = json.loads(out)
     assert d["input"]["mag_err_sources"] == {"log": 3, "model": 9, "fallback": 1}
-    model = mag_err_for_times(load_target(target), np.array([t[:-1] for t in times[3:]], dtype="datetime64[ns]"),
-                              ["Karoo Ridge"] * 9, [load_site(site_file)])
+    model = mag_err_for_times(
+        load_target(target),
+        np.array([t[:-1] for t in times[3:]], dtype="datetime64[ns]"),
+        ["Karoo Ridge"] * 9,
+        [load_site(site_file)],
+    )
     want = np.median(np.concatenate([[0.005] * 3, model, [0.3]]))
-    assert d["input"]["mag_err_median"] == pytest.approx(want, rel=1e-9)
+    assert d["input"]["median_mag_err"] == pytest.approx(want, rel=1e-9)
     assert 0.001 < model.max() < 0.1  # a 12th-magnitude comet on a 0.6 m telescope: millimag to centimag
     code, _, err = _call(capsys, log, "--site", site_file)
     assert code == 2

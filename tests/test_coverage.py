@@ -17,7 +17,7 @@ from planner.diagnostics.coverage import (
 
 def test_period_grid_step_in_frequency():
     # VanderPlas (2018) ApJS 236, 16, §7.1: frequency step 1/(n0 T), here n0 = 10.
-    periods = period_grid_h(2.0, 30.0, baseline_h=7 * 24.0, oversample=10)
+    periods = period_grid_h(2.0, 30.0, span_h=7 * 24.0, oversample=10)
     freq = 1.0 / periods
     assert periods[0] == pytest.approx(2.0) and periods[-1] == pytest.approx(30.0)
     assert np.all(np.diff(periods) > 0)
@@ -26,7 +26,7 @@ def test_period_grid_step_in_frequency():
 
 
 def test_period_grid_short_baseline_is_usable():
-    periods = period_grid_h(2.0, 30.0, baseline_h=0.0)
+    periods = period_grid_h(2.0, 30.0, span_h=0.0)
     assert periods.size >= 2 and periods[0] == pytest.approx(2.0)
 
 

@@ -29,15 +29,9 @@ def test_demo_refuses_a_foreign_folder_and_accepts_its_own(tmp_path):
     check_demo_folder(own)
 
 
-@pytest.fixture(scope="module")
-def demo_dir(tmp_path_factory):
-    from planner.demo import run_demo
-
-    out = tmp_path_factory.mktemp("demo") / "phasewise-demo"
-    # Few injection trials keep the test quick; the report renders the same keys either way.
-    result = run_demo(out, check_trials=2)
-    assert result.report_path == out / "report.html"
-    return out
+@pytest.fixture
+def demo_dir(demo_folder):
+    return demo_folder
 
 
 def test_demo_writes_plan_folder_and_report(demo_dir):

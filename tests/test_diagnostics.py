@@ -7,7 +7,8 @@ import json
 import numpy as np
 import pytest
 
-from planner.diagnostics.check import VERDICTS, check_times
+from planner.diagnostics.check import check_times
+from planner.diagnostics.result import VERDICTS
 
 BASE = np.datetime64("2034-03-10T00:00", "ns")
 
@@ -23,8 +24,9 @@ def single_site(nights=10):
 
 def multi_site(nights=10):
     """Four longitudes, each observing 5 h at a different time of the UTC day."""
-    return _times(np.concatenate([n * 24 + start + np.arange(30) / 6
-                                  for n in range(nights) for start in (20, 3, 10, 15)]))
+    return _times(
+        np.concatenate([n * 24 + start + np.arange(30) / 6 for n in range(nights) for start in (20, 3, 10, 15)])
+    )
 
 
 @pytest.fixture(scope="module")
@@ -74,20 +76,26 @@ def test_more_sites_measure_the_trend_better(single, multi):
     assert multi.trend["rate_sigma_mag_per_day"] < single.trend["rate_sigma_mag_per_day"]
     assert multi.trend["longest_gap_h"] < 3 < single.trend["longest_gap_h"]
     assert single.trend["longest_gap_h"] == pytest.approx(19 + 1 / 6, abs=1e-6)
-    assert single.trend["min_detectable_mag_per_day"] == pytest.approx(
-        3 * single.trend["rate_sigma_mag_per_day"])
+    assert single.trend["min_detectable_mag_per_day"] == pytest.approx(3 * single.trend["rate_sigma_mag_per_day"])
 
 
 def test_json_has_the_documented_keys_and_no_nan(single):
     d = single.to_dict()
-    for key in ("periods_h", "coverage", "largest_phase_gap", "window_peaks", "bands", "recovery",
-                "trend", "period_change"):
+    for key in (
+        "periods_h",
+        "coverage",
+        "largest_phase_gap",
+        "window_peaks",
+        "bands",
+        "recovery",
+        "trend",
+        "period_change",
+    ):
         assert key in d
     assert len(d["periods_h"]) == len(d["coverage"]) == len(d["largest_phase_gap"])
     assert set(d["trend"]) >= {"rate_sigma_mag_per_day", "min_detectable_mag_per_day", "longest_gap_h"}
     assert all(b["verdict"] in VERDICTS for b in d["bands"])
-    assert all({"min_period_h", "max_period_h", "verdict", "confusable_periods_h"} <= set(b)
-               for b in d["bands"])
+    assert all({"min_period_h", "max_period_h", "verdict", "confusable_periods_h"} <= set(b) for b in d["bands"])
     assert all({"period_h", "fraction"} <= set(r) for r in d["recovery"])
     assert all({"period_h", "min_detectable_change_h"} <= set(p) for p in d["period_change"])
     assert all({"freq_per_day", "height"} <= set(p) for p in d["window_peaks"])
@@ -99,10 +107,15 @@ def test_geometry_arrays_give_trend_and_synodic_drift():
     # moving 2°/day; Harris et al. (1984): offset = ω P², here (2/360)(P/24 d)² in days.
     times = multi_site(6)
     days = (times - times[0]).astype("timedelta64[s]").astype(float) / 86400
-    geo = {"helio_dist_au": 1.5 + 0.01 * days, "obs_dist_au": 0.6 + 0.005 * days,
-           "phase_angle_deg": 30 + 0 * days, "pab_lon_deg": 100 + 2.0 * days,
-           "pab_lat_deg": 1 + 0 * days, "solar_elong_deg": 25 + 10 * days,
-           "mag_pred": 12 + 5 * np.log10(0.6 + 0.005 * days) + 10 * np.log10(1.5 + 0.01 * days)}
+    geo = {
+        "helio_dist_au": 1.5 + 0.01 * days,
+        "obs_dist_au": 0.6 + 0.005 * days,
+        "phase_angle_deg": 30 + 0 * days,
+        "pab_lon_deg": 100 + 2.0 * days,
+        "pab_lat_deg": 1 + 0 * days,
+        "solar_elong_deg": 25 + 10 * days,
+        "mag_pred": 12 + 5 * np.log10(0.6 + 0.005 * days) + 10 * np.log10(1.5 + 0.01 * days),
+    }
     r = check_times(times, min_period_h=3, max_period_h=20, trials=40, geometry={"geocentre": geo})
     assert r.trend["geometric_trend_used"]
     assert r.synodic["pab_lon_rate_deg_per_day"] == pytest.approx(2.0)
@@ -164,8 +177,16 @@ def test_alias_failures_tell_sampling_from_noise():
 def test_noisy_sparse_data_are_under_covered_not_alias_prone():
     # Three short nights at one site with noise far above the amplitude: failures are noise.
     times = _times(np.concatenate([n * 24 + 20 + np.arange(12) / 4 for n in range(3)]))
-    r = check_times(times, min_period_h=2, max_period_h=10, trials=60, seed=2, mag_err=0.5,
-                    amplitude_range_mag=(0.05, 0.1), alias_threshold=1.01)
+    r = check_times(
+        times,
+        min_period_h=2,
+        max_period_h=10,
+        trials=60,
+        seed=2,
+        mag_err=0.5,
+        amplitude_range_mag=(0.05, 0.1),
+        alias_threshold=1.01,
+    )
     assert all(b["verdict"] == "under-covered" for b in r.bands)
     # winners land on alias frequencies no more often than a random frequency would
     observed = sum(b["failures_alias"] for b in r.bands)
@@ -179,7 +200,7 @@ def test_highest_alias_is_the_daily_peak_not_the_span_sidelobe(single):
     # length of the mean unit vector of the times folded on 1 c/d (Eyer & Bartholdi 1999), computed here.
     d = single.to_dict()
     top = d["highest_alias"]
-    span_d = d["input"]["baseline_h"] / 24.0
+    span_d = d["input"]["span_h"] / 24.0
     assert top["min_freq_per_day"] == pytest.approx(2.0 / span_d)
     assert top["freq_per_day"] == pytest.approx(1.0, abs=0.02)
     t_d = (single_site() - BASE).astype("int64") / 86400e9
@@ -192,6 +213,6 @@ def test_unbroken_sampling_has_only_span_sidelobes():
     t = _times(np.arange(7 * 24 * 6) / 6)
     d = check_times(t, min_period_h=2, max_period_h=30, trials=0).to_dict()
     side = [p for p in d["window_peaks"] if p["height"] > 0.15]
-    assert side and all(p["freq_per_day"] < 2.0 * 24.0 / d["input"]["baseline_h"] for p in side)
+    assert side and all(p["freq_per_day"] < 2.0 * 24.0 / d["input"]["span_h"] for p in side)
     assert max(p["height"] for p in side) == pytest.approx(0.217, abs=0.01)
     assert d["highest_alias"] is None or d["highest_alias"]["height"] < 0.15

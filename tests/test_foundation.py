@@ -101,12 +101,15 @@ def test_atomic_write_keeps_the_old_file_on_failure(tmp_path, monkeypatch):
     assert [x.name for x in tmp_path.iterdir()] == ["plan.csv"]
 
 
-@pytest.mark.parametrize("args, field", [
-    (["windows", "--target", "x.toml", "--start", "2034-03-16"], "--site"),
-    (["windows", "--target", "x.toml", "--site", "s.toml", "--start", "2034-03-16", "--nights", "0"], "--nights"),
-    (["ephem", "--no-such-option"], "--no-such-option"),
-    (["frobnicate"], "usage"),
-])
+@pytest.mark.parametrize(
+    "args, field",
+    [
+        (["windows", "--target", "x.toml", "--start", "2034-03-16"], "--site"),
+        (["windows", "--target", "x.toml", "--site", "s.toml", "--start", "2034-03-16", "--nights", "0"], "--nights"),
+        (["ephem", "--no-such-option"], "--no-such-option"),
+        (["frobnicate"], "usage"),
+    ],
+)
 def test_usage_errors_are_one_line_with_exit_2(capsys, args, field):
     from planner.cli import main
 

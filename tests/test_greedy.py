@@ -12,13 +12,13 @@ import itertools
 import numpy as np
 import pytest
 
-from planner.inputs.settings import Blocks
+from planner.inputs.settings import BlockRules
 from planner.schedule.exact import exact_coverage
 from planner.schedule.greedy import greedy_lazy, greedy_plain, merge_elements
 from planner.schedule.objective import arc_mask_slow, pack_cells
 from tests.schedule_helpers import model_for
 
-SMALL = Blocks(slot_min=15, min_block_h=1.0, max_block_h=4.0, setup_min=15, max_per_night=2)
+SMALL = BlockRules(slot_minutes=15, min_block_h=1.0, max_block_h=4.0, setup_minutes=15, max_per_night=2)
 
 
 def _run(model):
@@ -51,8 +51,8 @@ def _brute_force(model) -> int:
     """Best coverage over every feasible choice (≤ capacity elements per site-night), by enumeration."""
     g = model.grid
     per_part = []
-    for p, part in enumerate(g.parts):
-        idx = np.flatnonzero(g.elem_part == p).tolist()
+    for p, part in enumerate(g.site_nights):
+        idx = np.flatnonzero(g.elem_site_night == p).tolist()
         per_part.append([c for k in range(part.capacity + 1) for c in itertools.combinations(idx, k)])
     best = 0
     for choice in itertools.product(*per_part):
@@ -62,8 +62,9 @@ def _brute_force(model) -> int:
 
 def test_exact_equals_brute_force_and_greedy_meets_the_cardinality_bound():
     # One site-night: a cardinality constraint, bound 1 − 1/e.
-    model, _, _ = model_for(n_sites=1, n_nights=1, window_h=3.0, hours=2.0, blocks=SMALL, n_periods=8,
-                            n_bins=8, min_h=1.0, max_h=6.0)
+    model, _, _ = model_for(
+        n_sites=1, n_nights=1, window_h=3.0, hours=2.0, blocks=SMALL, n_periods=8, n_bins=8, min_h=1.0, max_h=6.0
+    )
     lazy, _ = _run(model)
     ex = exact_coverage(model, time_limit_s=30)
     brute = _brute_force(model)
@@ -75,8 +76,9 @@ def test_exact_equals_brute_force_and_greedy_meets_the_cardinality_bound():
 
 
 def test_exact_equals_brute_force_on_a_partition_matroid():
-    model, _, _ = model_for(n_sites=2, n_nights=1, window_h=2.5, hours=2.0, blocks=SMALL, n_periods=6,
-                            n_bins=6, min_h=1.0, max_h=5.0)
+    model, _, _ = model_for(
+        n_sites=2, n_nights=1, window_h=2.5, hours=2.0, blocks=SMALL, n_periods=6, n_bins=6, min_h=1.0, max_h=5.0
+    )
     lazy, _ = _run(model)
     ex = exact_coverage(model, time_limit_s=30)
     assert ex.optimal and ex.covered_cells == _brute_force(model)
@@ -86,8 +88,9 @@ def test_exact_equals_brute_force_on_a_partition_matroid():
 @pytest.mark.parametrize("seed", range(4))
 def test_greedy_against_exact_on_small_instances(seed, record_property):
     # Sized so coverage does not saturate (the greedy must choose) and HiGHS proves optimality in < 1 s.
-    model, _, _ = model_for(n_sites=2, n_nights=2, window_h=4.0, hours=2.0, blocks=SMALL, n_periods=12,
-                            n_bins=16, seed=seed)
+    model, _, _ = model_for(
+        n_sites=2, n_nights=2, window_h=4.0, hours=2.0, blocks=SMALL, n_periods=12, n_bins=16, seed=seed
+    )
     lazy, _ = _run(model)
     ex = exact_coverage(model, time_limit_s=60)
     assert ex.optimal
@@ -108,7 +111,7 @@ def test_merged_visits_cover_at_least_their_elements():
 
 
 def test_longest_visit_rule_is_enforced_and_voids_the_bound():
-    blocks = Blocks(slot_min=5, min_block_h=1.0, max_block_h=1.5, setup_min=10, max_per_night=2)
+    blocks = BlockRules(slot_minutes=5, min_block_h=1.0, max_block_h=1.5, setup_minutes=10, max_per_night=2)
     model, _, _ = model_for(n_sites=1, n_nights=2, hours=4.0, blocks=blocks, n_periods=20, n_bins=10)
     lazy, plain = _run(model)
     assert lazy.elements == plain.elements

@@ -56,6 +56,5 @@ def test_bisection_brackets_known_thresholds(offsets_s, tol_s):
 def test_bisection_works_backwards_in_time():
     # A window's start: true at the later sample, false at the earlier one.
     edge = T0 + np.timedelta64(1234, "s")
-    t_in, t_out = refine_edges(lambda t: t >= edge, np.array([T0 + np.timedelta64(3000, "s")]),
-                               np.array([T0]), 5.0)
+    t_in, t_out = refine_edges(lambda t: t >= edge, np.array([T0 + np.timedelta64(3000, "s")]), np.array([T0]), 5.0)
     assert t_out[0] < edge <= t_in[0] and (t_in[0] - t_out[0]) <= np.timedelta64(5, "s")

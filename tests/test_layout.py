@@ -15,8 +15,22 @@ import pytest
 PACKAGE = Path(__file__).resolve().parents[1] / "planner"
 
 #: Stages in pipeline order; a module may import from its own stage or an earlier one.
-LAYERS = ("core", "inputs", "sky", "photometry", "visibility", "diagnostics", "lightcurve", "schedule",
-          "pipeline", "outputs", "demo", "commands", "cli", "__main__")
+LAYERS = (
+    "core",
+    "inputs",
+    "sky",
+    "photometry",
+    "visibility",
+    "diagnostics",
+    "lightcurve",
+    "schedule",
+    "pipeline",
+    "outputs",
+    "demo",
+    "commands",
+    "cli",
+    "__main__",
+)
 #: The size a module should stay under (lines), so each file holds one concept.
 MAX_MODULE_LINES = 450
 

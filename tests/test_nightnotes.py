@@ -10,20 +10,29 @@ import numpy as np
 import pandas as pd
 
 from planner.inputs.campaign import Campaign
-from planner.inputs.settings import Blocks, Rotation, Weights
+from planner.inputs.settings import BlockRules, Rotation, Weights
 from planner.pipeline import schedule_core
 from planner.schedule.nightnotes import night_notes
 from planner.schedule.state import PlanState, Visit
 from tests.schedule_helpers import T_REF, synthetic_windows
 
-BLOCKS = Blocks(slot_min=10, min_block_h=1.0, max_block_h=3.0, setup_min=10, max_per_night=2)
+BLOCKS = BlockRules(slot_minutes=10, min_block_h=1.0, max_block_h=3.0, setup_minutes=10, max_per_night=2)
 
 
 def _campaign(sites, nights, **changes) -> Campaign:
-    base = Campaign(name="notes", path=Path("notes.toml"), target_path=Path("t.toml"), site_paths=(),
-                    sites=tuple(sites), first_night=date(2034, 3, 16), nights=nights, seed=3,
-                    rotation=Rotation(min_period_h=3.0, max_period_h=20.0, phase_bins=8, oversample=2.0),
-                    blocks=BLOCKS, weather_trials=10)
+    base = Campaign(
+        name="notes",
+        path=Path("notes.toml"),
+        target_path=Path("t.toml"),
+        site_paths=(),
+        sites=tuple(sites),
+        first_night=date(2034, 3, 16),
+        nights=nights,
+        seed=3,
+        rotation=Rotation(min_period_h=3.0, max_period_h=20.0, phase_bins=8, oversample=2.0),
+        block_rules=BLOCKS,
+        weather_trials=10,
+    )
     return dataclasses.replace(base, **changes)
 
 
@@ -31,12 +40,26 @@ def _windows():
     w, sites = synthetic_windows(3, 2, window_h=7.0, hours_per_night=2.0, seed=4)
     third = [
         # S0: target never up on the third night (a zero-hour row with the windows module's reason).
-        dict(site="S0", night="2034-03-18", start_utc=pd.NaT, end_utc=pd.NaT, hours=0.0, best_utc=pd.NaT,
-             max_alt_deg=np.nan, reason="below the horizon limit all dark time"),
+        dict(
+            site="S0",
+            night="2034-03-18",
+            start_utc=pd.NaT,
+            end_utc=pd.NaT,
+            hours=0.0,
+            best_utc=pd.NaT,
+            max_alt_deg=np.nan,
+            reason="below the horizon limit all dark time",
+        ),
         # S1: only 40 minutes, under the shortest block.
-        dict(site="S1", night="2034-03-18", start_utc=T_REF + np.timedelta64(3 * 24 * 60 + 420, "m"),
-             end_utc=T_REF + np.timedelta64(3 * 24 * 60 + 460, "m"), hours=40 / 60,
-             best_utc=T_REF + np.timedelta64(3 * 24 * 60 + 440, "m"), max_alt_deg=50.0),
+        dict(
+            site="S1",
+            night="2034-03-18",
+            start_utc=T_REF + np.timedelta64(3 * 24 * 60 + 420, "m"),
+            end_utc=T_REF + np.timedelta64(3 * 24 * 60 + 460, "m"),
+            hours=40 / 60,
+            best_utc=T_REF + np.timedelta64(3 * 24 * 60 + 440, "m"),
+            max_alt_deg=50.0,
+        ),
     ]
     return pd.concat([w, pd.DataFrame(third)], ignore_index=True), sites
 
@@ -47,7 +70,8 @@ def test_every_site_night_has_a_line_with_its_reason():
     core = schedule_core(camp, w, max_evaluations=600)
     n = core.nights
     assert len(n) == 3 * 3 and set(zip(n["site"], n["night"], strict=True)) == {
-        (s.name, f"2034-03-{d}") for s in sites for d in (16, 17, 18)}
+        (s.name, f"2034-03-{d}") for s in sites for d in (16, 17, 18)
+    }
     row = n[(n["site"] == "S0") & (n["night"] == "2034-03-18")].iloc[0]
     assert row["status"] == "no window" and row["note"] == "no window: below the horizon limit all dark time"
     row = n[(n["site"] == "S1") & (n["night"] == "2034-03-18")].iloc[0]
@@ -58,7 +82,7 @@ def test_every_site_night_has_a_line_with_its_reason():
     # Hours planned per site-night, recomputed from the visits themselves.
     hours = {}
     for v in core.visits:
-        p = core.grid.parts[v.part]
+        p = core.grid.site_nights[v.site_night]
         hours[(p.site, p.night.isoformat())] = hours.get((p.site, p.night.isoformat()), 0.0) + v.length / 6.0
     assert {(r.site, r.night): r.planned_h for r in planned.itertuples()} == hours
 
@@ -66,10 +90,12 @@ def test_every_site_night_has_a_line_with_its_reason():
 def _exhaustive_best(core, visits, site, night) -> float:
     g = core.grid
     state = PlanState(core.model, visits)
-    part = next(i for i, p in enumerate(g.parts) if p.site == site and p.night.isoformat() == night)
-    sel = g.elem_part == part
-    return max(state.score([], [Visit(part, int(s), int(ln))]).total - state.current.total
-               for s, ln in zip(g.elem_start[sel], g.elem_len[sel], strict=True))
+    part = next(i for i, p in enumerate(g.site_nights) if p.site == site and p.night.isoformat() == night)
+    sel = g.elem_site_night == part
+    return max(
+        state.score([], [Visit(part, int(s), int(ln))]).total - state.current.total
+        for s, ln in zip(g.elem_start[sel], g.elem_len[sel], strict=True)
+    )
 
 
 def test_not_needed_and_unplaced_agree_with_every_placement():
@@ -87,8 +113,8 @@ def test_not_needed_and_unplaced_agree_with_every_placement():
         assert (r.status == "not needed") == (best <= 0) and f"{best:+.4f}" in r.note
         assert "alias" in r.note  # the term that makes a block here worse
     # Take a planned site-night's blocks away: the notes now say a block there would help.
-    p0 = core.grid.parts[core.visits[0].part]
-    kept = [v for v in core.visits if v.part != core.visits[0].part]
+    p0 = core.grid.site_nights[core.visits[0].site_night]
+    kept = [v for v in core.visits if v.site_night != core.visits[0].site_night]
     n2 = night_notes(camp, w, core.grid, core.model, kept)
     row = n2[(n2["site"] == p0.site) & (n2["night"] == p0.night.isoformat())].iloc[0]
     best = _exhaustive_best(core, kept, p0.site, p0.night.isoformat())

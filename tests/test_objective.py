@@ -60,12 +60,12 @@ def test_packed_gains_match_cell_counting(seed, n):
 
 
 @settings(max_examples=40, deadline=None)
-@given(t0=st.floats(0, 300), n=st.integers(1, 40), slot_min=st.sampled_from([1.0, 5.0, 10.0]))
-def test_window_sum_matches_slot_by_slot_sum(t0, n, slot_min):
+@given(t0=st.floats(0, 300), n=st.integers(1, 40), slot_minutes=st.sampled_from([1.0, 5.0, 10.0]))
+def test_window_sum_matches_slot_by_slot_sum(t0, n, slot_minutes):
     # Deeming (1975): W(ν) = Σ exp(2πiν t_k); the closed-form geometric series must equal the plain sum.
     nu = np.linspace(0.05, 6.0, 37)
-    fast = window_sum(np.array([t0]), np.array([n]), slot_min / 60.0, nu)
-    slow = window_sum_slow(np.array([t0]), np.array([n]), slot_min / 60.0, nu)
+    fast = window_sum(np.array([t0]), np.array([n]), slot_minutes / 60.0, nu)
+    slow = window_sum_slow(np.array([t0]), np.array([n]), slot_minutes / 60.0, nu)
     assert np.allclose(fast, slow, atol=1e-8 * n)
 
 

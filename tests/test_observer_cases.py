@@ -19,7 +19,7 @@ import pytest
 
 from planner.cli import main
 from planner.core.errors import InputError
-from planner.diagnostics.check import repeated_times
+from planner.diagnostics.verdicts import repeated_times
 from planner.inputs.campaign import load_campaign
 from planner.inputs.donelog import read_done_log
 from planner.inputs.targets import load_target
@@ -72,18 +72,34 @@ def _campaign(tmp_path: Path, first_night: str, obj: str | None, *sites: tuple[s
         (tmp_path / fname).write_text(text)
         names.append(fname)
     (tmp_path / "orbits.txt").write_text(ORBITS.read_text())
-    lines = ['name = "Observer case"', 'target = "orbits.txt"', f"sites = {json.dumps(names)}",
-             f"first_night = {first_night}", "nights = 3", "seed = 3"]
+    lines = [
+        'name = "Observer case"',
+        'target = "orbits.txt"',
+        f"sites = {json.dumps(names)}",
+        f"first_night = {first_night}",
+        "nights = 3",
+        "seed = 3",
+    ]
     if obj is not None:
         lines.append(f"object = {json.dumps(obj)}")
-    lines += ["[rotation]", "min_period_h = 3", "max_period_h = 20", "[blocks]", "min_block_h = 0.5",
-              "[weather]", "trials = 20", "[diagnostics]", "trials = 0"]
+    lines += [
+        "[rotation]",
+        "min_period_h = 3",
+        "max_period_h = 20",
+        "[blocks]",
+        "min_block_h = 0.5",
+        "[weather]",
+        "trials = 20",
+        "[diagnostics]",
+        "trials = 0",
+    ]
     path = tmp_path / "campaign.toml"
     path.write_text("\n".join(lines) + "\n")
     return path
 
 
 # --- MPC files with several lines ---------------------------------------------------------------
+
 
 def test_several_lines_without_object_name_them():
     with pytest.raises(InputError) as err:
@@ -96,15 +112,30 @@ def test_several_lines_without_object_name_them():
 def test_object_option_on_windows_and_check(tmp_path, capsys):
     site = tmp_path / "south.toml"
     site.write_text(SOUTH)
-    code, out, err = call(capsys, "windows", "--target", str(ORBITS), "--object", "qa1", "--site", str(site),
-                          "--start", "2034-06-10", "--nights", "1", "--format", "json")
+    code, out, err = call(
+        capsys,
+        "windows",
+        "--target",
+        str(ORBITS),
+        "--object",
+        "qa1",
+        "--site",
+        str(site),
+        "--start",
+        "2034-06-10",
+        "--nights",
+        "1",
+        "--format",
+        "json",
+    )
     assert code == 0, err
     rows = json.loads(out)["windows"]
     assert rows and rows[0]["hours"] > 5  # near opposition from latitude -30 in June: most of the night
     log = tmp_path / "log.csv"
     log.write_text("time_utc\n2034-06-11T02:00:00Z\n2034-06-11T04:00:00Z\n2034-06-12T03:00:00Z\n")
-    code, out, err = call(capsys, "check", str(log), "--target", str(ORBITS), "--object", "2034 QA2",
-                          "--trials", "0", "--format", "json")
+    code, out, err = call(
+        capsys, "check", str(log), "--target", str(ORBITS), "--object", "2034 QA2", "--trials", "0", "--format", "json"
+    )
     assert code == 0, err
     assert json.loads(out)["trend"]["geometric_trend_used"] is True
 
@@ -123,22 +154,56 @@ def test_ephem_header_shows_the_brightness_parameters(capsys):
     # MPCORB.DAT layout (Minor Planet Center, "Export Format for Minor-Planet Orbits"): H in
     # columns 9-13, G in 15-19. CometEls.txt layout: G in 92-95, k in 97-100 with
     # m = G + 5 log Δ + 2.5 k log r, so K1 = 2.5 k = 10 for k = 4.0.
-    code, out, _ = call(capsys, "ephem", "--target", str(ORBITS), "--object", "2034 QA2",
-                        "--start", "2034-06-10", "--stop", "2034-06-10")
+    code, out, _ = call(
+        capsys,
+        "ephem",
+        "--target",
+        str(ORBITS),
+        "--object",
+        "2034 QA2",
+        "--start",
+        "2034-06-10",
+        "--stop",
+        "2034-06-10",
+    )
     assert code == 0
     assert "asteroid_hg (H 16.8, G 0.25)" in out.splitlines()[0]
-    code, out, _ = call(capsys, "ephem", "--target", str(ORBITS), "--object", "Wrenfield",
-                        "--start", "2034-07-14", "--stop", "2034-07-14", "--format", "json")
+    code, out, _ = call(
+        capsys,
+        "ephem",
+        "--target",
+        str(ORBITS),
+        "--object",
+        "Wrenfield",
+        "--start",
+        "2034-07-14",
+        "--stop",
+        "2034-07-14",
+        "--format",
+        "json",
+    )
     assert json.loads(out)["mag_params"] == {"M1": 10.0, "K1": 10.0}
 
 
 # --- output files -------------------------------------------------------------------------------
 
+
 def test_outputs_into_a_new_folder_parse_back(tmp_path, capsys):
     out_json = tmp_path / "new" / "deeper" / "e.json"
     out_csv = tmp_path / "other" / "e.csv"
-    common = ["ephem", "--target", str(ORBITS), "--object", "qa1", "--start", "2034-06-10",
-              "--stop", "2034-06-11", "--step", "6h"]
+    common = [
+        "ephem",
+        "--target",
+        str(ORBITS),
+        "--object",
+        "qa1",
+        "--start",
+        "2034-06-10",
+        "--stop",
+        "2034-06-11",
+        "--step",
+        "6h",
+    ]
     assert call(capsys, *common, "--format", "json", "--out", str(out_json))[0] == 0
     assert call(capsys, *common, "--format", "csv", "--out", str(out_csv))[0] == 0
     doc = json.loads(out_json.read_text())
@@ -167,6 +232,7 @@ def test_output_piped_into_head_is_quiet(monkeypatch):
 
 # --- a target near the Sun ----------------------------------------------------------------------
 
+
 def test_plan_of_a_target_always_near_the_sun_says_why(tmp_path):
     from planner.pipeline import plan_campaign
 
@@ -179,6 +245,7 @@ def test_plan_of_a_target_always_near_the_sun_says_why(tmp_path):
     assert "(" not in err.value.message.split("Sierra Sur:")[1]  # the long caution is left to `windows`
 
 
+@pytest.mark.slow
 def test_plan_near_the_sun_keeps_the_limit_and_warns_everywhere(tmp_path, capsys):
     from astropy import units as u
     from astropy.coordinates import SkyCoord, get_body
@@ -198,13 +265,20 @@ def test_plan_near_the_sun_keeps_the_limit_and_warns_everywhere(tmp_path, capsys
     # Independent route: the Sun from astropy's built-in ephemeris (Astropy Collaboration 2022),
     # its separation from the block's pointing at mid-block. Both are geocentric-to-topocentric
     # close (parallax of the Sun 9″), so 0.1° covers aberration and frame differences.
-    mid = Time(list(pd.to_datetime(plan["start_utc"]) + (pd.to_datetime(plan["end_utc"])
-                                                         - pd.to_datetime(plan["start_utc"])) / 2))
+    mid = Time(
+        list(
+            pd.to_datetime(plan["start_utc"])
+            + (pd.to_datetime(plan["end_utc"]) - pd.to_datetime(plan["start_utc"])) / 2
+        )
+    )
     with warnings.catch_warnings():  # 2034 is beyond the leap-second table: UTC ≈ UTC is fine for 0.1°
         warnings.simplefilter("ignore")
         sun = get_body("sun", mid)
-    sep = SkyCoord(plan["ra_deg"].to_numpy() * u.deg, plan["dec_deg"].to_numpy() * u.deg,
-                   frame="icrs").separation(SkyCoord(sun.ra, sun.dec, frame="icrs")).deg
+    sep = (
+        SkyCoord(plan["ra_deg"].to_numpy() * u.deg, plan["dec_deg"].to_numpy() * u.deg, frame="icrs")
+        .separation(SkyCoord(sun.ra, sun.dec, frame="icrs"))
+        .deg
+    )
     assert (sep >= 30.0 - 0.1).all(), sep
     sheet = (out_dir / "sheets" / "desert-mesa.txt").read_text()
     assert "target: C/2034 K2 (Wrenfield) (file orbits.txt)" in sheet
@@ -222,8 +296,20 @@ def test_plan_near_the_sun_keeps_the_limit_and_warns_everywhere(tmp_path, capsys
     assert folder.utc_offset_h("Birch Hill", "2034-07-12") == 1.0
     assert folder.utc_offset_h("Desert Mesa", "2034-07-12") == -7.0  # Arizona keeps MST all year
     # The windows table marks the Sun caution on the nights without a window as well.
-    code, out, _ = call(capsys, "windows", "--target", str(tmp_path / "orbits.txt"), "--object", "Wrenfield",
-                        "--site", str(tmp_path / "north.toml"), "--start", "2034-07-12", "--nights", "1")
+    code, out, _ = call(
+        capsys,
+        "windows",
+        "--target",
+        str(tmp_path / "orbits.txt"),
+        "--object",
+        "Wrenfield",
+        "--site",
+        str(tmp_path / "north.toml"),
+        "--start",
+        "2034-07-12",
+        "--nights",
+        "1",
+    )
     night_rows = [ln for ln in out.splitlines() if ln.startswith("  2034-07-12")]
     assert night_rows and all(ln.endswith("!") for ln in night_rows)
 
@@ -233,12 +319,20 @@ def test_night_chart_with_a_long_reason_keeps_its_layout():
 
     t = np.arange(np.datetime64("2034-07-12T12:00"), np.datetime64("2034-07-13T12:00"), np.timedelta64(10, "m"))
     hours = (t - t[0]) / np.timedelta64(1, "h")
-    geo = pd.DataFrame({"time_utc": t.astype(str), "alt_deg": 30 * np.sin(hours / 24 * 2 * np.pi),
-                        "sun_alt_deg": -30 * np.sin(hours / 24 * 2 * np.pi)})
-    reason = ("too close to the Sun: elongation 12.4° < 30° (pointing near the Sun can destroy equipment and "
-              "blind people; the observatory's rules decide); below the horizon limit all dark time")
-    windows = pd.DataFrame({"site": ["A"], "night": ["2034-07-12"], "start_utc": [""], "end_utc": [""],
-                            "reason": [reason]})
+    geo = pd.DataFrame(
+        {
+            "time_utc": t.astype(str),
+            "alt_deg": 30 * np.sin(hours / 24 * 2 * np.pi),
+            "sun_alt_deg": -30 * np.sin(hours / 24 * 2 * np.pi),
+        }
+    )
+    reason = (
+        "too close to the Sun: elongation 12.4° < 30° (pointing near the Sun can destroy equipment and "
+        "blind people; the observatory's rules decide); below the horizon limit all dark time"
+    )
+    windows = pd.DataFrame(
+        {"site": ["A"], "night": ["2034-07-12"], "start_utc": [""], "end_utc": [""], "reason": [reason]}
+    )
     blocks = pd.DataFrame(columns=["site", "night", "start_utc", "end_utc"])
     fig = plots.site_nights_figure("A", geo, windows, blocks, ["2034-07-12"], 0.0, 20.0)
     with warnings.catch_warnings():
@@ -248,9 +342,12 @@ def test_night_chart_with_a_long_reason_keeps_its_layout():
 
 # --- logs with repeated rows --------------------------------------------------------------------
 
+
 def test_repeated_times_counts_copies_not_simultaneous_sites():
-    t = np.array(["2034-06-10T01:00:00", "2034-06-10T01:00:00", "2034-06-10T01:00:00", "2034-06-10T02:00:00"],
-                 dtype="datetime64[ns]")
+    t = np.array(
+        ["2034-06-10T01:00:00", "2034-06-10T01:00:00", "2034-06-10T01:00:00", "2034-06-10T02:00:00"],
+        dtype="datetime64[ns]",
+    )
     assert repeated_times(t) == 2
     assert repeated_times(t, np.array(["A", "A", "B", "A"])) == 1
     assert repeated_times(t[[0, 3]]) == 0
@@ -258,8 +355,10 @@ def test_repeated_times_counts_copies_not_simultaneous_sites():
 
 def test_check_notes_repeated_rows(tmp_path, capsys):
     log = tmp_path / "dup.csv"
-    log.write_text("time_utc,site\n2034-06-10T01:00:00Z,A\n2034-06-10T01:00:00Z,A\n2034-06-10T01:00:00Z,B\n"
-                   "2034-06-10T03:00:00Z,A\n2034-06-11T02:00:00Z,A\n")
+    log.write_text(
+        "time_utc,site\n2034-06-10T01:00:00Z,A\n2034-06-10T01:00:00Z,A\n2034-06-10T01:00:00Z,B\n"
+        "2034-06-10T03:00:00Z,A\n2034-06-11T02:00:00Z,A\n"
+    )
     code, out, _ = call(capsys, "check", str(log), "--trials", "0", "--format", "json")
     assert code == 0
     notes = json.loads(out)["notes"]
@@ -268,13 +367,13 @@ def test_check_notes_repeated_rows(tmp_path, capsys):
 
 # --- a site without an instrument in the plan's diagnostics ----------------------------------------
 
+
 def test_stacked_points_without_sigma_stay_unknown_quietly():
     from planner.schedule.blocktable import binned_points
 
     t_ref = np.datetime64("2034-06-12T00:00:00", "ns")
     t = t_ref + (np.tile(np.arange(4), 2) * 60 + 30).astype("timedelta64[s]").astype("timedelta64[ns]")
-    frames = pd.DataFrame({"time_utc": t, "site": ["A"] * 4 + ["B"] * 4,
-                           "mag_err": [0.02] * 4 + [np.nan] * 4})
+    frames = pd.DataFrame({"time_utc": t, "site": ["A"] * 4 + ["B"] * 4, "mag_err": [0.02] * 4 + [np.nan] * 4})
     with warnings.catch_warnings():
         warnings.simplefilter("error")  # no divide-by-zero warning on the terminal
         points = binned_points(frames, t_ref, 300.0)
@@ -285,6 +384,7 @@ def test_stacked_points_without_sigma_stay_unknown_quietly():
 
 
 # --- outputs that cannot be written, and logs that leave nothing (or little) to draw ---------------
+
 
 def test_out_into_a_folder_or_under_a_file_is_one_line(tmp_path, capsys):
     (tmp_path / "afile").write_text("x")
@@ -319,14 +419,16 @@ def test_log_ending_after_the_campaign_says_so(tmp_path):
     assert "the observation log runs to 2034-07-01T02:00Z, after the campaign's last window" in err.value.message
 
 
+@pytest.mark.slow
 def test_baseline_short_of_the_plan_hours_is_said(tmp_path, capsys):
     # No hour cap at a site with 10 h windows: the plan takes two 4 h blocks a night, the baseline one.
     path = _campaign(tmp_path, "2034-06-10", "qa1", ("south.toml", SOUTH))
     code, out, err = call(capsys, "plan", str(path), "--out", str(tmp_path / "p"))
     assert code == 0, err
     head = next(ln for ln in out.splitlines() if ln.startswith("plan vs baseline"))
-    plan_h, base_h = (float(v) for v in next(ln for ln in out.splitlines()
-                                              if ln.startswith("telescope hours")).split()[-2:])
+    plan_h, base_h = (
+        float(v) for v in next(ln for ln in out.splitlines() if ln.startswith("telescope hours")).split()[-2:]
+    )
     assert base_h <= 3 * 4.0 < plan_h  # three nights, one block of at most max_block_h = 4 h each
     assert f"at most 4 h each, so {plan_h - base_h:.1f} h fewer than the plan" in head and "same hours" not in head
 

@@ -32,8 +32,10 @@ def _done_log(path, n=40):
 def test_full_format_read_once(tmp_path):
     log = read_observation_log(_done_log(tmp_path / "done.csv"))
     assert log.times_utc.size == 120 and log.rows[0] == 1 and log.rows[-1] == 120
-    assert [(x.site, x.night, x.row) for x in log.lost] == [("hilltop", date(2034, 3, 13), 121),
-                                                            ("", date(2034, 3, 14), 122)]
+    assert [(x.site, x.night, x.row) for x in log.lost] == [
+        ("hilltop", date(2034, 3, 13), 121),
+        ("", date(2034, 3, 14), 122),
+    ]
     assert np.isnan(log.mag_err[0]) and log.mag_err_or(0.05)[0] == 0.05 and log.exposure_or(30.0)[1] == 60.0
     # A plain log (time_utc only) still reads: every row observed, nothing lost.
     plain = tmp_path / "plain.csv"
@@ -42,14 +44,17 @@ def test_full_format_read_once(tmp_path):
     assert p.times_utc.size == 2 and p.site is None and p.lost == []
 
 
-@pytest.mark.parametrize("row, column, message", [
-    ("2034-03-10T20:00:00Z,hilltop,60,0.02,seen,", "status (row 1)", "not observed or lost"),
-    (",hilltop,,,lost,", "night (row 1)", "needs the local date"),
-    (",hilltop,,,lost,17/03/2034", "night (row 1)", "not a local evening date"),
-    (",hilltop,60,0.02,observed,", "time_utc (row 1)", "every observed row needs a time"),
-    ("2034-03-10T20:00:00Z,hilltop,90000,0.02,,", "exposure_s (row 1)", "must be below 86400"),
-    ("2034-03-10T20:00:00Z,hilltop,60,-1,,", "mag_err (row 1)", "positive"),
-])
+@pytest.mark.parametrize(
+    "row, column, message",
+    [
+        ("2034-03-10T20:00:00Z,hilltop,60,0.02,seen,", "status (row 1)", "not observed or lost"),
+        (",hilltop,,,lost,", "night (row 1)", "needs the local date"),
+        (",hilltop,,,lost,17/03/2034", "night (row 1)", "not a local evening date"),
+        (",hilltop,60,0.02,observed,", "time_utc (row 1)", "every observed row needs a time"),
+        ("2034-03-10T20:00:00Z,hilltop,90000,0.02,,", "exposure_s (row 1)", "must be below 86400"),
+        ("2034-03-10T20:00:00Z,hilltop,60,-1,,", "mag_err (row 1)", "positive"),
+    ],
+)
 def test_bad_cells_name_column_and_row(tmp_path, row, column, message):
     f = tmp_path / "bad.csv"
     f.write_text(f"{HEADER}\n{row}\n")
@@ -60,14 +65,15 @@ def test_bad_cells_name_column_and_row(tmp_path, row, column, message):
 
 def test_replan_reader_is_the_same_reader(tmp_path):
     f = _done_log(tmp_path / "done.csv")
-    sites = [Site(name="hilltop", latitude_deg=30.0, longitude_deg=0.0, height_m=0.0, timezone="UTC"),
-             Site(name="valley", latitude_deg=-30.0, longitude_deg=20.0, height_m=0.0, timezone="UTC")]
+    sites = [
+        Site(name="hilltop", latitude_deg=30.0, longitude_deg=0.0, height_m=0.0, timezone="UTC"),
+        Site(name="valley", latitude_deg=-30.0, longitude_deg=20.0, height_m=0.0, timezone="UTC"),
+    ]
     done = read_done_log(f, sites)
     log = read_observation_log(f)
     assert np.array_equal(done.times_utc, log.times_utc)
     # The row with no site loses that night at every campaign site.
-    assert done.lost == {("hilltop", date(2034, 3, 13)), ("hilltop", date(2034, 3, 14)),
-                         ("valley", date(2034, 3, 14))}
+    assert done.lost == {("hilltop", date(2034, 3, 13)), ("hilltop", date(2034, 3, 14)), ("valley", date(2034, 3, 14))}
     with pytest.raises(InputError) as exc:
         read_done_log(f, sites[1:])
     assert str(exc.value).startswith(f"{f}: site (row 1): 'hilltop' is not a campaign site")

@@ -47,8 +47,12 @@ def test_fast_matches_slow_batched_with_trend_and_geometric_column():
     geo = 0.3 * np.log10(1 + (t - t[0]) / 5)  # a smooth geometric-like column
     ys = y[:, None] + rng.normal(0, 0.05, (t.size, 6)) + 0.05 * (t - t[0])[:, None]
     f = np.linspace(0.7, 10.0, 57)
-    for kw in ({"trend_degree": 1}, {"trend_degree": 2, "trend_columns": geo},
-               {"trend_degree": -1}, {"trend_degree": 0, "nterms": 3}):
+    for kw in (
+        {"trend_degree": 1},
+        {"trend_degree": 2, "trend_columns": geo},
+        {"trend_degree": -1},
+        {"trend_degree": 0, "nterms": 3},
+    ):
         fast = multiharmonic_power(t, ys, f, sigma=dy, **kw)
         slow = multiharmonic_power_slow(t, ys, f, sigma=dy, **kw)
         assert fast.shape == (f.size, 6)
@@ -77,8 +81,7 @@ def test_single_and_batched_agree():
 
 
 @settings(max_examples=25, deadline=None)
-@given(seed=st.integers(0, 10_000), n=st.integers(12, 60), nterms=st.integers(1, 3),
-       degree=st.integers(-1, 2))
+@given(seed=st.integers(0, 10_000), n=st.integers(12, 60), nterms=st.integers(1, 3), degree=st.integers(-1, 2))
 def test_power_is_a_fraction_and_fast_equals_slow(seed, n, nterms, degree):
     rng = np.random.default_rng(seed)
     t = 2460000.5 + np.sort(rng.uniform(0, rng.uniform(0.5, 20), n))

@@ -53,6 +53,7 @@ SITES = sorted((Path(__file__).resolve().parent.parent / "sites").glob("*.toml")
 
 # ---------------------------------------------------------------- Pogson and magnitude errors
 
+
 def test_pogson_ratio():
     # Pogson (1856), MNRAS 17, 12: five magnitudes are a flux ratio of exactly 100; one is 100^(1/5).
     assert POGSON_RATIO == pytest.approx(2.511886, rel=1e-6)
@@ -86,6 +87,7 @@ def test_mag_err_from_snr():
 
 
 # ---------------------------------------------------------------- moonlight (K&S 1991)
+
 
 def test_ks_airmass_formula():
     # Krisciunas & Schaefer (1991) eq. 3: X = (1 − 0.96 sin² Z)^(−1/2).
@@ -141,19 +143,28 @@ def test_dark_sky_at_altitude_by_hand():
 
 @settings(max_examples=200, deadline=None)
 @given(
-    zen=st.floats(18.0, 23.0), alt=st.floats(5.0, 90.0), moon_alt=st.floats(-90.0, 0.0),
-    sep=st.floats(0.0, 180.0), illum=st.floats(0.0, 1.0), k=st.floats(0.0, 0.5),
+    zen=st.floats(18.0, 23.0),
+    alt=st.floats(5.0, 90.0),
+    moon_alt=st.floats(-90.0, 0.0),
+    sep=st.floats(0.0, 180.0),
+    illum=st.floats(0.0, 1.0),
+    k=st.floats(0.0, 0.5),
 )
 def test_moon_below_horizon_leaves_dark_sky(zen, alt, moon_alt, sep, illum, k):
     # Sanity (K&S 1991 eq. 15 applies only with the Moon up): no moonlight below the horizon.
     assert float(sky_mag_arcsec2(zen, alt, moon_alt, sep, illum, k, "R")) == pytest.approx(
-        float(dark_sky_mag_arcsec2(zen, alt, k)), abs=1e-12)
+        float(dark_sky_mag_arcsec2(zen, alt, k)), abs=1e-12
+    )
 
 
 @settings(max_examples=200, deadline=None)
 @given(
-    alt=st.floats(5.0, 90.0), moon_alt=st.floats(1.0, 90.0), sep=st.floats(1.0, 89.0),
-    illum=st.floats(0.05, 0.95), d_illum=st.floats(0.01, 0.05), d_sep=st.floats(0.5, 20.0),
+    alt=st.floats(5.0, 90.0),
+    moon_alt=st.floats(1.0, 90.0),
+    sep=st.floats(1.0, 89.0),
+    illum=st.floats(0.05, 0.95),
+    d_illum=st.floats(0.01, 0.05),
+    d_sep=st.floats(0.5, 20.0),
 )
 def test_fuller_and_closer_moon_brightens_sky(alt, moon_alt, sep, illum, d_illum, d_sep):
     # Sanity: a fuller Moon (K&S eq. 20) and a smaller separation within 90° (eqs. 17–21) both make
@@ -175,6 +186,7 @@ def test_moonlight_colour_follows_the_sun():
 
 
 # ---------------------------------------------------------------- the CCD equation
+
 
 def test_ccd_equation_by_hand():
     # Merline & Howell (1995); Howell (2006) eq. 4.4, by hand:
@@ -219,8 +231,9 @@ def test_ccd_equation_against_simulated_exposures():
 
 
 @settings(max_examples=100, deadline=None)
-@given(src=rates, sky=st.floats(0.0, 1e4), read=st.floats(0.0, 30.0), t=st.floats(0.01, 1e4),
-       factor=st.floats(1.01, 10.0))
+@given(
+    src=rates, sky=st.floats(0.0, 1e4), read=st.floats(0.0, 30.0), t=st.floats(0.01, 1e4), factor=st.floats(1.01, 10.0)
+)
 def test_snr_grows_with_exposure(src, sky, read, t, factor):
     # Howell (2006) §4.4: every term of the CCD equation but the read noise grows as t, so S/N rises
     # monotonically with exposure, never faster than t (read-noise limit) nor slower than √t.
@@ -244,10 +257,16 @@ def test_gaussian_enclosed_fraction():
     assert gaussian_enclosed_fraction([1.0, 2.0], 2.0) == pytest.approx([0.5, 0.9375])
 
 
-
 @settings(max_examples=300, deadline=None)
-@given(snr=st.floats(1.0, 1000.0), src=rates, sky=st.floats(0.0, 1e4), dark=st.floats(0.0, 1.0),
-       read=st.floats(0.0, 30.0), npix=st.floats(1.0, 2000.0), gain=st.floats(0.0, 5.0))
+@given(
+    snr=st.floats(1.0, 1000.0),
+    src=rates,
+    sky=st.floats(0.0, 1e4),
+    dark=st.floats(0.0, 1.0),
+    read=st.floats(0.0, 30.0),
+    npix=st.floats(1.0, 2000.0),
+    gain=st.floats(0.0, 5.0),
+)
 def test_exposure_solution_round_trip(snr, src, sky, dark, read, npix, gain):
     # The exposure solved from the quadratic CCD equation gives back the asked S/N (round trip),
     # and agrees with the slow bisection twin.
@@ -265,13 +284,16 @@ def test_exposure_vectorised_matches_slow_twin():
     sky = rng.uniform(0, 500, 50)
     npix = rng.uniform(5, 500, 50)
     fast = exposure_for_snr_s(snr, src, sky, 0.01, 8.0, npix, n_background_pix=400.0)
-    slow = [exposure_for_snr_s_slow(a, b, c, 0.01, 8.0, d, n_background_pix=400.0)
-            for a, b, c, d in zip(snr, src, sky, npix, strict=True)]
+    slow = [
+        exposure_for_snr_s_slow(a, b, c, 0.01, 8.0, d, n_background_pix=400.0)
+        for a, b, c, d in zip(snr, src, sky, npix, strict=True)
+    ]
     assert fast == pytest.approx(slow, rel=1e-8)
     assert float(exposure_for_snr_s(10.0, 0.0, 1.0, 0.0, 5.0, 10.0)) == math.inf
 
 
 # ---------------------------------------------------------------- trailing and block counts
+
 
 def test_trail_limit():
     # Half of 2″ seeing at 1″/min of motion: 1″ / (1/60 ″/s) = 60 s (common practice: trail ≤ ½ FWHM).
@@ -288,6 +310,7 @@ def test_exposures_per_block():
 
 
 # ---------------------------------------------------------------- apertures and Afρ
+
 
 def test_fixed_km_aperture_tracks_distance():
     # 1″ at 1 au is 725.27 km (IAU 2012 Resolution B2 au); a 10 000 km aperture is 13.788″ there and
@@ -312,9 +335,14 @@ def test_afrho_by_hand():
 
 
 @pytest.mark.filterwarnings("ignore")  # sbpy notes that the optional synphot is absent
-@pytest.mark.parametrize("mag,rh,delta,rho_km,band", [
-    (15.0, 1.5, 0.8, 5000.0, "R"), (12.3, 0.9, 0.3, 10_000.0, "V"), (18.2, 3.1, 2.4, 2000.0, "r"),
-])
+@pytest.mark.parametrize(
+    "mag,rh,delta,rho_km,band",
+    [
+        (15.0, 1.5, 0.8, 5000.0, "R"),
+        (12.3, 0.9, 0.3, 10_000.0, "V"),
+        (18.2, 3.1, 2.4, 2000.0, "r"),
+    ],
+)
 def test_afrho_against_sbpy(mag, rh, delta, rho_km, band):
     # Independent route: sbpy.activity.Afrho (Mommert et al. 2019, JOSS 4, 1426) goes through spectral
     # flux densities and astropy units. We give sbpy the same solar magnitude explicitly so both use
@@ -342,15 +370,23 @@ def test_sun_magnitudes():
 
 # ---------------------------------------------------------------- the table entry point
 
+
 def _geom(n: int = 4, **over) -> pd.DataFrame:
     alt = over.pop("alt_deg", np.full(n, 50.0))
     # Airmass: Kasten & Young (1989) Applied Optics 28, 4735.
     airmass = 1.0 / (np.sin(np.radians(alt)) + 0.50572 * (np.asarray(alt) + 6.07995) ** -1.6364)
     base = dict(
-        mag_pred=np.full(n, 15.0), airmass=airmass, alt_deg=alt, moon_alt_deg=np.full(n, -20.0),
-        moon_sep_deg=np.full(n, 90.0), moon_illum=np.full(n, 0.1), sun_alt_deg=np.full(n, -30.0),
-        motion_arcsec_min=np.full(n, 1.0), km_per_arcsec=np.full(n, 725.27),
-        helio_dist_au=np.full(n, 1.5), obs_dist_au=np.full(n, 1.0),
+        mag_pred=np.full(n, 15.0),
+        airmass=airmass,
+        alt_deg=alt,
+        moon_alt_deg=np.full(n, -20.0),
+        moon_sep_deg=np.full(n, 90.0),
+        moon_illum=np.full(n, 0.1),
+        sun_alt_deg=np.full(n, -30.0),
+        motion_arcsec_per_min=np.full(n, 1.0),
+        km_per_arcsec=np.full(n, 725.27),
+        helio_dist_au=np.full(n, 1.5),
+        obs_dist_au=np.full(n, 1.0),
     )
     base.update(over)
     return pd.DataFrame(base)
@@ -369,20 +405,25 @@ def test_demo_sites_plausible_for_15th_magnitude(path):
         assert dark["snr_pred"].iloc[0] >= 50.0
     assert 20.0 <= dark["sky_mag_arcsec2"].iloc[0] <= 21.5
     assert 10 <= dark["n_exposures_per_hour"].iloc[0] <= 3600
-    moon = photometry_columns(_geom(1, moon_alt_deg=[50.0], moon_sep_deg=[40.0], moon_illum=[1.0]), inst,
-                              comet=False)
+    moon = photometry_columns(_geom(1, moon_alt_deg=[50.0], moon_sep_deg=[40.0], moon_illum=[1.0]), inst, comet=False)
     assert 16.5 <= moon["sky_mag_arcsec2"].iloc[0] <= 19.0
     assert moon["exposure_s"].iloc[0] >= dark["exposure_s"].iloc[0]
     # At one exposure time the moonlit sky costs signal-to-noise.
-    at_10s = [photometry_columns(g, inst, comet=False, exposure_s=10.0)["snr_pred"].iloc[0]
-              for g in (_geom(1), _geom(1, moon_alt_deg=[50.0], moon_sep_deg=[40.0], moon_illum=[1.0]))]
+    at_10s = [
+        photometry_columns(g, inst, comet=False, exposure_s=10.0)["snr_pred"].iloc[0]
+        for g in (_geom(1), _geom(1, moon_alt_deg=[50.0], moon_sep_deg=[40.0], moon_illum=[1.0]))
+    ]
     assert at_10s[1] < at_10s[0]
 
 
 def test_bigger_telescope_needs_less_time():
     by_aperture = sorted((load_site(p).instrument for p in SITES), key=lambda i: i.aperture_m)
-    times = [photometry_columns(_geom(1, mag_pred=[18.0], motion_arcsec_min=[0.01]), i, comet=False)
-             ["exposure_s"].iloc[0] for i in by_aperture]
+    times = [
+        photometry_columns(_geom(1, mag_pred=[18.0], motion_arcsec_per_min=[0.01]), i, comet=False)["exposure_s"].iloc[
+            0
+        ]
+        for i in by_aperture
+    ]
     assert times == sorted(times, reverse=True)
 
 
@@ -390,8 +431,12 @@ def test_bigger_telescope_needs_less_time():
 @given(motion=st.floats(0.0, 100.0), mag=st.floats(8.0, 22.0), snr=st.floats(3.0, 300.0))
 def test_trailing_cap_respected(motion, mag, snr):
     inst = Instrument(aperture_m=0.6, pixel_scale_arcsec=0.6, seeing_arcsec=1.6)
-    out = photometry_columns(_geom(1, motion_arcsec_min=[motion], mag_pred=[mag]), inst, comet=False,
-                             rules=ExposureRules(snr_target=snr, min_exposure_s=1.0))
+    out = photometry_columns(
+        _geom(1, motion_arcsec_per_min=[motion], mag_pred=[mag]),
+        inst,
+        comet=False,
+        rules=ExposureRules(snr_target=snr, min_exposure_s=1.0),
+    )
     t = out["exposure_s"].iloc[0]
     assert t <= out["trail_limit_s"].iloc[0] * (1 + 1e-12)
     assert t <= 300.0 and t > 0
@@ -411,14 +456,18 @@ def test_exposure_cut_below_the_floor_by_trailing_says_trailing():
     # A bright fast mover: S/N goal met in well under a second, floor 30 s, but trailing by half the
     # seeing (1.6" / 2 at 6"/min) allows only 8 s (hand computation): the trailing cap set the exposure.
     inst = Instrument(aperture_m=0.6, pixel_scale_arcsec=0.6, seeing_arcsec=1.6)
-    out = photometry_columns(_geom(1, motion_arcsec_min=[6.0], mag_pred=[9.0]), inst, comet=False,
-                             rules=ExposureRules(snr_target=30.0, min_exposure_s=30.0))
+    out = photometry_columns(
+        _geom(1, motion_arcsec_per_min=[6.0], mag_pred=[9.0]),
+        inst,
+        comet=False,
+        rules=ExposureRules(snr_target=30.0, min_exposure_s=30.0),
+    )
     assert out["exposure_s"].iloc[0] == pytest.approx(8.0, rel=1e-9)
     assert out["exposure_limited_by"].iloc[0] == "trailing"
 
 
 def test_nonsidereal_tracking_lifts_the_trail_cap():
-    fast = _geom(1, motion_arcsec_min=[30.0], mag_pred=[19.0])
+    fast = _geom(1, motion_arcsec_per_min=[30.0], mag_pred=[19.0])
     sidereal = Instrument(aperture_m=0.6, pixel_scale_arcsec=0.6, seeing_arcsec=1.6)
     tracked = Instrument(aperture_m=0.6, pixel_scale_arcsec=0.6, seeing_arcsec=1.6, nonsidereal_tracking=True)
     a = photometry_columns(fast, sidereal, comet=False)
@@ -462,12 +511,14 @@ def test_afrho_of_a_1_over_rho_coma_does_not_depend_on_the_aperture():
     # (2 × 1.495978707e13 × 1.5)² / 2e9 × 10^(0.4 × (−27.152 − 15)) = 2.014157e27 / 2e9 × 10^−16.8608.
     inst = Instrument(aperture_m=1.0, pixel_scale_arcsec=0.4, zero_point_mag=24.0, seeing_arcsec=1.2)
     g = _geom(1)
-    by_aperture = [photometry_columns(g, inst, comet=True, aperture_km=km)["afrho_cm"].iloc[0]
-                   for km in (2000.0, 5000.0, 15_000.0)]
-    expected = 2.014157e27 / 2e9 * 10 ** -16.8608
+    by_aperture = [
+        photometry_columns(g, inst, comet=True, aperture_km=km)["afrho_cm"].iloc[0] for km in (2000.0, 5000.0, 15_000.0)
+    ]
+    expected = 2.014157e27 / 2e9 * 10**-16.8608
     assert by_aperture == pytest.approx([expected] * 3, rel=1e-5)
     # And the magnitude inside 5000 km is 2.5 log10(4) = 1.505 mag fainter than the total.
     from planner.photometry.coma import coma_aperture_mag
+
     assert float(coma_aperture_mag(15.0, 5000.0, 20_000.0)) == pytest.approx(16.50515, abs=1e-5)
     assert float(coma_aperture_mag(15.0, 50_000.0, 20_000.0)) == pytest.approx(15.0)
 
@@ -479,8 +530,10 @@ def test_missing_geometry_column_is_named():
 
 def test_unknown_filter_rejected_in_site_file(tmp_path):
     p = tmp_path / "s.toml"
-    p.write_text('name = "x"\nlatitude_deg = 10\nlongitude_deg = 20\n'
-                 '[instrument]\naperture_m = 1\npixel_scale_arcsec = 0.5\nfilter = "H-alpha"\n')
+    p.write_text(
+        'name = "x"\nlatitude_deg = 10\nlongitude_deg = 20\n'
+        '[instrument]\naperture_m = 1\npixel_scale_arcsec = 0.5\nfilter = "H-alpha"\n'
+    )
     with pytest.raises(InputError) as exc:
         load_site(p)
     assert exc.value.field == "instrument.filter"
@@ -531,8 +584,9 @@ def test_mag_err_for_times_on_the_demo_comet(root):
     tgt = load_target(root / DEMO_TARGET)
     karoo, salmon = load_site(root / "sites/karoo-ridge.toml"), load_site(root / "sites/salmon-gum.toml")
     # Karoo: comet high at 00:00 UTC, set by 06:00 (see the ephem table); Salmon Gum: up at 12:00.
-    times = np.array(["2034-03-19T00:00", "2034-03-19T06:00", "2034-03-19T12:00", "2034-03-19T12:00"],
-                     dtype="datetime64[ns]")
+    times = np.array(
+        ["2034-03-19T00:00", "2034-03-19T06:00", "2034-03-19T12:00", "2034-03-19T12:00"], dtype="datetime64[ns]"
+    )
     names = ["Karoo Ridge", "Karoo Ridge", "Salmon Gum", "Elsewhere"]
     err = mag_err_for_times(tgt, times, names, [karoo, salmon])
     assert np.isfinite(err[0]) and np.isnan(err[1]) and np.isfinite(err[2]) and np.isnan(err[3])
@@ -543,8 +597,11 @@ def test_mag_err_for_times_on_the_demo_comet(root):
     # the floor (trailing cuts it to ~19 s), so the error is below 1.0857/30 (Howell 2006 §5.1).
     assert err[0] <= 1.0857 / 30
     assert ref["exposure_limited_by"].iloc[0] in ("min_exposure", "trailing")
-    with_goal = photometry_columns(geometry(tgt, times[:1], [karoo])["Karoo Ridge"], karoo.instrument,
-                                   rules=ExposureRules(snr_target=50.0, min_exposure_s=1.0))
+    with_goal = photometry_columns(
+        geometry(tgt, times[:1], [karoo])["Karoo Ridge"],
+        karoo.instrument,
+        rules=ExposureRules(snr_target=50.0, min_exposure_s=1.0),
+    )
     assert with_goal["mag_err_pred"].iloc[0] == pytest.approx(1.0857 / 50, rel=1e-3)
     filled = mag_err_for_times(tgt, times, names, [karoo, salmon], fallback_mag_err=0.03)
     assert filled[1] == 0.03 and filled[3] == 0.03 and filled[0] == err[0]
@@ -586,9 +643,29 @@ def test_ephem_command_adds_photometry_for_instrument_sites(root, tmp_path, monk
     bare.write_text('name = "No Camera"\nlatitude_deg = -30\nlongitude_deg = -70\n')
     out = tmp_path / "e.csv"
     with pytest.raises(SystemExit) as exc:
-        main(["ephem", "--target", DEMO_TARGET, "--site", "sites/karoo-ridge.toml", "--site", str(bare),
-              "--start", "2034-03-19T00:00", "--stop", "2034-03-19T02:00", "--format", "csv", "--out", str(out),
-              "--snr", "100", "--min-exposure", "1s"])
+        main(
+            [
+                "ephem",
+                "--target",
+                DEMO_TARGET,
+                "--site",
+                "sites/karoo-ridge.toml",
+                "--site",
+                str(bare),
+                "--start",
+                "2034-03-19T00:00",
+                "--stop",
+                "2034-03-19T02:00",
+                "--format",
+                "csv",
+                "--out",
+                str(out),
+                "--snr",
+                "100",
+                "--min-exposure",
+                "1s",
+            ]
+        )
     assert exc.value.code in (0, None)
     df = pd.read_csv(out)
     karoo = df[df["site"] == "Karoo Ridge"]
@@ -596,8 +673,23 @@ def test_ephem_command_adds_photometry_for_instrument_sites(root, tmp_path, monk
     # With the default 30 s floor (the campaign's light-curve default) the exposure is the floor, unless
     # trailing cuts it: never the few seconds the S/N goal alone would ask of a 12th-magnitude comet.
     with pytest.raises(SystemExit):
-        main(["ephem", "--target", DEMO_TARGET, "--site", "sites/karoo-ridge.toml", "--start", "2034-03-19T00:00",
-              "--stop", "2034-03-19T02:00", "--format", "csv", "--out", str(out)])
+        main(
+            [
+                "ephem",
+                "--target",
+                DEMO_TARGET,
+                "--site",
+                "sites/karoo-ridge.toml",
+                "--start",
+                "2034-03-19T00:00",
+                "--stop",
+                "2034-03-19T02:00",
+                "--format",
+                "csv",
+                "--out",
+                str(out),
+            ]
+        )
     dflt = pd.read_csv(out)
     want = np.minimum(30.0, dflt["trail_limit_s"].to_numpy())
     assert dflt["exposure_s"].to_numpy() == pytest.approx(want, rel=1e-3)

@@ -17,7 +17,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.inputs.settings import Blocks, Weights
+from planner.inputs.settings import BlockRules, Weights
 from planner.schedule.greedy import greedy_lazy, greedy_plain
 from planner.schedule.objective import arc_mask_slow, pack_cells
 from planner.schedule.optimise import optimise
@@ -26,7 +26,7 @@ from planner.schedule.state import PlanModel, PlanState, Visit
 from planner.sky.geometry import airmass
 from tests.schedule_helpers import model_for
 
-SMALL = Blocks(slot_min=15, min_block_h=1.0, max_block_h=4.0, setup_min=15, max_per_night=2)
+SMALL = BlockRules(slot_minutes=15, min_block_h=1.0, max_block_h=4.0, setup_minutes=15, max_per_night=2)
 
 
 def test_extinction_error_follows_bouguer():
@@ -44,8 +44,7 @@ def test_stacked_photon_noise_and_extinction_add_in_quadrature():
 
 
 @settings(max_examples=60, deadline=None)
-@given(st.lists(st.tuples(st.floats(0.0, 1e6), st.floats(1.0, 40.0)), min_size=1, max_size=30),
-       st.floats(1.0, 5.0))
+@given(st.lists(st.tuples(st.floats(0.0, 1e6), st.floats(1.0, 40.0)), min_size=1, max_size=30), st.floats(1.0, 5.0))
 def test_slot_quality_matches_slow_twin(pairs, max_x):
     prec = np.array([p for p, _ in pairs])
     x = np.array([a for _, a in pairs])
@@ -60,7 +59,7 @@ def _airmass_quality(model: PlanModel, max_x: float = 2.0) -> tuple[list[np.ndar
     Kasten & Young (1989); quality 1/X² (σ ∝ X), 0 above ``max_x``."""
     g = model.grid
     qs, xs = [], []
-    for p in g.parts:
+    for p in g.site_nights:
         lo, hi = p.intervals[0][0], p.intervals[-1][1]
         mid = 0.5 * (lo + hi)
         ha_rad = np.radians(15.0 * (np.arange(lo, hi) + 0.5 - mid) * g.slot_h)
@@ -73,8 +72,9 @@ def _airmass_quality(model: PlanModel, max_x: float = 2.0) -> tuple[list[np.ndar
 
 
 def _with_quality(model: PlanModel, weights: Weights, quality) -> PlanModel:
-    return PlanModel(model.grid, model.periods_h, model.n_bins, model.freq_per_day, weights, model.max_gap_h,
-                     slot_quality=quality)
+    return PlanModel(
+        model.grid, model.periods_h, model.n_bins, model.freq_per_day, weights, model.max_gap_h, slot_quality=quality
+    )
 
 
 def test_blocks_sit_at_low_airmass_when_quality_counts():
@@ -85,15 +85,26 @@ def test_blocks_sit_at_low_airmass_when_quality_counts():
     for wq in (0.0, 1.0):
         m = _with_quality(base, dataclasses.replace(Weights(), quality=wq), quality)
         opt = optimise(m, seed=0, max_evaluations=800)
-        sel = np.concatenate([np.arange(*[int(a[0]) for a in m.science_flat(np.array([v.part]), np.array([v.start]),
-                                                                              np.array([v.length]))])
-                              for v in opt.visits])
+        sel = np.concatenate(
+            [
+                np.arange(
+                    *[
+                        int(a[0])
+                        for a in m.science_flat(np.array([v.site_night]), np.array([v.start]), np.array([v.length]))
+                    ]
+                )
+                for v in opt.visits
+            ]
+        )
         mean_x[wq] = float(x_flat[sel].mean())
         if wq > 0:
             assert x_flat[sel].max() <= 2.0  # the soft limit holds where the window allows it
             # Within 5 % of the lowest mean airmass any placement of the same science time could reach.
-            best = min(np.convolve(x, np.ones(len(sel) // len(m.grid.parts)), "valid").min()
-                       / (len(sel) // len(m.grid.parts)) for x in xs)
+            best = min(
+                np.convolve(x, np.ones(len(sel) // len(m.grid.site_nights)), "valid").min()
+                / (len(sel) // len(m.grid.site_nights))
+                for x in xs
+            )
             assert mean_x[wq] <= 1.05 * best
     assert mean_x[1.0] <= mean_x[0.0] + 1e-9
 
@@ -102,8 +113,9 @@ def test_blocks_sit_at_low_airmass_when_quality_counts():
 def test_lazy_equals_plain_with_slot_credit(seed):
     base, _, _ = model_for(n_sites=3, n_nights=2, hours=2.0 + seed % 3, n_periods=25, n_bins=10, seed=seed)
     rng = np.random.default_rng(seed)
-    m = _with_quality(base, Weights(), [rng.uniform(0, 1, p.intervals[-1][1] - p.intervals[0][0])
-                                        for p in base.grid.parts])
+    m = _with_quality(
+        base, Weights(), [rng.uniform(0, 1, p.intervals[-1][1] - p.intervals[0][0]) for p in base.grid.site_nights]
+    )
     packed, start, credit = m.element_packed(), pack_cells(m.done_cells), m.slot_credit()
     lazy = greedy_lazy(m.grid, packed, start, credit)
     plain = greedy_plain(m.grid, packed, start, credit)
@@ -126,15 +138,19 @@ def _g_slow(m: PlanModel, elements) -> float:
 
 @pytest.mark.parametrize("seed", range(3))
 def test_greedy_with_credit_reaches_half_of_brute_force(seed):
-    base, _, _ = model_for(n_sites=2, n_nights=1, window_h=2.5, hours=2.0, blocks=SMALL, n_periods=12, n_bins=6,
-                           seed=seed)
+    base, _, _ = model_for(
+        n_sites=2, n_nights=1, window_h=2.5, hours=2.0, blocks=SMALL, n_periods=12, n_bins=6, seed=seed
+    )
     rng = np.random.default_rng(seed)
-    m = _with_quality(base, dataclasses.replace(Weights(), quality=2.0, hours=0.5),
-                      [rng.uniform(0, 1, p.intervals[-1][1] - p.intervals[0][0]) for p in base.grid.parts])
+    m = _with_quality(
+        base,
+        dataclasses.replace(Weights(), quality=2.0, hours=0.5),
+        [rng.uniform(0, 1, p.intervals[-1][1] - p.intervals[0][0]) for p in base.grid.site_nights],
+    )
     lazy = greedy_lazy(m.grid, m.element_packed(), pack_cells(m.done_cells), m.slot_credit())
     per_part = []
-    for p, part in enumerate(m.grid.parts):
-        idx = np.flatnonzero(m.grid.elem_part == p).tolist()
+    for p, part in enumerate(m.grid.site_nights):
+        idx = np.flatnonzero(m.grid.elem_site_night == p).tolist()
         per_part.append([c for k in range(part.capacity + 1) for c in itertools.combinations(idx, k)])
     best = max(_g_slow(m, [e for c in choice for e in c]) for choice in itertools.product(*per_part))
     ratio, statement = lazy.guarantee(m.grid)
@@ -146,13 +162,21 @@ def test_greedy_with_credit_reaches_half_of_brute_force(seed):
 def test_running_quality_and_window_match_scratch():
     base, _, _ = model_for(n_sites=2, n_nights=2, hours=3.0, n_periods=20, n_bins=8)
     quality, xs = _airmass_quality(base)
-    m = PlanModel(base.grid, base.periods_h, base.n_bins, base.freq_per_day, Weights(), 12.0,
-                  slot_weight=[1.0 / x**2 for x in xs], slot_quality=quality)
+    m = PlanModel(
+        base.grid,
+        base.periods_h,
+        base.n_bins,
+        base.freq_per_day,
+        Weights(),
+        12.0,
+        slot_weight=[1.0 / x**2 for x in xs],
+        slot_quality=quality,
+    )
     opt = optimise(m, seed=1, max_evaluations=300)
     state = PlanState(m, opt.visits)
     scratch = m.terms(opt.visits)
     assert state.current.quality == pytest.approx(scratch.quality, rel=1e-9)
     assert state.current.alias == pytest.approx(scratch.alias, rel=1e-9)
     v = opt.visits[0]
-    moved = Visit(v.part, v.start + 1, v.length - 1)
+    moved = Visit(v.site_night, v.start + 1, v.length - 1)
     assert state.score([v], [moved]).total == pytest.approx(m.terms([moved, *opt.visits[1:]]).total, rel=1e-9)

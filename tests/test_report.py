@@ -300,6 +300,7 @@ def _copy_folder(src: Path, dst: Path) -> Path:
     return dst
 
 
+@pytest.mark.slow
 def test_report_command_rerenders_and_fails_cleanly(plan_dir, tmp_path, capsys):
     d = _copy_folder(plan_dir, tmp_path / "plan")
     (d / "report.html").unlink()
@@ -432,8 +433,12 @@ def test_check_command_writes_the_html_report(tmp_path, capsys):
 def test_replanned_folder_names_its_log_as_text(plan_dir, tmp_path):
     d = _copy_folder(plan_dir, tmp_path / "plan")
     diag = json.loads((d / "diagnostics.json").read_text())
-    diag["replan"] = {"log": "logs/<night 1>.csv", "n_done_times": 42, "not_before_utc": "2034-03-17T06:00Z",
-                      "lost_site_nights": [["Gum Flat", "2034-03-16"]]}
+    diag["replan"] = {
+        "log": "logs/<night 1>.csv",
+        "n_done_times": 42,
+        "not_before_utc": "2034-03-17T06:00Z",
+        "lost_site_nights": [["Gum Flat", "2034-03-16"]],
+    }
     (d / "diagnostics.json").write_text(json.dumps(diag))
     text = render_report(d)
     assert "logs/&lt;night 1&gt;.csv" in text and "Gum Flat 2034-03-16" in text

@@ -6,7 +6,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from planner.inputs.settings import Blocks
+from planner.inputs.settings import BlockRules
 from planner.schedule.baseline import baseline_visits
 from planner.schedule.localsearch import fits
 from planner.schedule.optimise import optimise, total_slots
@@ -14,19 +14,19 @@ from planner.schedule.robustness import weather_monte_carlo
 from planner.schedule.state import Done, PlanState, Visit
 from tests.schedule_helpers import T_REF, model_for
 
-BLOCKS = Blocks(slot_min=5, min_block_h=1.0, max_block_h=3.0, setup_min=10, max_per_night=2)
+BLOCKS = BlockRules(slot_minutes=5, min_block_h=1.0, max_block_h=3.0, setup_minutes=10, max_per_night=2)
 
 
 def _utc(model, slot):
     return model.grid.slot_time(slot)
 
 
-def check_constraints(model, windows: pd.DataFrame, sites, visits, blocks: Blocks):
+def check_constraints(model, windows: pd.DataFrame, sites, visits, blocks: BlockRules):
     """Independent check, from the windows table and site allocations rather than the slot grid."""
     g = model.grid
     per_night: dict = {}
     for v in visits:
-        part = g.parts[v.part]
+        part = g.site_nights[v.site_night]
         a, b = _utc(model, v.start), _utc(model, v.stop)
         rows = windows[(windows["site"] == part.site) & (windows["night"] == part.night.isoformat())]
         w0, w1 = rows["start_utc"].to_numpy("datetime64[ns]"), rows["end_utc"].to_numpy("datetime64[ns]")
@@ -34,7 +34,7 @@ def check_constraints(model, windows: pd.DataFrame, sites, visits, blocks: Block
         assert inside.any(), f"{v} outside every window of {part.site} {part.night}"
         hours = (b - a) / np.timedelta64(1, "h")
         assert blocks.min_block_h - 1e-9 <= hours <= blocks.max_block_h + 1e-9
-        assert hours * 60 > blocks.setup_min  # the set-up leaves science time
+        assert hours * 60 > blocks.setup_minutes  # the set-up leaves science time
         per_night.setdefault((part.site, part.night), []).append((a, b))
     by_name = {s.name: s for s in sites}
     for (site, _), iv in per_night.items():
@@ -68,10 +68,10 @@ def test_fixed_block_allocation_is_respected():
     stop = start + np.timedelta64(150, "m")
     import dataclasses
 
-    sites = [dataclasses.replace(sites[0], allocation=Allocation(blocks_utc=((start, stop),)))]
+    sites = [dataclasses.replace(sites[0], allocation=Allocation(granted_utc=((start, stop),)))]
     grid = build_slots(w, sites, BLOCKS, T_REF)
-    assert len(grid.parts) == 1  # the second night has no allocated time
-    (iv,) = grid.parts[0].intervals
+    assert len(grid.site_nights) == 1  # the second night has no allocated time
+    (iv,) = grid.site_nights[0].intervals
     assert grid.slot_time(iv[0]) >= start and grid.slot_time(iv[1]) <= stop
 
 
@@ -92,7 +92,7 @@ def test_running_sums_equal_scoring_from_scratch():
     rng = np.random.default_rng(0)
     for _ in range(25):
         v = state.visits[int(rng.integers(len(state.visits)))]
-        new = Visit(v.part, v.start + int(rng.integers(-6, 7)), v.length + int(rng.integers(-3, 4)))
+        new = Visit(v.site_night, v.start + int(rng.integers(-6, 7)), v.length + int(rng.integers(-3, 4)))
         if not fits(model.grid, state.visits, new, ignore=v):
             continue
         predicted = state.score([v], [new])
@@ -107,14 +107,13 @@ def test_baseline_one_visit_per_site_night_at_best_time_with_same_hours():
     opt = optimise(model, seed=1, max_evaluations=300)
     base = baseline_visits(model.grid, w, total_slots(opt.visits))
     assert total_slots(base) == total_slots(opt.visits)
-    assert len({v.part for v in base}) == len(base)
+    assert len({v.site_night for v in base}) == len(base)
     for v in base:
-        part = model.grid.parts[v.part]
+        part = model.grid.site_nights[v.site_night]
         row = w[(w["site"] == part.site) & (w["night"] == part.night.isoformat())].iloc[0]
         mid = _utc(model, v.start) + (_utc(model, v.stop) - _utc(model, v.start)) / 2
         # Centred on the highest-altitude time unless the window edge forces a shift.
-        assert abs((mid - row["best_utc"]) / np.timedelta64(1, "m")) <= 5 or not part.contains(
-            v.start - 1, v.stop + 1)
+        assert abs((mid - row["best_utc"]) / np.timedelta64(1, "m")) <= 5 or not part.contains(v.start - 1, v.stop + 1)
 
 
 def test_weather_monte_carlo_agrees_with_the_closed_form_expectation():
@@ -135,12 +134,20 @@ def test_all_clear_weather_reproduces_the_plain_coverage():
     from tests.schedule_helpers import synthetic_windows
 
     w, _ = synthetic_windows(2, 2)
-    sites = [Site(name=f"S{i}", latitude_deg=0, longitude_deg=0, clear_fraction=1.0,
-                  allocation=Allocation(hours_per_night=3.0)) for i in range(2)]
+    sites = [
+        Site(
+            name=f"S{i}",
+            latitude_deg=0,
+            longitude_deg=0,
+            clear_fraction=1.0,
+            allocation=Allocation(hours_per_night=3.0),
+        )
+        for i in range(2)
+    ]
     model, _, _ = model_for(n_sites=2, n_nights=2, blocks=BLOCKS, n_periods=20, n_bins=10)
     model.grid = build_slots(w, sites, BLOCKS, T_REF)
-    model.log_cloudy = np.log1p(-np.full(len(model.grid.parts), 1 - 1e-9))
-    visits = [Visit(0, model.grid.parts[0].intervals[0][0], 24)]
+    model.log_cloudy = np.log1p(-np.full(len(model.grid.site_nights), 1 - 1e-9))
+    visits = [Visit(0, model.grid.site_nights[0].intervals[0][0], 24)]
     rob = weather_monte_carlo(model, visits, trials=50, seed=0)
     assert rob.expected_coverage == pytest.approx(model.terms(visits).coverage)
     assert rob.p10_coverage == pytest.approx(model.terms(visits).coverage)
@@ -148,15 +155,23 @@ def test_all_clear_weather_reproduces_the_plain_coverage():
 
 def test_replanning_never_schedules_before_the_log_or_over_done_time():
     model0, w, sites = model_for(n_sites=2, n_nights=3, blocks=BLOCKS, n_periods=30, n_bins=12)
-    first = model0.grid.parts[0]
+    first = model0.grid.site_nights[0]
     a = first.intervals[0][0] + 6
     done_times = model0.grid.slot_time(np.arange(a, a + 18))  # 1.5 h observed at S0 on night 1
     cut = done_times.max()
     t_h = (done_times - T_REF).astype(np.int64) / 3.6e12
     done = Done(times_h=t_h, intervals_h=np.array([[t_h.min(), t_h.max()]]))
-    model, _, _ = model_for(n_sites=2, n_nights=3, blocks=BLOCKS, n_periods=30, n_bins=12, done=done,
-                            not_before_utc=cut, used_h={("S0", first.night): 1.5},
-                            busy_utc={"S0": [(done_times.min(), done_times.max())]})
+    model, _, _ = model_for(
+        n_sites=2,
+        n_nights=3,
+        blocks=BLOCKS,
+        n_periods=30,
+        n_bins=12,
+        done=done,
+        not_before_utc=cut,
+        used_h={("S0", first.night): 1.5},
+        busy_utc={"S0": [(done_times.min(), done_times.max())]},
+    )
     opt = optimise(model, seed=0, max_evaluations=500)
     assert opt.visits
     for v in opt.visits:

@@ -90,8 +90,7 @@ def test_pab_motion_across_the_zero_of_longitude():
 
 
 @settings(max_examples=25, deadline=None)
-@given(seed=st.integers(0, 10_000), n=st.integers(8, 60), nterms=st.integers(1, 3),
-       harmonic=st.integers(1, 2))
+@given(seed=st.integers(0, 10_000), n=st.integers(8, 60), nterms=st.integers(1, 3), harmonic=st.integers(1, 2))
 def test_fast_matches_slow(seed, n, nterms, harmonic):
     rng = np.random.default_rng(seed)
     t = 2460000.5 + np.sort(rng.uniform(0, rng.uniform(1, 15), n))

@@ -26,7 +26,7 @@ def _dense_multisite(nights=6, step_min=12.0):
 
 
 def test_dense_sampling_recovers_at_least_95_percent():
-    # The acceptance check of the issue: dense, round-the-clock sampling leaves no aliases.
+    # Dense, round-the-clock sampling leaves no aliases.
     t = _dense_multisite()
     r = injection_recovery(t, min_period_h=2, max_period_h=30, trials=200, seed=3, sigma_mag=0.02)
     assert np.mean(r.match != "wrong") >= 0.95
@@ -39,8 +39,16 @@ def test_recovery_with_geometric_trend_and_extra_fading():
     t = _dense_multisite(nights=5)
     days = t - t[0]
     trend = 5 * np.log10(0.8 + 0.02 * days) + 10 * np.log10(1.2 + 0.01 * days)
-    r = injection_recovery(t, min_period_h=3, max_period_h=20, trials=60, seed=5, sigma_mag=0.02,
-                           trend_mag=trend - trend.mean(), fading_mag_per_day=0.05)
+    r = injection_recovery(
+        t,
+        min_period_h=3,
+        max_period_h=20,
+        trials=60,
+        seed=5,
+        sigma_mag=0.02,
+        trend_mag=trend - trend.mean(),
+        fading_mag_per_day=0.05,
+    )
     assert np.mean(r.match != "wrong") >= 0.95
 
 
@@ -99,5 +107,4 @@ def test_classify_matches():
     true = np.array([2.0, 2.0, 2.0, 2.0])
     found = np.array([2.001, 4.0, 3.0, 1.0])
     assert list(classify_matches(true, found, 0.01)) == ["period", "half", "wrong", "wrong"]
-    assert list(classify_matches(true, found, 0.01, double_peaked=False)) == [
-        "period", "wrong", "wrong", "wrong"]
+    assert list(classify_matches(true, found, 0.01, double_peaked=False)) == ["period", "wrong", "wrong", "wrong"]

@@ -2,9 +2,6 @@
 
 from __future__ import annotations
 
-import subprocess
-import sys
-
 import numpy as np
 import pytest
 
@@ -38,26 +35,35 @@ def test_longitude_is_normalised_to_minus_180_to_180(tmp_path):
 
 
 def test_horizon_mask_is_periodic_and_never_below_min_alt():
-    s = Site(name="m", latitude_deg=0, longitude_deg=0, min_alt_deg=20,
-             horizon=((0.0, 30.0), (90.0, 50.0), (180.0, 10.0), (270.0, 30.0)))
+    s = Site(
+        name="m",
+        latitude_deg=0,
+        longitude_deg=0,
+        min_alt_deg=20,
+        horizon=((0.0, 30.0), (90.0, 50.0), (180.0, 10.0), (270.0, 30.0)),
+    )
     # Linear interpolation: halfway between (0°, 30°) and (90°, 50°) is 40°; 10° is lifted to min_alt 20°;
     # across north, 315° lies between (270°, 30°) and (360° ≡ 0°, 30°).
     assert np.allclose(s.horizon_alt_deg(np.array([45.0, 180.0, 315.0, 405.0])), [40.0, 20.0, 30.0, 40.0])
 
 
 BAD = [
-    ('latitude_deg = 95.0', "latitude_deg"),
+    ("latitude_deg = 95.0", "latitude_deg"),
     ('twilight = "dusk"', "twilight"),
-    ('horizon = [[0, 20], [360, 25]]', "horizon"),  # 0 and 360 are the same azimuth
-    ('horizon = [[400, 20]]', "horizon"),
+    ("horizon = [[0, 20], [360, 25]]", "horizon"),  # 0 and 360 are the same azimuth
+    ("horizon = [[400, 20]]", "horizon"),
     ('horizon = [[10, "high"]]', "horizon"),
-    ('dec_range_deg = [30, -30]', "dec_range_deg"),
-    ('moon_min_sep_deg = -1', "moon_min_sep_deg"),
-    ('seeing = 2', "seeing"),  # unknown key: a typo must not fall back to a default
+    ("dec_range_deg = [30, -30]", "dec_range_deg"),
+    ("moon_min_sep_deg = -1", "moon_min_sep_deg"),
+    ("seeing = 2", "seeing"),  # unknown key: a typo must not fall back to a default
     ('timezone = "Mars/Olympus"', "timezone"),
     ('timezone = "Asia/Tokyo"', "timezone"),  # 14 h from the Sun's local time in Chile: nights would split
-    ('[allocation]\nhours_per_night = 3\nblocks = [["2034-03-16T23:00", "2034-03-17T03:00"]]', "allocation.blocks"),
-    ('[allocation]\nblocks = [["2034-03-17T03:00", "2034-03-16T23:00"]]', "allocation.blocks"),
+    (
+        '[allocation]\nhours_per_night = 3\ngranted_utc = [["2034-03-16T23:00", "2034-03-17T03:00"]]',
+        "allocation.granted_utc",
+    ),
+    ('[allocation]\ngranted_utc = [["2034-03-17T03:00", "2034-03-16T23:00"]]', "allocation.granted_utc"),
+    ('[allocation]\nblocks = [["2034-03-16T23:00", "2034-03-17T03:00"]]', "allocation.blocks"),  # renamed key
 ]
 
 
@@ -85,17 +91,22 @@ def test_date_line_zone_is_accepted(tmp_path):
     assert load_site(p).timezone == "Pacific/Kiritimati"
 
 
-def test_cli_bad_site_exits_2_with_one_line(tmp_path, root):
+def test_cli_bad_site_exits_2_with_one_line(tmp_path, root, capsys):
+    from clirun import run_cli
+
     site = _write(tmp_path, GOOD + "latitude_deg_typo = 1\n")
-    target = next(iter(sorted((root / "demo_targets").glob("*.toml"))), None) if (root / "demo_targets").exists() \
-        else None
-    args = [sys.executable, "-m", "planner", "windows", "--site", str(site), "--start", "2034-03-16",
-            "--nights", "1"]
-    if target is not None:
-        args += ["--target", str(target)]
-    else:
-        pytest.skip("no demo target yet")
-    r = subprocess.run(args, capture_output=True, text=True, cwd=root, timeout=120)
+    r = run_cli(
+        capsys,
+        "windows",
+        "--site",
+        site,
+        "--start",
+        "2034-03-16",
+        "--nights",
+        "1",
+        "--target",
+        root / "demo_targets" / "c2034-b3-quillfeather.toml",
+    )
     assert r.returncode == 2
     lines = r.stderr.strip().splitlines()
     assert len(lines) == 1 and lines[0].startswith(f"error: {site}: latitude_deg_typo: unknown field")

@@ -93,18 +93,24 @@ H = 15.2
     assert math.degrees(ecc_anom - 0.2 * math.sin(ecc_anom)) == pytest.approx(40.0, abs=1e-7)
 
 
-@pytest.mark.parametrize("edit, field, words", [
-    (("eccentricity = 3.0", "eccentricity = -0.1"), "orbit.eccentricity", "outside"),
-    (("perihelion_dist_au = 1.2", "perihelion_dist_au = 0"), "orbit.perihelion_dist_au", "outside"),
-    (("inclination_deg = 60", "inclination_deg = 181"), "orbit.inclination_deg", "outside"),
-    (("perihelion_time = \"2034-02-20T12:00:00\"", "perihelion_time = \"2034-02-30\""),
-     "orbit.perihelion_time", "not an ISO 8601"),
-    (("kind = \"comet\"", "kind = \"planet\""), "kind", "not one of"),
-    (("M1 = 11.5", "M1 = 11.5\ncolour = 3"), "brightness.colour", "unknown field"),
-    (("perihelion_dist_au = 1.2\n", ""), "orbit.perihelion_dist_au", "missing"),
-    (("K1 = 10\n", ""), "brightness.K1", "go together"),
-    (("name = \"Test comet\"", "name = 5"), "name", "not a string"),
-])
+@pytest.mark.parametrize(
+    "edit, field, words",
+    [
+        (("eccentricity = 3.0", "eccentricity = -0.1"), "orbit.eccentricity", "outside"),
+        (("perihelion_dist_au = 1.2", "perihelion_dist_au = 0"), "orbit.perihelion_dist_au", "outside"),
+        (("inclination_deg = 60", "inclination_deg = 181"), "orbit.inclination_deg", "outside"),
+        (
+            ('perihelion_time = "2034-02-20T12:00:00"', 'perihelion_time = "2034-02-30"'),
+            "orbit.perihelion_time",
+            "not an ISO 8601",
+        ),
+        (('kind = "comet"', 'kind = "planet"'), "kind", "not one of"),
+        (("M1 = 11.5", "M1 = 11.5\ncolour = 3"), "brightness.colour", "unknown field"),
+        (("perihelion_dist_au = 1.2\n", ""), "orbit.perihelion_dist_au", "missing"),
+        (("K1 = 10\n", ""), "brightness.K1", "go together"),
+        (('name = "Test comet"', "name = 5"), "name", "not a string"),
+    ],
+)
 def test_bad_toml_fields_name_file_and_field(tmp_path, edit, field, words):
     path = _write(tmp_path, GOOD.replace(*edit))
     with pytest.raises(InputError) as err:
@@ -141,6 +147,7 @@ def test_missing_and_malformed_files(tmp_path):
 
 # --------------------------------------------------------------------------------- MPC lines
 
+
 def _skyfield_comet(line: str):
     from skyfield.constants import AU_KM, DAY_S
     from skyfield.data import mpc
@@ -148,12 +155,12 @@ def _skyfield_comet(line: str):
     from planner.sky.skydata import timescale
 
     df = mpc.load_comets_dataframe(io.BytesIO((line + "\n").encode()))
-    return mpc.comet_orbit(df.iloc[0], timescale(), GM_SUN_AU3_D2 * AU_KM ** 3 / DAY_S ** 2), df.iloc[0]
+    return mpc.comet_orbit(df.iloc[0], timescale(), GM_SUN_AU3_D2 * AU_KM**3 / DAY_S**2), df.iloc[0]
 
 
 def test_mpc_comet_lines_match_skyfield_parser_and_orbit():
     # Independent route: skyfield.data.mpc parses the same MPC comet layout and builds its own Kepler
-    # orbit; heliocentric positions must agree (<= 1e-8 au, issue 2).
+    # orbit; heliocentric positions must agree (<= 1e-8 au).
     from planner.sky.skydata import timescale
 
     ts = timescale()
@@ -185,7 +192,7 @@ def test_mpc_minor_planet_lines_match_skyfield_parser_and_orbit():
         assert ours.kind == "asteroid" and ours.name == row.designation
         assert ours.brightness.H == pytest.approx(row.magnitude_H)
         assert ours.brightness.G == pytest.approx(row.magnitude_G)
-        theirs = mpc.mpcorb_orbit(row, ts, GM_SUN_AU3_D2 * AU_KM ** 3 / DAY_S ** 2)
+        theirs = mpc.mpcorb_orbit(row, ts, GM_SUN_AU3_D2 * AU_KM**3 / DAY_S**2)
         times = ours.orbit.epoch_tdb_jd + np.array([-200.0, 0.0, 150.0])
         pos, _ = propagate(ours.orbit, times)
         ref = theirs.at(ts.tt_jd(times)).position.au.T

@@ -67,8 +67,10 @@ def test_nyquist_of_a_slot_grid():
 
 
 @settings(max_examples=40, deadline=None)
-@given(ticks=st.lists(st.integers(0, 10_000), min_size=2, max_size=30, unique=True),
-       step_s=st.sampled_from([60.0, 300.0, 900.0]))
+@given(
+    ticks=st.lists(st.integers(0, 10_000), min_size=2, max_size=30, unique=True),
+    step_s=st.sampled_from([60.0, 300.0, 900.0]),
+)
 def test_window_mirrors_about_nyquist(ticks, step_s):
     # Eyer & Bartholdi (1999): |W| is periodic with 2ν_N and mirrored about ν_N.
     t = 2460000.5 + np.array(ticks) * step_s / 86400
@@ -80,8 +82,10 @@ def test_window_mirrors_about_nyquist(ticks, step_s):
 
 
 @settings(max_examples=40, deadline=None)
-@given(offsets=st.lists(st.floats(0, 40, allow_nan=False), min_size=1, max_size=30),
-       freqs=st.lists(st.floats(0, 20, allow_nan=False), min_size=1, max_size=5))
+@given(
+    offsets=st.lists(st.floats(0, 40, allow_nan=False), min_size=1, max_size=30),
+    freqs=st.lists(st.floats(0, 20, allow_nan=False), min_size=1, max_size=5),
+)
 def test_window_fast_matches_slow(offsets, freqs):
     t = 2460000.5 + np.array(offsets)
     w = spectral_window(t, np.array(freqs))

@@ -74,78 +74,107 @@ def render_table(d: dict) -> str:
     s, inp = d["settings"], d["input"]
     lines = [f"CAUTION: {note.removeprefix('caution: ')}" for note in d["notes"] if note.startswith("caution")]
     sites = ", ".join(f"{k} {v}" for k, v in inp["sites"].items()) or "not given"
-    lines.append(f"{inp['n_times']} times, {inp['first_utc']} to {inp['last_utc']} "
-                 f"(span {inp['baseline_h']:.1f} h); sites: {sites}")
+    lines.append(
+        f"{inp['n_times']} times, {inp['first_utc']} to {inp['last_utc']} (span {inp['span_h']:.1f} h); sites: {sites}"
+    )
     src = inp.get("mag_err_sources")
-    if src and inp.get("mag_err_median") is not None:
-        parts = [f"{src[k]} {w}" for k, w in (("log", "from the log"), ("model", "modelled from site instruments"),
-                                              ("fallback", "from --mag-err")) if src.get(k)]
-        lines.append(f"photometric σ per point: median {inp['mag_err_median']:.4f} mag ({', '.join(parts)})")
+    if src and inp.get("median_mag_err") is not None:
+        parts = [
+            f"{src[k]} {w}"
+            for k, w in (
+                ("log", "from the log"),
+                ("model", "modelled from site instruments"),
+                ("fallback", "from --mag-err"),
+            )
+            if src.get(k)
+        ]
+        lines.append(f"photometric σ per point: median {inp['median_mag_err']:.4f} mag ({', '.join(parts)})")
     shape = "double-peaked (rotation = 2 × photometric period)" if s["double_peaked"] else "single-peaked"
-    lines.append(f"rotation periods {s['min_period_h']:g}–{s['max_period_h']:g} h, {len(d['periods_h'])} trial "
-                 f"periods, {s['phase_bins']} phase bins; light curve {shape}, amplitude "
-                 f"{s['amplitude_range_mag'][0]:g}–{s['amplitude_range_mag'][1]:g} mag; "
-                 f"{s['trials']} injected light curves (seed {s['seed']})")
+    lines.append(
+        f"rotation periods {s['min_period_h']:g}–{s['max_period_h']:g} h, {len(d['periods_h'])} trial "
+        f"periods, {s['phase_bins']} phase bins; light curve {shape}, amplitude "
+        f"{s['amplitude_range_mag'][0]:g}–{s['amplitude_range_mag'][1]:g} mag; "
+        f"{s['trials']} injected light curves (seed {s['seed']})"
+    )
     lines.append("")
     lines.append("Verdict by period band")
-    lines.append(f"  {'band (h)':<13} {'verdict':<14} {'coverage min/med':>16} {'max gap':>8} "
-                 f"{'alias':>6} {'recovered':>9}  confusable periods (h)")
+    lines.append(
+        f"  {'band (h)':<13} {'verdict':<14} {'coverage min/med':>16} {'max gap':>8} "
+        f"{'alias':>6} {'recovered':>9}  confusable periods (h)"
+    )
     for b in d["bands"]:
         rec = "—" if b["recovery_fraction"] is None else f"{100 * b['recovery_fraction']:.0f} %"
         conf = ", ".join(f"{p:g}" for p in b["confusable_periods_h"][:6])
         if len(b["confusable_periods_h"]) > 6:
             conf += ", …"
-        lines.append(f"  {b['min_period_h']:5.2f}–{b['max_period_h']:<6.2f} {b['verdict']:<14} "
-                     f"{_f(b['coverage_min'], '.2f')} / {_f(b['coverage_median'], '.2f'):<6} "
-                     f"{_f(b['largest_phase_gap_max'], '.2f'):>8} {b['alias_height_max']:6.2f} {rec:>9}  {conf}")
+        lines.append(
+            f"  {b['min_period_h']:5.2f}–{b['max_period_h']:<6.2f} {b['verdict']:<14} "
+            f"{_f(b['min_coverage'], '.2f')} / {_f(b['median_coverage'], '.2f'):<6} "
+            f"{_f(b['max_phase_gap'], '.2f'):>8} {b['max_alias_height']:6.2f} {rec:>9}  {conf}"
+        )
     lines.append("")
     worst = ", ".join(f"{w['period_h']:.2f} h ({100 * w['coverage']:.0f} %)" for w in d["worst_periods"][:6])
     lines.append(f"Worst-covered periods: {worst or 'none'}")
     daily = [c for c in d["commensurate"] if c["coverage"] < s["coverage_threshold"]]
     if daily:
-        lines.append("Periods commensurate with the day left under-covered: "
-                     + ", ".join(f"{c['period_h']:.3g} h ({100 * c['coverage']:.0f} %)" for c in daily))
+        lines.append(
+            "Periods commensurate with the day left under-covered: "
+            + ", ".join(f"{c['period_h']:.3g} h ({100 * c['coverage']:.0f} %)" for c in daily)
+        )
     peaks = ", ".join(f"{p['freq_per_day']:.3f} c/d ({p['height']:.2f})" for p in d["window_peaks"][:5])
-    lines.append(f"Spectral window peaks: {peaks or 'none above 0.1'}; Nyquist frequency "
-                 f"{_f(d['nyquist_freq_per_day'], '.4g')} c/d")
+    lines.append(
+        f"Spectral window peaks: {peaks or 'none above 0.1'}; Nyquist frequency "
+        f"{_f(d['nyquist_freq_per_day'], '.4g')} c/d"
+    )
     flagged = [a for a in d["aliases"] if a["flagged"]]
     if flagged:
         lines.append(f"Main alias pairs (window height ≥ {s['alias_threshold']:g}):")
         daily_p = {round(c["period_h"], 6) for c in d["commensurate"]}
-        daily_a = sorted((a for a in flagged if round(a["period_h"], 6) in daily_p),
-                         key=lambda a: -a["period_h"])[:3]
+        daily_a = sorted((a for a in flagged if round(a["period_h"], 6) in daily_p), key=lambda a: -a["period_h"])[:3]
         others = [a for a in flagged if a not in daily_a]
-        shown = sorted(daily_a + others[:: max(1, len(others) // 3)][: 6 - len(daily_a)],
-                       key=lambda a: a["period_h"])
+        shown = sorted(daily_a + others[:: max(1, len(others) // 3)][: 6 - len(daily_a)], key=lambda a: a["period_h"])
         for a in shown:
-            parts = [f"{p['period_h']:.2f} h" for p in a["partners"] if p["height"] >= s["alias_threshold"]
-                     and p["harmonic"] == 1][:4]
+            parts = [
+                f"{p['period_h']:.2f} h"
+                for p in a["partners"]
+                if p["height"] >= s["alias_threshold"] and p["harmonic"] == 1
+            ][:4]
             if parts:
                 lines.append(f"  {a['period_h']:6.2f} h ↔ {', '.join(parts)} (height {a['max_height']:.2f})")
     else:
         lines.append(f"No alias partner reaches window height {s['alias_threshold']:g}.")
     tr = d["trend"]
     lines.append("")
-    lines.append(f"Trend: fading-rate σ {_f(tr['rate_sigma_mag_per_day'], '.2g')} mag/day (worst period, "
-                 f"median {_f(tr['rate_sigma_median_mag_per_day'], '.2g')}); smallest extra fading at "
-                 f"{s['n_sigma']:g}σ {_f(tr['min_detectable_mag_per_day'], '.2g')} mag/day")
+    lines.append(
+        f"Trend: fading-rate σ {_f(tr['rate_sigma_mag_per_day'], '.2g')} mag/day (worst period, "
+        f"median {_f(tr['median_rate_sigma_mag_per_day'], '.2g')}); smallest extra fading at "
+        f"{s['n_sigma']:g}σ {_f(tr['min_detectable_mag_per_day'], '.2g')} mag/day"
+    )
     if tr.get("geometric_trend_used"):
-        lines.append(f"Geometric trend of the target over the span: {tr['geometric_trend_range_mag']:.3g} mag "
-                     "(known from r and Δ; fitted in the injection search)")
-    lines.append(f"Longest gap between visits: {_duration(tr['longest_gap_h'])} "
-                 f"({tr['longest_gap_start_utc']} → {tr['longest_gap_end_utc']})")
+        lines.append(
+            f"Geometric trend of the target over the span: {tr['geometric_trend_range_mag']:.3g} mag "
+            "(known from r and Δ; fitted in the injection search)"
+        )
+    lines.append(
+        f"Longest gap between visits: {_duration(tr['longest_gap_h'])} "
+        f"({tr['longest_gap_start_utc']} → {tr['longest_gap_end_utc']})"
+    )
     pc = d["period_change"]
     pick = pc[:: max(1, len(pc) // 5)]
-    lines.append(f"Period change first vs second half detectable at {s['n_sigma']:g}σ "
-                 f"(amplitude {s['amplitude_range_mag'][0]:g} mag): "
-                 + ", ".join(f"P {p['period_h']:.3g} h: {_duration(p['min_detectable_change_h'])}" for p in pick))
+    lines.append(
+        f"Period change first vs second half detectable at {s['n_sigma']:g}σ "
+        f"(amplitude {s['amplitude_range_mag'][0]:g} mag): "
+        + ", ".join(f"P {p['period_h']:.3g} h: {_duration(p['min_detectable_change_h'])}" for p in pick)
+    )
     syn = d.get("synodic")
     if syn:
         over = [p for p in syn["periods"] if p["exceeds_precision"]]
-        lines.append(f"Synodic–sidereal: bisector longitude moves {syn['pab_lon_rate_deg_per_day']:.3g} °/day "
-                     f"({syn['phase_drift_cycles']:.3g} rotations of phase over the span); offset exceeds the "
-                     f"1σ period precision for {len(over)} of {len(syn['periods'])} candidate periods"
-                     + (f" (from {over[0]['period_h']:.3g} h)" if over else ""))
+        lines.append(
+            f"Synodic–sidereal: bisector longitude moves {syn['pab_lon_rate_deg_per_day']:.3g} °/day "
+            f"({syn['phase_drift_cycles']:.3g} rotations of phase over the span); offset exceeds the "
+            f"1σ period precision for {len(over)} of {len(syn['periods'])} candidate periods"
+            + (f" (from {over[0]['period_h']:.3g} h)" if over else "")
+        )
     for note in d["notes"]:
         if not note.startswith("caution"):
             lines.append(f"Note: {note}")
@@ -155,34 +184,42 @@ def render_table(d: dict) -> str:
 def register(app: typer.Typer) -> None:
     @app.command("check")
     def check(
-        times_csv: Annotated[Path, typer.Argument(help="observation log CSV: time_utc, optional site, "
-                                                  "exposure_s, mag_err, status, night")],
+        times_csv: Annotated[
+            Path,
+            typer.Argument(help="observation log CSV: time_utc, optional site, exposure_s, mag_err, status, night"),
+        ],
         min_period: Annotated[str, typer.Option("--min-period", help="shortest rotation period (2h, 90m)")] = "2h",
         max_period: Annotated[str, typer.Option("--max-period", help="longest rotation period (30h, 2d)")] = "30h",
-        target: Annotated[Path | None, typer.Option("--target", help="target file: adds the geometric trend "
-                                                    "and the synodic–sidereal drift")] = None,
-        object_name: Annotated[str | None, typer.Option("--object", help="which line of a multi-line MPC "
-                                                        ".txt target file")] = None,
-        site: Annotated[list[Path] | None, typer.Option("--site", help="site file (repeatable; with --target): "
-                                                        "σ per point from its instrument")] = None,
+        target: Annotated[
+            Path | None,
+            typer.Option("--target", help="target file: adds the geometric trend and the synodic–sidereal drift"),
+        ] = None,
+        object_name: Annotated[
+            str | None, typer.Option("--object", help="which line of a multi-line MPC .txt target file")
+        ] = None,
+        site: Annotated[
+            list[Path] | None,
+            typer.Option("--site", help="site file (repeatable; with --target): σ per point from its instrument"),
+        ] = None,
         trials: Annotated[int, typer.Option("--trials", min=0, help="injected light curves (0: none)")] = 200,
         seed: Annotated[int, typer.Option("--seed", help="random seed of the injections")] = 0,
-        mag_err: Annotated[float, typer.Option("--mag-err", min=1e-6, help="σ (mag) where the log gives none")]
-        = 0.02,
-        amplitude: Annotated[str, typer.Option("--amplitude", help="peak-to-peak range, mag (0.1-0.5)")]
-        = "0.1-0.5",
-        single_peaked: Annotated[bool, typer.Option("--single-peaked", help="assume one maximum per rotation")]
-        = False,
-        extra_fading: Annotated[float, typer.Option("--extra-fading", help="fading added to injections, "
-                                                    "mag/day")] = 0.0,
+        mag_err: Annotated[float, typer.Option("--mag-err", min=1e-6, help="σ (mag) where the log gives none")] = 0.02,
+        amplitude: Annotated[str, typer.Option("--amplitude", help="peak-to-peak range, mag (0.1-0.5)")] = "0.1-0.5",
+        single_peaked: Annotated[bool, typer.Option("--single-peaked", help="assume one maximum per rotation")] = False,
+        extra_fading: Annotated[
+            float, typer.Option("--extra-fading", help="fading added to injections, mag/day")
+        ] = 0.0,
         fmt: Annotated[str, typer.Option("--format", help="table or json")] = "table",
         out: Annotated[Path | None, typer.Option("--out", help="write here instead of stdout")] = None,
         plot: Annotated[Path | None, typer.Option("--plot", help="folder for PNG figures")] = None,
-        report: Annotated[Path | None, typer.Option("--report", help="also write a self-contained HTML "
-                                                    "report of the check to this file")] = None,
-        progress: Annotated[bool | None, typer.Option("--progress/--no-progress",
-                                                      help="progress bar on stderr (default: on a terminal)")]
-        = None,
+        report: Annotated[
+            Path | None,
+            typer.Option("--report", help="also write a self-contained HTML report of the check to this file"),
+        ] = None,
+        progress: Annotated[
+            bool | None,
+            typer.Option("--progress/--no-progress", help="progress bar on stderr (default: on a terminal)"),
+        ] = None,
     ) -> None:
         """Coverage, alias and trend diagnostics for a list of observation times."""
         from planner.core.fileio import write_text_atomic
@@ -213,17 +250,33 @@ def register(app: typer.Typer) -> None:
                 raise InputError("command line", "--site", "the log has no site column, so give exactly one --site")
         from planner.photometry.tables import log_mag_err
 
-        err, err_sources = log_mag_err(tgt, log.times_utc, log.site, sites, logged_mag_err=log.mag_err,
-                                       exposure_s=log.exposure_s, fallback_mag_err=mag_err)
+        err, err_sources = log_mag_err(
+            tgt,
+            log.times_utc,
+            log.site,
+            sites,
+            logged_mag_err=log.mag_err,
+            exposure_s=log.exposure_s,
+            fallback_mag_err=mag_err,
+        )
         show = sys.stderr.isatty() if progress is None else progress
         bar = _Progress("injection–recovery") if show and trials > 0 else None
         try:
-            result = check_times(log.times_utc, min_period_h=p_min, max_period_h=p_max,
-                                 mag_err=err, sites=log.site, exposure_s=log.exposure_s,
-                                 target=tgt,
-                                 trials=trials, seed=seed, amplitude_range_mag=_amplitudes(amplitude),
-                                 double_peaked=not single_peaked, extra_fading_mag_per_day=extra_fading,
-                                 progress=bar)
+            result = check_times(
+                log.times_utc,
+                min_period_h=p_min,
+                max_period_h=p_max,
+                mag_err=err,
+                sites=log.site,
+                exposure_s=log.exposure_s,
+                target=tgt,
+                trials=trials,
+                seed=seed,
+                amplitude_range_mag=_amplitudes(amplitude),
+                double_peaked=not single_peaked,
+                extra_fading_mag_per_day=extra_fading,
+                progress=bar,
+            )
         finally:
             if bar is not None:
                 bar.close()
@@ -239,8 +292,9 @@ def register(app: typer.Typer) -> None:
         if report is not None:
             from planner.outputs.report import render_check_report
 
-            write_text_atomic(report, render_check_report(d, title=f"Sampling check: {times_csv.name}",
-                                                          source=str(times_csv)))
+            write_text_atomic(
+                report, render_check_report(d, title=f"Sampling check: {times_csv.name}", source=str(times_csv))
+            )
         if out is None:
             sys.stdout.write(text)
         else:

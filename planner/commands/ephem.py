@@ -14,6 +14,7 @@ import typer
 
 from planner.core.errors import InputError
 from planner.core.fileio import write_text_atomic
+from planner.core.textfmt import dec_dms, ra_hms
 from planner.core.timegrid import iso_utc, parse_duration_s, parse_utc, time_grid
 from planner.inputs.settings import ExposureRules
 from planner.inputs.sites import load_site
@@ -34,11 +35,11 @@ _TABLE_COLUMNS = [
     ("obs_dist_au", "Delta", "au", "{:7.4f}"),
     ("phase_angle_deg", "phase", "deg", "{:6.2f}"),
     ("solar_elong_deg", "elong", "deg", "{:6.1f}"),
-    ("motion_arcsec_min", "motion", "\"/min", "{:7.3f}"),
+    ("motion_arcsec_per_min", "motion", '"/min', "{:7.3f}"),
     ("motion_pa_deg", "PA", "deg", "{:6.1f}"),
     ("sunward_pa_deg", "sun PA", "deg", "{:6.1f}"),
     ("mag_pred", "mag", "mag", "{:6.2f}"),
-    ("km_per_arcsec", "scale", "km/\"", "{:7.1f}"),
+    ("km_per_arcsec", "scale", 'km/"', "{:7.1f}"),
 ]
 _SITE_TABLE_COLUMNS = [
     ("alt_deg", "alt", "deg", "{:6.1f}"),
@@ -51,30 +52,14 @@ _SITE_TABLE_COLUMNS = [
 ]
 # Photometry columns, for sites with an [instrument] (docs/formats.md "Photometry columns").
 _PHOT_TABLE_COLUMNS = [
-    ("sky_mag_arcsec2", "sky", "mag/\"2", "{:5.2f}"),
-    ("aperture_arcsec", "aper", "\"", "{:5.1f}"),
+    ("sky_mag_arcsec2", "sky", 'mag/"2', "{:5.2f}"),
+    ("aperture_arcsec", "aper", '"', "{:5.1f}"),
     ("exposure_s", "exp", "s", "{:6.1f}"),
     ("snr_pred", "S/N", "", "{:6.1f}"),
     ("mag_err_pred", "sigma", "mag", "{:6.3f}"),
     ("n_exposures_per_hour", "n/h", "", "{:4.0f}"),
     ("afrho_cm", "Afrho", "cm", "{:7.1f}"),
 ]
-
-
-def format_ra_hms(ra_deg: np.ndarray) -> list[str]:
-    """RA in hours, minutes and seconds to 0.01 s (``10 50 54.93``)."""
-    cs = np.round(np.asarray(ra_deg, dtype=float) % 360.0 / 15.0 * 360000.0).astype(np.int64) % 8_640_000
-    return [f"{c // 360000:02d} {c // 6000 % 60:02d} {c % 6000 / 100:05.2f}" for c in cs]
-
-
-def format_dec_dms(dec_deg: np.ndarray) -> list[str]:
-    """Dec in signed degrees, arcminutes and arcseconds to 0.1″ (``-25 23 08.2``)."""
-    out = []
-    for d in np.asarray(dec_deg, dtype=float):
-        sign = "-" if d < 0 else "+"
-        ds = int(round(abs(d) * 36000.0))
-        out.append(f"{sign}{ds // 36000:02d} {ds // 600 % 60:02d} {ds % 600 / 10:04.1f}")
-    return out
 
 
 def _cell(fmt: str, value: float) -> str:
@@ -91,16 +76,23 @@ def render_table(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
         cols += [c for c in _PHOT_TABLE_COLUMNS if c[0] in frame]
         headers = ["time_utc", "RA (h m s)", "Dec (d m s)"] + [h for _, h, _, _ in cols] + ["!"]
         units = ["", "", ""] + [u for _, _, u, _ in cols] + [""]
-        body = [iso_utc(frame["time_utc"].to_numpy()), format_ra_hms(frame["ra_deg"]),
-                format_dec_dms(frame["dec_deg"])]
+        body = [
+            iso_utc(frame["time_utc"].to_numpy()),
+            [ra_hms(v, 2, letters=False) for v in frame["ra_deg"]],
+            [dec_dms(v, 1, letters=False) for v in frame["dec_deg"]],
+        ]
         for col, _, _, fmt in cols:
             body.append([_cell(fmt, v) for v in frame[col].to_numpy(dtype=float)])
         body.append(["SUN" if flag else "" for flag in frame["low_solar_elong"]])
-        widths = [max(len(h), len(u), *(len(v) for v in column)) if len(column) else max(len(h), len(u))
-                  for h, u, column in zip(headers, units, body, strict=True)]
+        widths = [
+            max(len(h), len(u), *(len(v) for v in column)) if len(column) else max(len(h), len(u))
+            for h, u, column in zip(headers, units, body, strict=True)
+        ]
         law = format_law(frame.attrs.get("mag_law", ""), frame.attrs.get("mag_params", {}))
-        lines = [f"# {frame.attrs.get('target', '')} from {name}; predicted magnitude: "
-                 f"{law}; RA/Dec astrometric ICRF; alt/az airless (no refraction)"]
+        lines = [
+            f"# {frame.attrs.get('target', '')} from {name}; predicted magnitude: "
+            f"{law}; RA/Dec astrometric ICRF; alt/az airless (no refraction)"
+        ]
         lines.append("  ".join(h.rjust(w) for h, w in zip(headers, widths, strict=True)).rstrip())
         lines.append("  ".join(u.rjust(w) for u, w in zip(units, widths, strict=True)).rstrip())
         for row in zip(*body, strict=True):
@@ -180,13 +172,15 @@ def register(app: typer.Typer) -> None:
         if t1 < t0:
             raise InputError("command line", "stop", f"{stop} is before start {start}")
         if (t1 - t0) / np.timedelta64(1, "s") / step_s + 1 > MAX_ROWS:
-            raise InputError("command line", "step",
-                             f"{step} gives more than {MAX_ROWS} epochs; use a longer step")
+            raise InputError("command line", "step", f"{step} gives more than {MAX_ROWS} epochs; use a longer step")
         utc_times(np.array([t0, t1]), "command line", "start/stop")  # inside DE421's span?
         tgt = load_target(target, object_name)
         sites = [load_site(p) for p in (site or [])]
-        frames = add_photometry(geometry(tgt, time_grid(t0, t1, step_s), sites, min_solar_elong_deg=min_elong),
-                                sites, rules=ExposureRules(snr_target=snr, min_exposure_s=min_exposure_s))
+        frames = add_photometry(
+            geometry(tgt, time_grid(t0, t1, step_s), sites, min_solar_elong_deg=min_elong),
+            sites,
+            rules=ExposureRules(snr_target=snr, min_exposure_s=min_exposure_s),
+        )
         caution = safety_warning(frames)
         if fmt == "table":
             text = render_table(frames, caution)

@@ -16,13 +16,23 @@ def register(app: typer.Typer) -> None:
     @app.command("plan")
     def plan(
         campaign: Annotated[Path, typer.Argument(help="campaign file (TOML)")],
-        out: Annotated[Path | None, typer.Option("--out", help="write the plan folder here (refuses a "
-                                                 "non-empty folder)")] = None,
+        out: Annotated[
+            Path | None, typer.Option("--out", help="write the plan folder here (refuses a non-empty folder)")
+        ] = None,
         force: Annotated[bool, typer.Option("--force", help="replace a non-empty --out folder")] = False,
-        done: Annotated[Path | None, typer.Option("--done", help="CSV log of observed times and lost nights: "
-                                                  "re-plan the remaining nights (the log is only read)")] = None,
-        exact: Annotated[bool, typer.Option("--exact", help="also solve the coverage problem exactly (HiGHS) "
-                                            "to measure the greedy's optimality gap")] = False,
+        done: Annotated[
+            Path | None,
+            typer.Option(
+                "--done",
+                help="CSV log of observed times and lost nights: re-plan the remaining nights (the log is only read)",
+            ),
+        ] = None,
+        exact: Annotated[
+            bool,
+            typer.Option(
+                "--exact", help="also solve the coverage problem exactly (HiGHS) to measure the greedy's optimality gap"
+            ),
+        ] = False,
         fmt: Annotated[str, typer.Option("--format", help="table, csv or json (printed output)")] = "table",
     ) -> None:
         """Optimise a multi-site campaign: when each site observes, night by night."""
@@ -48,15 +58,21 @@ def register(app: typer.Typer) -> None:
         elif fmt == "json":
             from planner.core.jsonsafe import json_safe
 
-            doc = {**plan_manifest(result), "comparison": result.comparison.to_dict(),
-                   "objective": result.objective.to_dict(),
-                   "robustness": {k: v.to_dict() for k, v in result.robustness.items()},
-                   "nights": records(result.nights)}
+            doc = {
+                **plan_manifest(result),
+                "comparison": result.comparison.to_dict(),
+                "objective": result.objective.to_dict(),
+                "robustness": {k: v.to_dict() for k, v in result.robustness.items()},
+                "nights": records(result.nights),
+            }
             sys.stdout.write(json.dumps(json_safe(doc), indent=1) + "\n")
         else:
-            sys.stdout.write(f"{camp.name}: {len(result.blocks)} blocks at {result.blocks['site'].nunique()} "
-                             f"sites, {camp.nights} nights from {camp.first_night.isoformat()}"
-                             + (f" (re-planned from {result.done_log})" if result.done_log else "") + "\n\n")
+            sys.stdout.write(
+                f"{camp.name}: {len(result.blocks)} blocks at {result.blocks['site'].nunique()} "
+                f"sites, {camp.nights} nights from {camp.first_night.isoformat()}"
+                + (f" (re-planned from {result.done_log})" if result.done_log else "")
+                + "\n\n"
+            )
             sys.stdout.write(night_table(result.blocks))
             sys.stdout.write(nights_text(result))
             sys.stdout.write(safety_text(result))

@@ -12,15 +12,23 @@ import typer
 
 from planner.core.errors import InputError
 from planner.core.fileio import write_text_atomic
+from planner.core.safety import SUN_SAFETY_TEXT
 from planner.core.timegrid import iso_utc, parse_date, parse_duration_s
 from planner.inputs.settings import ExposureRules
-from planner.visibility.windows import SUN_CAUTION
 
 FORMATS = ("table", "csv", "json")
 _TIME_COLUMNS = ("start_utc", "end_utc", "best_utc")
 
-_EDGE_WORD = {"twilight": "twilight", "noon": "noon", "horizon": "horizon", "hour_angle": "HA limit",
-              "dec_range": "dec limit", "moon": "Moon", "sun_elong": "Sun", "allocation": "allocation"}
+_EDGE_WORD = {
+    "twilight": "twilight",
+    "noon": "noon",
+    "horizon": "horizon",
+    "hour_angle": "HA limit",
+    "dec_range": "dec limit",
+    "moon": "Moon",
+    "sun_elong": "Sun",
+    "allocation": "allocation",
+}
 
 
 def _plain(df: pd.DataFrame) -> pd.DataFrame:
@@ -38,9 +46,8 @@ def render_csv(df: pd.DataFrame) -> str:
 
 def render_json(df: pd.DataFrame) -> str:
     rows = json.loads(_plain(df).to_json(orient="records", double_precision=6))
-    caution = SUN_CAUTION[0].upper() + SUN_CAUTION[1:] + "."
-    return json.dumps({"caution": caution, "windows": rows}, indent=1,
-                      ensure_ascii=False) + "\n"
+    caution = SUN_SAFETY_TEXT
+    return json.dumps({"caution": caution, "windows": rows}, indent=1, ensure_ascii=False) + "\n"
 
 
 def _hhmm(iso_local: str) -> str:
@@ -65,22 +72,29 @@ def render_table(df: pd.DataFrame, sites) -> str:
     lines = []
     for s in sites:
         rows = df[df["site"] == s.name]
-        alloc = ("all dark time" if s.allocation.unlimited else
-                 f"{s.allocation.hours_per_night:g} h per night" if s.allocation.hours_per_night is not None
-                 else f"{len(s.allocation.blocks_utc)} UTC block(s)")
+        alloc = (
+            "all dark time"
+            if s.allocation.unlimited
+            else f"{s.allocation.hours_per_night:g} h per night"
+            if s.allocation.hours_per_night is not None
+            else f"{len(s.allocation.granted_utc)} UTC block(s)"
+        )
         offset = rows["start_local"].str[-6:].replace("", np.nan).dropna()
         zone = f"{s.timezone} (UTC{offset.iloc[0]})" if len(offset) else s.timezone
-        lines += [f"{s.name}  lat {s.latitude_deg:+.3f}  lon {s.longitude_deg:+.3f}  {zone}",
-                  f"  night ends at {s.twilight} twilight (Sun {s.night_sun_alt_deg:g}°), altitude ≥ "
-                  f"{s.min_alt_deg:g}°{' with horizon mask' if s.horizon else ''}, allocation: {alloc}",
-                  f"  {'night':<10}  {'local':<11}  {'UTC':<11}  {'hours':>5}  {'budget':>6}  {'best':>5}  "
-                  f"{'alt':>4}  {'X':>4}  {'moon':>8}  {'mag':>5}  {'exposures':>11}  {'S/N':>4}  note"]
+        lines += [
+            f"{s.name}  lat {s.latitude_deg:+.3f}  lon {s.longitude_deg:+.3f}  {zone}",
+            f"  night ends at {s.twilight} twilight (Sun {s.night_sun_alt_deg:g}°), altitude ≥ "
+            f"{s.min_alt_deg:g}°{' with horizon mask' if s.horizon else ''}, allocation: {alloc}",
+            f"  {'night':<10}  {'local':<11}  {'UTC':<11}  {'hours':>5}  {'budget':>6}  {'best':>5}  "
+            f"{'alt':>4}  {'X':>4}  {'moon':>8}  {'mag':>5}  {'exposures':>11}  {'S/N':>4}  note",
+        ]
         flagged = False
         for _, r in rows.iterrows():  # output rows, not epochs
             if r["hours"] == 0:
-                lines.append(f"  {r['night']:<10}  {'-':<11}  {'-':<11}  {0:5.2f}  {'':>6}  {'':>5}  {'':>4}  "
-                             f"{'':>4}  {'':>8}  {'':>5}  {'':>11}  {'':>4}  {r['reason']}"
-                             + ("  !" if r["caution"] else ""))
+                lines.append(
+                    f"  {r['night']:<10}  {'-':<11}  {'-':<11}  {0:5.2f}  {'':>6}  {'':>5}  {'':>4}  "
+                    f"{'':>4}  {'':>8}  {'':>5}  {'':>11}  {'':>4}  {r['reason']}" + ("  !" if r["caution"] else "")
+                )
                 flagged |= bool(r["caution"])
                 continue
             utc = [iso_utc(np.array([r[c]], dtype="datetime64[ns]"))[0][11:16] for c in _TIME_COLUMNS]
@@ -89,19 +103,25 @@ def render_table(df: pd.DataFrame, sites) -> str:
             if r["caution"]:
                 note += "  !"
                 flagged = True
-            lines.append(f"  {r['night']:<10}  {_hhmm(r['start_local'])}–{_hhmm(r['end_local'])}  "
-                         f"{utc[0]}–{utc[1]}  {r['hours']:5.2f}  {r['night_budget_h']:6.2f}  {utc[2]:>5}  "
-                         f"{r['max_alt_deg']:4.0f}  {r['min_airmass']:4.2f}  {moon:>8}  {r['mag_pred']:5.1f}  "
-                         f"{_exposures(r):>11}  {_snr(r):>4}  {note}")
+            lines.append(
+                f"  {r['night']:<10}  {_hhmm(r['start_local'])}–{_hhmm(r['end_local'])}  "
+                f"{utc[0]}–{utc[1]}  {r['hours']:5.2f}  {r['night_budget_h']:6.2f}  {utc[2]:>5}  "
+                f"{r['max_alt_deg']:4.0f}  {r['min_airmass']:4.2f}  {moon:>8}  {r['mag_pred']:5.1f}  "
+                f"{_exposures(r):>11}  {_snr(r):>4}  {note}"
+            )
         if flagged:
-            lines.append("  ! opens or closes in twilight, or the Sun is within 10° of the site's elongation limit: "
-                         "keep clear of the Sun's side of the sky; " + SUN_CAUTION + ".")
+            lines.append(
+                "  ! opens or closes in twilight, or the Sun is within 10° of the site's elongation limit: "
+                "keep clear of the Sun's side of the sky. " + SUN_SAFETY_TEXT
+            )
         lines.append("")
-    lines.append("hours: window length; budget: hours the allocation allows that night; best: UTC of highest "
-                 "altitude; X: airmass there; moon: separation and illuminated fraction there; mag: predicted "
-                 "magnitude; exposures: how many of what length fit the budget (sites with an instrument, "
-                 "exposure set by the S/N goal, the --min-exposure floor or the trailing limit); S/N: per "
-                 "exposure; note: what opens → closes each window.")
+    lines.append(
+        "hours: window length; budget: hours the allocation allows that night; best: UTC of highest "
+        "altitude; X: airmass there; moon: separation and illuminated fraction there; mag: predicted "
+        "magnitude; exposures: how many of what length fit the budget (sites with an instrument, "
+        "exposure set by the S/N goal, the --min-exposure floor or the trailing limit); S/N: per "
+        "exposure; note: what opens → closes each window."
+    )
     return "\n".join(lines) + "\n"
 
 
@@ -115,12 +135,15 @@ def register(app: typer.Typer) -> None:
         step: Annotated[str, typer.Option("--step", help="coarse grid step; edges are then refined")] = "5m",
         fmt: Annotated[str, typer.Option("--format", help="table, csv or json")] = "table",
         out: Annotated[Path | None, typer.Option("--out", help="write here (atomically), not to the screen")] = None,
-        snr: Annotated[float, typer.Option("--snr", min=1.0, help="S/N goal per exposure (sites with an "
-                                           "instrument)")] = ExposureRules.snr_target,
-        min_exposure: Annotated[str, typer.Option("--min-exposure", help="shortest exposure worth taking "
-                                                  "(trailing may cut it)")] = f"{ExposureRules.min_exposure_s:g}s",
-        object_name: Annotated[str | None, typer.Option("--object", help="which line of a multi-line MPC "
-                                                        ".txt file")] = None,
+        snr: Annotated[
+            float, typer.Option("--snr", min=1.0, help="S/N goal per exposure (sites with an instrument)")
+        ] = ExposureRules.snr_target,
+        min_exposure: Annotated[
+            str, typer.Option("--min-exposure", help="shortest exposure worth taking (trailing may cut it)")
+        ] = f"{ExposureRules.min_exposure_s:g}s",
+        object_name: Annotated[
+            str | None, typer.Option("--object", help="which line of a multi-line MPC .txt file")
+        ] = None,
     ) -> None:
         """Observable windows per site and night, with the reason when there is none.
 
@@ -137,10 +160,21 @@ def register(app: typer.Typer) -> None:
         sites = [load_site(p) for p in site]
         tgt = load_target(target, object_name)
         df = observable_windows(tgt, sites, first, nights, step_s=step_s)
-        df = df.join(window_photometry(df, tgt, sites, rules=ExposureRules(
-            snr_target=snr, min_exposure_s=parse_duration_s(min_exposure, field="min-exposure"))))
-        text = {"table": lambda: render_table(df, sites), "csv": lambda: render_csv(df),
-                "json": lambda: render_json(df)}[fmt]()
+        df = df.join(
+            window_photometry(
+                df,
+                tgt,
+                sites,
+                rules=ExposureRules(
+                    snr_target=snr, min_exposure_s=parse_duration_s(min_exposure, field="min-exposure")
+                ),
+            )
+        )
+        text = {
+            "table": lambda: render_table(df, sites),
+            "csv": lambda: render_csv(df),
+            "json": lambda: render_json(df),
+        }[fmt]()
         if out is None:
             typer.echo(text, nl=False)
         else:

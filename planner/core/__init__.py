@@ -1,1 +1,1 @@
-"""Shared plumbing at the bottom of the pipeline: errors, constants, bands, time, TOML, atomic files, formatting, safety wording."""
+"""Shared plumbing at the bottom of the pipeline: errors, constants, bands, time, TOML, files, formats, safety."""

@@ -26,7 +26,7 @@ def write_bytes_atomic(path: str | Path, data: bytes) -> Path:
         p.parent.mkdir(parents=True, exist_ok=True)
     except (FileExistsError, NotADirectoryError):
         raise InputError(str(p), "out", "cannot make its folder: a file of that name is in the way") from None
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".part", dir=p.parent)
+    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".site_night", dir=p.parent)
     try:
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)

@@ -75,5 +75,4 @@ def block_caution_kinds(
 
 def low_elongation_note(n_low: int, n_total: int, limit_deg: float) -> str:
     """The line printed when some epochs or times fall below a Sun limit."""
-    return (f"CAUTION: solar elongation below {limit_deg:g} deg at {n_low} of {n_total} epochs. "
-            + SUN_SAFETY_TEXT)
+    return f"CAUTION: solar elongation below {limit_deg:g} deg at {n_low} of {n_total} epochs. " + SUN_SAFETY_TEXT

@@ -12,30 +12,34 @@ import math
 
 def _sexagesimal(value: float, decimals: int) -> tuple[int, int, float]:
     """(whole units, minutes, seconds) of a non-negative value, rounded on the seconds with carry."""
-    scale = 10 ** decimals
+    scale = 10**decimals
     total = round(value * 3600.0 * scale)  # in units of the last digit shown
     whole, rest = divmod(total, 3600 * scale)
     minutes, sec = divmod(rest, 60 * scale)
     return int(whole), int(minutes), sec / scale
 
 
-def ra_hms(ra_deg: float, decimals: int = 1) -> str:
-    """Right ascension as ``HHhMMmSS.Ss`` (24h wraps to 00h); ``-`` when not finite."""
+def ra_hms(ra_deg: float, decimals: int = 1, letters: bool = True) -> str:
+    """Right ascension as ``HHhMMmSS.Ss`` (or ``HH MM SS.S`` with ``letters=False``); 24h wraps to 00h;
+    ``-`` when not finite."""
     if not math.isfinite(ra_deg):
         return "-"
     h, m, s = _sexagesimal((ra_deg % 360.0) / 15.0, decimals)
     width = 3 + decimals if decimals else 2
-    return f"{h % 24:02d}h{m:02d}m{s:0{width}.{decimals}f}s"
+    a, b, c = ("h", "m", "s") if letters else (" ", " ", "")
+    return f"{h % 24:02d}{a}{m:02d}{b}{s:0{width}.{decimals}f}{c}"
 
 
-def dec_dms(dec_deg: float, decimals: int = 0) -> str:
-    """Declination as ``+DDdMMmSSs`` (rounded, with carry); ``-`` when not finite."""
+def dec_dms(dec_deg: float, decimals: int = 0, letters: bool = True) -> str:
+    """Declination as ``+DDdMMmSSs`` (or ``+DD MM SS`` with ``letters=False``), rounded with carry; ``-``
+    when not finite."""
     if not math.isfinite(dec_deg):
         return "-"
     d, m, s = _sexagesimal(abs(dec_deg), decimals)
     sign = "-" if dec_deg < 0 and (d or m or s) else "+"
     width = 3 + decimals if decimals else 2
-    return f"{sign}{d:02d}d{m:02d}m{s:0{width}.{decimals}f}s"
+    a, b, c = ("d", "m", "s") if letters else (" ", " ", "")
+    return f"{sign}{d:02d}{a}{m:02d}{b}{s:0{width}.{decimals}f}{c}"
 
 
 def clock_hm(iso_text: str) -> str:

@@ -24,8 +24,9 @@ def parse_duration_s(text: str, file: str = "command line", field: str = "durati
     return value
 
 
-def parse_utc(text: str | datetime | date | np.datetime64, file: str = "command line",
-              field: str = "time") -> np.datetime64:
+def parse_utc(
+    text: str | datetime | date | np.datetime64, file: str = "command line", field: str = "time"
+) -> np.datetime64:
     """ISO 8601 UTC (``2034-03-10``, ``2034-03-10T22:15``, ``2034-03-10 22:15:00Z``) → datetime64[ns]."""
     if isinstance(text, np.datetime64):
         return text.astype("datetime64[ns]")
@@ -50,8 +51,9 @@ def parse_utc(text: str | datetime | date | np.datetime64, file: str = "command 
     return np.datetime64(dt, "ns")
 
 
-def parse_date(text: str, file: str = "command line", field: str = "date",
-               example: str = "a date such as 2034-03-16") -> date:
+def parse_date(
+    text: str, file: str = "command line", field: str = "date", example: str = "a date such as 2034-03-16"
+) -> date:
     """ISO calendar date (``2034-03-16``), e.g. the local date on which a night begins."""
     try:
         return date.fromisoformat(str(text).strip())

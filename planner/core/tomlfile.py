@@ -50,10 +50,16 @@ class Fields:
     def has(self, key: str) -> bool:
         return key in self.table
 
-    def check_known(self, allowed: Iterable[str]) -> None:
-        """Reject keys we do not know: a typo should not silently fall back to a default."""
+    def check_known(self, allowed: Iterable[str], renamed: dict[str, str] | None = None) -> None:
+        """Reject keys we do not know: a typo should not silently fall back to a default.
+
+        ``renamed`` maps keys of earlier versions to their new names, so an old file gets a line
+        naming the key to write instead.
+        """
         allowed = set(allowed)
         for key in self.table:
+            if renamed and key in renamed:
+                raise self.error(key, f"this key is now called {renamed[key]!r}: rename it")
             if key not in allowed:
                 raise self.error(key, f"unknown field (known: {', '.join(sorted(allowed))})")
 
@@ -103,8 +109,15 @@ class Fields:
             raise self.error(key, f"{value:g} is outside {left}{lo_s}, {hi_s}{right}")
         return value
 
-    def int(self, key: str, default: int | None = None, *, required: bool = False,
-            lo: int | None = None, hi: int | None = None) -> int | None:
+    def int(
+        self,
+        key: str,
+        default: int | None = None,
+        *,
+        required: bool = False,
+        lo: int | None = None,
+        hi: int | None = None,
+    ) -> int | None:
         value = self._get(key, required, default)
         if value is None:
             return None
@@ -114,8 +127,9 @@ class Fields:
             raise self.error(key, f"{value} is outside [{lo}, {hi}]")
         return value
 
-    def str(self, key: str, default: str | None = None, *, required: bool = False,
-            choices: Iterable[str] | None = None) -> str | None:
+    def str(
+        self, key: str, default: str | None = None, *, required: bool = False, choices: Iterable[str] | None = None
+    ) -> str | None:
         value = self._get(key, required, default)
         if value is None:
             return None

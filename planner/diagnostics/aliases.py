@@ -12,8 +12,9 @@ import numpy as np
 from planner.diagnostics.specwindow import days_from_first, normalised_weights
 
 
-def alias_height(times_jd: np.ndarray, delta_freq_per_day: np.ndarray | float,
-                 weights: np.ndarray | None = None) -> np.ndarray:
+def alias_height(
+    times_jd: np.ndarray, delta_freq_per_day: np.ndarray | float, weights: np.ndarray | None = None
+) -> np.ndarray:
     """Height of the alias at frequency offset Δf: length of the mean unit vector of the phases.
 
     Eyer & Bartholdi (1999), A&AS 135, 1, section 3: fold the times on Δf, place each as a unit
@@ -34,8 +35,7 @@ def alias_height(times_jd: np.ndarray, delta_freq_per_day: np.ndarray | float,
     return np.hypot(cx, cy)
 
 
-def alias_partners(freq_per_day: np.ndarray, peak_freq_per_day: np.ndarray,
-                   harmonic: int = 1) -> np.ndarray:
+def alias_partners(freq_per_day: np.ndarray, peak_freq_per_day: np.ndarray, harmonic: int = 1) -> np.ndarray:
     """Frequencies confusable with each candidate: ``(h·f ± f_w) / h`` for every window peak.
 
     ``freq_per_day`` (n,) candidates, ``peak_freq_per_day`` (k,) window peaks. Returns an
@@ -51,8 +51,15 @@ def alias_partners(freq_per_day: np.ndarray, peak_freq_per_day: np.ndarray,
     return np.where(out > 0, out, np.nan)
 
 
-def partners_in_range(freq_per_day: float, peaks_f: np.ndarray, peaks_h: np.ndarray, *, min_period_h: float,
-                      max_period_h: float, double_peaked: bool) -> list[dict]:
+def partners_in_range(
+    freq_per_day: float,
+    peaks_f: np.ndarray,
+    peaks_h: np.ndarray,
+    *,
+    min_period_h: float,
+    max_period_h: float,
+    double_peaked: bool,
+) -> list[dict]:
     """Alias partners of one candidate rotation frequency, inside the searched period range."""
     low = min_period_h / (2.0 if double_peaked else 1.0)
     out = []
@@ -66,15 +73,25 @@ def partners_in_range(freq_per_day: float, peaks_f: np.ndarray, peaks_h: np.ndar
                     continue
                 p = 24.0 / fp
                 if low <= p <= max_period_h:
-                    out.append({"period_h": float(p), "freq_offset_per_day": float(sign * fw / h),
-                                "height": float(hw), "harmonic": h})
+                    out.append(
+                        {
+                            "period_h": float(p),
+                            "freq_offset_per_day": float(sign * fw / h),
+                            "height": float(hw),
+                            "harmonic": h,
+                        }
+                    )
     out.sort(key=lambda d: -d["height"])
     return out
 
 
-def alias_failures(true_freq_per_day: np.ndarray, found_freq_per_day: np.ndarray,
-                   peak_freq_per_day: np.ndarray, tolerance_freq_per_day: float,
-                   double_peaked: bool = True) -> np.ndarray:
+def alias_failures(
+    true_freq_per_day: np.ndarray,
+    found_freq_per_day: np.ndarray,
+    peak_freq_per_day: np.ndarray,
+    tolerance_freq_per_day: float,
+    double_peaked: bool = True,
+) -> np.ndarray:
     """True where a wrong winner lies on an alias of the injected signal.
 
     The light curve carries power at g = f (and 2f); a trial frequency φ fits harmonics φ and 2φ.
@@ -95,14 +112,17 @@ def alias_failures(true_freq_per_day: np.ndarray, found_freq_per_day: np.ndarray
     return hit.reshape(np.shape(found_freq_per_day))
 
 
-def alias_chance(true_freq_per_day: np.ndarray, search_freq_per_day: np.ndarray,
-                 peak_freq_per_day: np.ndarray, tolerance_freq_per_day: float,
-                 double_peaked: bool = True) -> np.ndarray:
+def alias_chance(
+    true_freq_per_day: np.ndarray,
+    search_freq_per_day: np.ndarray,
+    peak_freq_per_day: np.ndarray,
+    tolerance_freq_per_day: float,
+    double_peaked: bool = True,
+) -> np.ndarray:
     """Per injected signal: the probability that a winner drawn uniformly from the search grid
     would pass :func:`alias_failures` by chance (the baseline that noise alone reaches)."""
     out = np.empty(np.size(true_freq_per_day))
     grid = np.asarray(search_freq_per_day, dtype=float)[None, :]
     for i, f in enumerate(np.ravel(true_freq_per_day)):
-        out[i] = alias_failures(np.array([f]), grid, peak_freq_per_day, tolerance_freq_per_day,
-                                double_peaked).mean()
+        out[i] = alias_failures(np.array([f]), grid, peak_freq_per_day, tolerance_freq_per_day, double_peaked).mean()
     return out

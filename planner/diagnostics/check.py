@@ -11,17 +11,16 @@ drift when the target's geometry is known.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
-from dataclasses import dataclass, field
-from typing import Any
+from collections.abc import Callable
 
 import numpy as np
 
-from planner.core.jsonsafe import json_safe
+from planner.core.safety import DEFAULT_MIN_SOLAR_ELONG_DEG, SUN_SAFETY_TEXT, near_sun, sun_caution_limit_deg
 from planner.core.timegrid import iso_utc, to_jd_utc
 from planner.diagnostics.aliases import alias_chance, alias_failures, partners_in_range
 from planner.diagnostics.coverage import period_grid_h, phase_coverage
-from planner.diagnostics.recovery import RecoveryResult, injection_recovery
+from planner.diagnostics.recovery import injection_recovery
+from planner.diagnostics.result import CheckResult, CheckSettings
 from planner.diagnostics.sensitivity import (
     fading_rate_sigma,
     frequency_sigma,
@@ -35,207 +34,54 @@ from planner.diagnostics.specwindow import (
     window_frequency_grid,
     window_peaks,
 )
-
-VERDICTS = ("secure", "alias-prone", "under-covered")
-
-
-@dataclass
-class CheckSettings:
-    """The assumptions behind a check, echoed in the output so a result can be reproduced."""
-
-    min_period_h: float
-    max_period_h: float
-    phase_bins: int = 20
-    oversample: float = 10.0
-    trials: int = 200
-    seed: int = 0
-    amplitude_range_mag: tuple[float, float] = (0.1, 0.5)
-    double_peaked: bool = True
-    nterms: int = 2
-    extra_fading_mag_per_day: float = 0.0
-    coverage_threshold: float = 0.8
-    alias_threshold: float = 0.7
-    recovery_threshold: float = 0.9
-    window_max_freq_per_day: float = 5.0
-    n_sigma: float = 3.0
-
-
-@dataclass
-class CheckResult:
-    """Everything ``phasewise check`` reports; ``to_dict()`` gives the documented JSON."""
-
-    settings: CheckSettings
-    times_utc: np.ndarray
-    times_jd: np.ndarray
-    sites: np.ndarray | None
-    mag_err: np.ndarray
-    periods_h: np.ndarray
-    coverage: np.ndarray
-    largest_phase_gap: np.ndarray
-    worst_periods: list[dict]
-    commensurate: list[dict]
-    window_freq_per_day: np.ndarray
-    window_height: np.ndarray
-    window_peaks: list[dict]
-    highest_alias: dict | None
-    nyquist_freq_per_day: float
-    aliases: list[dict]
-    bands: list[dict]
-    recovery: list[dict]
-    recovery_trials: list[dict]
-    trend: dict
-    period_change: list[dict]
-    synodic: dict | None = None
-    notes: list[str] = field(default_factory=list)
-
-    @property
-    def baseline_h(self) -> float:
-        return float(np.ptp(self.times_jd) * 24.0) if self.times_jd.size else 0.0
-
-    def to_dict(self) -> dict[str, Any]:
-        s = self.settings
-        sites: dict[str, int] = {}
-        if self.sites is not None:
-            names, counts = np.unique(self.sites.astype(str), return_counts=True)
-            sites = {str(n): int(c) for n, c in zip(names, counts, strict=True)}
-        return json_safe({
-            "input": {
-                "n_times": int(self.times_jd.size),
-                "first_utc": iso_utc(self.times_utc[:1], seconds=True)[0] if self.times_jd.size else None,
-                "last_utc": iso_utc(self.times_utc[-1:], seconds=True)[0] if self.times_jd.size else None,
-                "baseline_h": self.baseline_h,
-                "sites": sites,
-                "mag_err_median": float(np.median(self.mag_err)) if self.mag_err.size else None,
-                "times_utc": iso_utc(self.times_utc, seconds=True),
-            },
-            "settings": {
-                "min_period_h": s.min_period_h, "max_period_h": s.max_period_h,
-                "phase_bins": s.phase_bins, "oversample": s.oversample, "trials": s.trials,
-                "seed": s.seed, "amplitude_range_mag": list(s.amplitude_range_mag),
-                "double_peaked": s.double_peaked, "nterms": s.nterms,
-                "extra_fading_mag_per_day": s.extra_fading_mag_per_day,
-                "coverage_threshold": s.coverage_threshold, "alias_threshold": s.alias_threshold,
-                "recovery_threshold": s.recovery_threshold, "n_sigma": s.n_sigma,
-            },
-            "periods_h": self.periods_h,
-            "coverage": self.coverage,
-            "largest_phase_gap": self.largest_phase_gap,
-            "worst_periods": self.worst_periods,
-            "commensurate": self.commensurate,
-            "window": {"freq_per_day": self.window_freq_per_day, "height": self.window_height},
-            "window_peaks": self.window_peaks,
-            "highest_alias": self.highest_alias,
-            "nyquist_freq_per_day": self.nyquist_freq_per_day,
-            "aliases": self.aliases,
-            "bands": self.bands,
-            "recovery": self.recovery,
-            "recovery_trials": self.recovery_trials,
-            "trend": self.trend,
-            "period_change": self.period_change,
-            "synodic": self.synodic,
-            "notes": self.notes,
-        })
+from planner.diagnostics.verdicts import (
+    band_edges_h,
+    band_verdict,
+    geometric_trend_mag,
+    geometry_arrays,
+    repeated_times,
+    worst_covered,
+)
 
 
 def _partners(freq_per_day: float, peaks_f: np.ndarray, peaks_h: np.ndarray, s: CheckSettings) -> list[dict]:
-    return partners_in_range(freq_per_day, peaks_f, peaks_h, min_period_h=s.min_period_h,
-                             max_period_h=s.max_period_h, double_peaked=s.double_peaked)
+    return partners_in_range(
+        freq_per_day,
+        peaks_f,
+        peaks_h,
+        min_period_h=s.min_period_h,
+        max_period_h=s.max_period_h,
+        double_peaked=s.double_peaked,
+    )
 
 
-def _local_minima(values: np.ndarray) -> np.ndarray:
-    """Indices of local minima (plateaus give their first index), ends included."""
-    v = np.concatenate([[np.inf], values, [np.inf]])
-    left = v[1:-1] < v[:-2]
-    right = v[1:-1] <= v[2:]
-    return np.nonzero(left & right)[0]
-
-
-def worst_covered(periods_h: np.ndarray, coverage: np.ndarray, gap: np.ndarray,
-                  count: int = 8) -> list[dict]:
-    """The most poorly covered periods: local minima of coverage, worst first (then by gap)."""
-    idx = _local_minima(coverage - 1e-6 * gap)
-    order = np.lexsort((-gap[idx], coverage[idx]))[:count]
-    return [{"period_h": float(periods_h[i]), "coverage": float(coverage[i]),
-             "largest_phase_gap": float(gap[i])} for i in idx[order]]
-
-
-def _geometry_arrays(geometry) -> dict[str, np.ndarray]:
-    """Accept the ``planner.sky.geometry.geometry`` dict (key "geocentre"), a DataFrame or a mapping."""
-    if isinstance(geometry, Mapping) and "geocentre" in geometry:
-        geometry = geometry["geocentre"]
-    cols = {}
-    for name in ("helio_dist_au", "obs_dist_au", "phase_angle_deg", "pab_lon_deg", "pab_lat_deg",
-                 "mag_pred", "solar_elong_deg"):
-        try:
-            cols[name] = np.asarray(geometry[name], dtype=float)
-        except (KeyError, IndexError, TypeError):
-            continue
-    return cols
-
-
-def geometric_trend_mag(geometry: Mapping[str, np.ndarray], k1: float = 10.0) -> np.ndarray | None:
-    """The geometric magnitude at each time, mean removed: ``mag_pred`` when present, else
-    5 log Δ + K1 log r (total comet magnitude law; K1 = 10, i.e. fading as r⁻⁴, is common
-    practice). ``None`` when neither is available."""
-    if "mag_pred" in geometry and np.all(np.isfinite(geometry["mag_pred"])):
-        m = np.asarray(geometry["mag_pred"], dtype=float)
-    elif "helio_dist_au" in geometry and "obs_dist_au" in geometry:
-        m = 5 * np.log10(geometry["obs_dist_au"]) + k1 * np.log10(geometry["helio_dist_au"])
-    else:
-        return None
-    return m - m.mean()
-
-
-def _bands(settings: CheckSettings, recovery: RecoveryResult | None, n_bands: int) -> np.ndarray:
-    """Log-spaced period bands; the injection–recovery bins are the same bands."""
-    if recovery is not None:
-        edges = [b.min_period_h for b in recovery.bins] + [recovery.bins[-1].max_period_h]
-        return np.array(edges)
-    return np.geomspace(settings.min_period_h, settings.max_period_h, n_bands + 1)
-
-
-def _verdict(cov_band: np.ndarray, rec: dict | None, alias_max: float, s: CheckSettings) -> str:
-    """under-covered if more than a quarter of the band's periods fall below the coverage
-    threshold; if recovery misses its threshold, alias-prone when aliases explain at least half
-    of the failures beyond what chance gives (κ = (observed − expected)/(failures − expected)
-    ≥ 0.5), under-covered when noise or missing phases do; alias-prone if an alias partner
-    reaches the alias threshold; otherwise secure."""
-    poor = float(np.mean(cov_band < s.coverage_threshold)) if cov_band.size else 1.0
-    if poor > 0.25:
-        return "under-covered"
-    if rec is not None and rec["n_trials"] and rec["fraction"] < s.recovery_threshold:
-        failures = rec["failures_alias"] + rec["failures_other"]
-        expected = rec["failures_alias_expected"]
-        excess = (rec["failures_alias"] - expected) / (failures - expected) if failures > expected else 0.0
-        return "alias-prone" if excess >= 0.5 else "under-covered"
-    if alias_max >= s.alias_threshold:
-        return "alias-prone"
-    return "secure"
-
-
-def repeated_times(times_utc: np.ndarray, sites: np.ndarray | None = None) -> int:
-    """How many rows repeat an earlier row's time (to the second) at the same site: likely copies.
-
-    The same instant at two different sites is a normal simultaneous observation and is not counted.
-    """
-    sec = np.asarray(times_utc, dtype="datetime64[s]").astype(np.int64)
-    labels = np.full(sec.size, "") if sites is None else np.asarray(sites).astype(str)
-    order = np.lexsort((sec, labels))
-    same = (sec[order][1:] == sec[order][:-1]) & (labels[order][1:] == labels[order][:-1])
-    return int(same.sum())
-
-
-def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: float,
-                mag_err: np.ndarray | float = 0.02, sites: np.ndarray | None = None,
-                exposure_s: np.ndarray | None = None,
-                target=None, geometry=None, trials: int = 200, seed: int = 0,
-                amplitude_range_mag: tuple[float, float] = (0.1, 0.5), double_peaked: bool = True,
-                phase_bins: int = 20, oversample: float = 10.0, nterms: int = 2,
-                extra_fading_mag_per_day: float = 0.0, k1: float = 10.0,
-                coverage_threshold: float = 0.8, alias_threshold: float = 0.7,
-                recovery_threshold: float = 0.9, window_max_freq_per_day: float = 5.0,
-                n_candidates: int = 16, n_bands: int = 10, sun_caution_deg: float = 30.0,
-                progress: Callable[[float], None] | None = None) -> CheckResult:
+def check_times(
+    times_utc: np.ndarray,
+    *,
+    min_period_h: float,
+    max_period_h: float,
+    mag_err: np.ndarray | float = 0.02,
+    sites: np.ndarray | None = None,
+    exposure_s: np.ndarray | None = None,
+    target=None,
+    geometry=None,
+    trials: int = 200,
+    seed: int = 0,
+    amplitude_range_mag: tuple[float, float] = (0.1, 0.5),
+    double_peaked: bool = True,
+    phase_bins: int = 20,
+    oversample: float = 10.0,
+    nterms: int = 2,
+    extra_fading_mag_per_day: float = 0.0,
+    k1: float = 10.0,
+    coverage_threshold: float = 0.8,
+    alias_threshold: float = 0.7,
+    recovery_threshold: float = 0.9,
+    window_max_freq_per_day: float = 5.0,
+    n_candidates: int = 16,
+    n_bands: int = 10,
+    progress: Callable[[float], None] | None = None,
+) -> CheckResult:
     """Coverage, alias, recovery and sensitivity diagnostics for a list of observation times.
 
     ``times_utc``: datetime64 array (any order), mid-exposure. ``mag_err``: photometric σ per
@@ -244,7 +90,8 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
     over more than one phase bin at the shortest period. ``geometry``: the output of
     ``planner.sky.geometry.geometry`` (or a DataFrame / mapping with its columns) at the same
     times; with ``target`` instead, it is computed here. ``trials`` = 0 skips injection–recovery.
-    With geometry, times at solar elongation below ``sun_caution_deg`` raise a caution note.
+    With geometry, times within the Sun caution margin of the default Sun limit (planner.core.safety) raise a
+    caution note.
     The period range is cut into ``n_bands`` log-spaced bands, each with a verdict; injected
     periods are shared out evenly over the same bands.
     """
@@ -254,17 +101,28 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
     times = np.asarray(times_utc, dtype="datetime64[ns]")[order]
     t = to_jd_utc(times)
     n = t.size
-    err = np.broadcast_to(np.asarray(mag_err, dtype=float), (n,))[order] if np.ndim(mag_err) else \
-        np.full(n, float(mag_err))
+    err = (
+        np.broadcast_to(np.asarray(mag_err, dtype=float), (n,))[order]
+        if np.ndim(mag_err)
+        else np.full(n, float(mag_err))
+    )
     site_arr = None if sites is None else np.asarray(sites)[order]
-    s = CheckSettings(min_period_h=float(min_period_h), max_period_h=float(max_period_h),
-                      phase_bins=phase_bins, oversample=oversample, trials=trials, seed=seed,
-                      amplitude_range_mag=tuple(amplitude_range_mag), double_peaked=double_peaked,
-                      nterms=max(nterms, 2 if double_peaked else 1),
-                      extra_fading_mag_per_day=extra_fading_mag_per_day,
-                      coverage_threshold=coverage_threshold, alias_threshold=alias_threshold,
-                      recovery_threshold=recovery_threshold,
-                      window_max_freq_per_day=window_max_freq_per_day)
+    s = CheckSettings(
+        min_period_h=float(min_period_h),
+        max_period_h=float(max_period_h),
+        phase_bins=phase_bins,
+        oversample=oversample,
+        trials=trials,
+        seed=seed,
+        amplitude_range_mag=tuple(amplitude_range_mag),
+        double_peaked=double_peaked,
+        nterms=max(nterms, 2 if double_peaked else 1),
+        extra_fading_mag_per_day=extra_fading_mag_per_day,
+        coverage_threshold=coverage_threshold,
+        alias_threshold=alias_threshold,
+        recovery_threshold=recovery_threshold,
+        window_max_freq_per_day=window_max_freq_per_day,
+    )
     notes: list[str] = []
     if geometry is None and target is not None:
         from planner.sky.geometry import geometry as compute_geometry
@@ -272,58 +130,82 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
         geometry = compute_geometry(target, times)
     geo = {}
     if geometry is not None:
-        geo = {k: np.asarray(v)[order] if np.size(v) == n else np.asarray(v)
-               for k, v in _geometry_arrays(geometry).items()}
+        geo = {
+            k: np.asarray(v)[order] if np.size(v) == n else np.asarray(v) for k, v in geometry_arrays(geometry).items()
+        }
     trend_mag = geometric_trend_mag(geo, k1) if geo else None
 
-    baseline_h = float(np.ptp(t) * 24.0) if n else 0.0
-    periods = period_grid_h(s.min_period_h, s.max_period_h, baseline_h, oversample)
+    span_h = float(np.ptp(t) * 24.0) if n else 0.0
+    periods = period_grid_h(s.min_period_h, s.max_period_h, span_h, oversample)
     cov, gap = phase_coverage(t, periods, phase_bins)
     worst = worst_covered(periods, cov, gap)
-    comm_p = np.array([24.0 / k for k in range(1, 100) if s.min_period_h <= 24.0 / k <= s.max_period_h]
-                      + [48.0] * (s.min_period_h <= 48.0 <= s.max_period_h))
+    comm_p = np.array(
+        [24.0 / k for k in range(1, 100) if s.min_period_h <= 24.0 / k <= s.max_period_h]
+        + [48.0] * (s.min_period_h <= 48.0 <= s.max_period_h)
+    )
     comm_c, comm_g = phase_coverage(t, comm_p, phase_bins)
-    commensurate = [{"period_h": float(p), "coverage": float(c), "largest_phase_gap": float(g)}
-                    for p, c, g in zip(comm_p, comm_c, comm_g, strict=True)]
+    commensurate = [
+        {"period_h": float(p), "coverage": float(c), "largest_phase_gap": float(g)}
+        for p, c, g in zip(comm_p, comm_c, comm_g, strict=True)
+    ]
 
-    weights = 1.0 / err ** 2 if n else None
+    weights = 1.0 / err**2 if n else None
     wf = window_frequency_grid(t, window_max_freq_per_day, oversample) if n else np.zeros(0)
     wh = spectral_window(t, wf, weights) if n else np.zeros(0)
-    pk_f, pk_h = window_peaks(t, window_max_freq_per_day, weights=weights) if n > 1 else \
-        (np.zeros(0), np.zeros(0))
-    peaks = [{"freq_per_day": float(f), "period_h": 24.0 / float(f), "height": float(h)}
-             for f, h in zip(pk_f, pk_h, strict=True)]
+    pk_f, pk_h = window_peaks(t, window_max_freq_per_day, weights=weights) if n > 1 else (np.zeros(0), np.zeros(0))
+    peaks = [
+        {"freq_per_day": float(f), "period_h": 24.0 / float(f), "height": float(h)}
+        for f, h in zip(pk_f, pk_h, strict=True)
+    ]
     nyq = nyquist_freq_per_day(t)
     # Below 2/T a peak is a sidelobe of the central lobe (for an unbroken span of length T the first
     # lies near 1.43/T at height 0.22, the sinc sidelobe): every campaign of that span has it and no
     # schedule removes it. The alias that sampling decides is the strongest peak beyond it.
-    span_days = baseline_h / 24.0
+    span_days = span_h / 24.0
     alias_floor = 2.0 / span_days if span_days > 0 else np.inf
     beyond = [p for p in peaks if p["freq_per_day"] >= alias_floor]
-    highest_alias = (dict(max(beyond, key=lambda p: p["height"]), min_freq_per_day=alias_floor)
-                     if beyond else None)
+    highest_alias = dict(max(beyond, key=lambda p: p["height"]), min_freq_per_day=alias_floor) if beyond else None
 
     # candidate periods: log-spaced across the range plus the 24/n-hour family, for aliases
     # and sensitivities
     spread = np.geomspace(s.min_period_h, s.max_period_h, n_candidates)
-    near_daily = np.any(np.abs(np.log(spread[:, None] / comm_p[None, :])) < 0.02, axis=1) \
-        if comm_p.size else np.zeros(spread.size, bool)
+    near_daily = (
+        np.any(np.abs(np.log(spread[:, None] / comm_p[None, :])) < 0.02, axis=1)
+        if comm_p.size
+        else np.zeros(spread.size, bool)
+    )
     cand = np.unique(np.concatenate([spread[~near_daily], comm_p]))
     aliases = []
     for p in cand:
         partners = _partners(24.0 / p, pk_f, pk_h, s)
-        aliases.append({"period_h": float(p), "partners": partners,
-                        "max_height": max((d["height"] for d in partners), default=0.0),
-                        "flagged": any(d["height"] >= alias_threshold for d in partners)})
+        aliases.append(
+            {
+                "period_h": float(p),
+                "partners": partners,
+                "max_height": max((d["height"] for d in partners), default=0.0),
+                "flagged": any(d["height"] >= alias_threshold for d in partners),
+            }
+        )
 
     recovery = None
     if trials > 0:
         if n >= 2 * s.nterms + 3:
             recovery = injection_recovery(
-                t, min_period_h=s.min_period_h, max_period_h=s.max_period_h, trials=trials, seed=seed,
-                amplitude_range_mag=s.amplitude_range_mag, sigma_mag=err, double_peaked=double_peaked,
-                nterms=s.nterms, trend_mag=trend_mag, fading_mag_per_day=extra_fading_mag_per_day,
-                oversample=oversample, n_bins=n_bands, progress=progress)
+                t,
+                min_period_h=s.min_period_h,
+                max_period_h=s.max_period_h,
+                trials=trials,
+                seed=seed,
+                amplitude_range_mag=s.amplitude_range_mag,
+                sigma_mag=err,
+                double_peaked=double_peaked,
+                nterms=s.nterms,
+                trend_mag=trend_mag,
+                fading_mag_per_day=extra_fading_mag_per_day,
+                oversample=oversample,
+                n_bands=n_bands,
+                progress=progress,
+            )
         else:
             notes.append(f"injection–recovery skipped: {n} times are too few for the model")
     rec_list = []
@@ -331,25 +213,44 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
     if recovery is not None:
         wrong = recovery.match == "wrong"
         strong_pk = pk_f[pk_h >= 0.25]
-        explained = wrong & alias_failures(24.0 / recovery.true_period_h, 24.0 / recovery.found_period_h,
-                                           strong_pk, recovery.tolerance_freq_per_day, double_peaked)
+        explained = wrong & alias_failures(
+            24.0 / recovery.true_period_h,
+            24.0 / recovery.found_period_h,
+            strong_pk,
+            recovery.tolerance_freq_per_day,
+            double_peaked,
+        )
         chance = np.zeros(wrong.size)
-        chance[wrong] = alias_chance(24.0 / recovery.true_period_h[wrong], recovery.search_freq_per_day,
-                                     strong_pk, recovery.tolerance_freq_per_day, double_peaked)
+        chance[wrong] = alias_chance(
+            24.0 / recovery.true_period_h[wrong],
+            recovery.search_freq_per_day,
+            strong_pk,
+            recovery.tolerance_freq_per_day,
+            double_peaked,
+        )
         for i, b in enumerate(recovery.bins):
             inside = recovery.bin_index == i
-            rec_list.append({"period_h": b.period_h, "min_period_h": b.min_period_h,
-                             "max_period_h": b.max_period_h, "n_trials": b.n_trials,
-                             "fraction": b.fraction, "fraction_at_period": b.fraction_at_period,
-                             "fraction_at_half_period": b.fraction_at_half_period,
-                             "failures_alias": int(np.sum(inside & explained)),
-                             "failures_other": int(np.sum(inside & wrong & ~explained)),
-                             "failures_alias_expected": float(np.sum(chance[inside])),
-                             "confusions": b.confusions})
-        rec_trials = [{"true_period_h": float(a), "found_period_h": float(b), "amplitude_mag": float(c),
-                       "match": str(m)} for a, b, c, m in zip(
-                           recovery.true_period_h, recovery.found_period_h, recovery.amplitude_mag,
-                           recovery.match, strict=True)]
+            rec_list.append(
+                {
+                    "period_h": b.period_h,
+                    "min_period_h": b.min_period_h,
+                    "max_period_h": b.max_period_h,
+                    "n_trials": b.n_trials,
+                    "fraction": b.fraction,
+                    "fraction_at_period": b.fraction_at_period,
+                    "fraction_at_half_period": b.fraction_at_half_period,
+                    "failures_alias": int(np.sum(inside & explained)),
+                    "failures_other": int(np.sum(inside & wrong & ~explained)),
+                    "failures_alias_expected": float(np.sum(chance[inside])),
+                    "confusions": b.confusions,
+                }
+            )
+        rec_trials = [
+            {"true_period_h": float(a), "found_period_h": float(b), "amplitude_mag": float(c), "match": str(m)}
+            for a, b, c, m in zip(
+                recovery.true_period_h, recovery.found_period_h, recovery.amplitude_mag, recovery.match, strict=True
+            )
+        ]
 
     # sensitivities
     harmonic = 2 if double_peaked else 1
@@ -360,22 +261,24 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
     gi = int(np.argmax(gaps_h)) if gaps_h.size else -1
     trend = {
         "rate_sigma_mag_per_day": float(finite.max()) if finite.size else math.inf,
-        "rate_sigma_median_mag_per_day": float(np.median(finite)) if finite.size else math.inf,
+        "median_rate_sigma_mag_per_day": float(np.median(finite)) if finite.size else math.inf,
         "min_detectable_mag_per_day": s.n_sigma * float(finite.max()) if finite.size else math.inf,
         "worst_period_h": float(periods[np.nanargmax(np.where(np.isfinite(rate_sig), rate_sig, -1))])
-        if finite.size else None,
+        if finite.size
+        else None,
         "longest_gap_h": float(gaps_h.max()) if gaps_h.size else None,
-        "longest_gap_start_utc": iso_utc(times[gi:gi + 1])[0] if gi >= 0 else None,
-        "longest_gap_end_utc": iso_utc(times[gi + 1:gi + 2])[0] if gi >= 0 else None,
+        "longest_gap_start_utc": iso_utc(times[gi : gi + 1])[0] if gi >= 0 else None,
+        "longest_gap_end_utc": iso_utc(times[gi + 1 : gi + 2])[0] if gi >= 0 else None,
         "geometric_trend_used": trend_mag is not None,
         "geometric_trend_range_mag": float(np.ptp(trend_mag)) if trend_mag is not None else None,
     }
     f_sig = frequency_sigma(t, cand, err, amp_low, harmonic, s.nterms)
-    period_sigma_h = cand ** 2 * f_sig / 24.0
+    period_sigma_h = cand**2 * f_sig / 24.0
     change = period_change_sensitivity_h(t, cand, err, amp_low, harmonic, s.nterms, s.n_sigma)
-    period_change = [{"period_h": float(p), "min_detectable_change_h": float(c),
-                      "period_sigma_h": float(ps)}
-                     for p, c, ps in zip(cand, change, period_sigma_h, strict=True)]
+    period_change = [
+        {"period_h": float(p), "min_detectable_change_h": float(c), "period_sigma_h": float(ps)}
+        for p, c, ps in zip(cand, change, period_sigma_h, strict=True)
+    ]
 
     synodic = None
     if "pab_lon_deg" in geo and "pab_lat_deg" in geo and n >= 2:
@@ -383,12 +286,18 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
         offs = synodic_offset_h(cand, motion["pab_lon_rate_deg_per_day"])
         synodic = dict(motion)
         synodic["phase_drift_cycles"] = abs(motion["pab_lon_change_deg"]) / 360.0
-        synodic["periods"] = [{"period_h": float(p), "synodic_offset_h": float(o),
-                               "period_sigma_h": float(ps), "exceeds_precision": bool(o > ps)}
-                              for p, o, ps in zip(cand, offs, period_sigma_h, strict=True)]
+        synodic["periods"] = [
+            {
+                "period_h": float(p),
+                "synodic_offset_h": float(o),
+                "period_sigma_h": float(ps),
+                "exceeds_precision": bool(o > ps),
+            }
+            for p, o, ps in zip(cand, offs, period_sigma_h, strict=True)
+        ]
 
     # verdict per band
-    edges = _bands(s, recovery, n_bands)
+    edges = band_edges_h(s, recovery, n_bands)
     bands = []
     for i in range(edges.size - 1):
         lo, hi = float(edges[i]), float(edges[i + 1])
@@ -399,46 +308,74 @@ def check_times(times_utc: np.ndarray, *, min_period_h: float, max_period_h: flo
         partners = _partners(24.0 / centre, pk_f, pk_h, s)
         strong = [d for d in partners if d["height"] >= alias_threshold]
         alias_max = max((d["height"] for d in partners), default=0.0)
-        verdict = _verdict(cb, rec, alias_max, s)
-        confusable = sorted({round(d["period_h"], 2) for d in strong}
-                            | {round(c["period_h"], 2) for c in (rec or {}).get("confusions", [])
-                               if c["fraction"] >= 0.05})
-        bands.append({
-            "min_period_h": lo, "max_period_h": hi, "verdict": verdict,
-            "confusable_periods_h": confusable if verdict != "secure" else [],
-            "coverage_min": float(cb.min()) if cb.size else None,
-            "coverage_median": float(np.median(cb)) if cb.size else None,
-            "fraction_below_coverage_threshold": float(np.mean(cb < coverage_threshold))
-            if cb.size else None,
-            "largest_phase_gap_max": float(gb.max()) if gb.size else None,
-            "alias_height_max": alias_max,
-            "recovery_fraction": rec["fraction"] if rec else None,
-            "failures_alias": rec["failures_alias"] if rec else 0,
-            "failures_other": rec["failures_other"] if rec else 0,
-            "failures_alias_expected": rec["failures_alias_expected"] if rec else 0.0,
-            "n_trials": rec["n_trials"] if rec else 0,
-        })
+        verdict = band_verdict(cb, rec, alias_max, s)
+        confusable = sorted(
+            {round(d["period_h"], 2) for d in strong}
+            | {round(c["period_h"], 2) for c in (rec or {}).get("confusions", []) if c["fraction"] >= 0.05}
+        )
+        bands.append(
+            {
+                "min_period_h": lo,
+                "max_period_h": hi,
+                "verdict": verdict,
+                "confusable_periods_h": confusable if verdict != "secure" else [],
+                "min_coverage": float(cb.min()) if cb.size else None,
+                "median_coverage": float(np.median(cb)) if cb.size else None,
+                "fraction_below_coverage_threshold": float(np.mean(cb < coverage_threshold)) if cb.size else None,
+                "max_phase_gap": float(gb.max()) if gb.size else None,
+                "max_alias_height": alias_max,
+                "recovery_fraction": rec["fraction"] if rec else None,
+                "failures_alias": rec["failures_alias"] if rec else 0,
+                "failures_other": rec["failures_other"] if rec else 0,
+                "failures_alias_expected": rec["failures_alias_expected"] if rec else 0.0,
+                "n_trials": rec["n_trials"] if rec else 0,
+            }
+        )
     if "solar_elong_deg" in geo and n:
-        near_sun = geo["solar_elong_deg"] < sun_caution_deg
-        if np.any(near_sun):
-            notes.append(f"caution: {int(near_sun.sum())} of {n} times are at solar elongation below "
-                         f"{sun_caution_deg:g}° (least {float(geo['solar_elong_deg'].min()):.1f}°). Pointing near "
-                         "the Sun can destroy equipment and blind people; the observatory's own rules prevail")
+        close = near_sun(geo["solar_elong_deg"], DEFAULT_MIN_SOLAR_ELONG_DEG)
+        if np.any(close):
+            limit = float(sun_caution_limit_deg(DEFAULT_MIN_SOLAR_ELONG_DEG))
+            notes.append(
+                f"caution: {int(close.sum())} of {n} times are at solar elongation below {limit:g}° (least "
+                f"{float(geo['solar_elong_deg'].min()):.1f}°). {SUN_SAFETY_TEXT}"
+            )
     if exposure_s is not None and np.size(exposure_s) and np.any(np.isfinite(exposure_s)):
         longest_s = float(np.nanmax(np.asarray(exposure_s, dtype=float)))
         if longest_s / 3600.0 > min_period_h / phase_bins:
-            notes.append(f"exposures up to {longest_s:.0f} s smear the light curve over more than one phase "
-                         f"bin at {min_period_h:g} h")
-    if n and baseline_h < max_period_h:
-        notes.append(f"the span ({baseline_h:.1f} h) is shorter than the longest period searched")
+            notes.append(
+                f"exposures up to {longest_s:.0f} s smear the light curve over more than one phase "
+                f"bin at {min_period_h:g} h"
+            )
+    if n and span_h < max_period_h:
+        notes.append(f"the span ({span_h:.1f} h) is shorter than the longest period searched")
     n_repeated = repeated_times(times, site_arr)
     if n_repeated:
-        notes.append(f"{n_repeated} time(s) repeat an earlier row at the same site and instant: each counts as a "
-                     "separate point (more weight in the window and the trend); remove them if they are copies")
-    return CheckResult(settings=s, times_utc=times, times_jd=t, sites=site_arr, mag_err=err,
-                       periods_h=periods, coverage=cov, largest_phase_gap=gap, worst_periods=worst,
-                       commensurate=commensurate, window_freq_per_day=wf, window_height=wh,
-                       window_peaks=peaks, highest_alias=highest_alias,
-                       nyquist_freq_per_day=nyq, aliases=aliases, bands=bands,
-                       recovery=rec_list, recovery_trials=rec_trials, trend=trend,
-                       period_change=period_change, synodic=synodic, notes=notes)
+        notes.append(
+            f"{n_repeated} time(s) repeat an earlier row at the same site and instant: each counts as a "
+            "separate point (more weight in the window and the trend); remove them if they are copies"
+        )
+    return CheckResult(
+        settings=s,
+        times_utc=times,
+        times_jd=t,
+        sites=site_arr,
+        mag_err=err,
+        periods_h=periods,
+        coverage=cov,
+        largest_phase_gap=gap,
+        worst_periods=worst,
+        commensurate=commensurate,
+        window_freq_per_day=wf,
+        window_height=wh,
+        window_peaks=peaks,
+        highest_alias=highest_alias,
+        nyquist_freq_per_day=nyq,
+        aliases=aliases,
+        bands=bands,
+        recovery=rec_list,
+        recovery_trials=rec_trials,
+        trend=trend,
+        period_change=period_change,
+        synodic=synodic,
+        notes=notes,
+    )

@@ -18,8 +18,7 @@ import numpy as np
 _CHUNK_ELEMENTS = 4_000_000
 
 
-def period_grid_h(min_period_h: float, max_period_h: float, baseline_h: float,
-                  oversample: float = 10.0) -> np.ndarray:
+def period_grid_h(min_period_h: float, max_period_h: float, span_h: float, oversample: float = 10.0) -> np.ndarray:
     """Trial periods (hours, ascending) uniform in frequency between ``1/max`` and ``1/min``.
 
     The frequency step is at most ``1 / (oversample · T)`` with ``T`` the baseline, so a peak of
@@ -34,9 +33,9 @@ def period_grid_h(min_period_h: float, max_period_h: float, baseline_h: float,
         raise ValueError("max_period_h is below min_period_h")
     if oversample <= 0:
         raise ValueError("oversample must be positive")
-    baseline_h = max(float(baseline_h), float(max_period_h))
+    span_h = max(float(span_h), float(max_period_h))
     f_low, f_high = 1.0 / max_period_h, 1.0 / min_period_h
-    step_max = 1.0 / (oversample * baseline_h)
+    step_max = 1.0 / (oversample * span_h)
     n = max(2, int(math.ceil((f_high - f_low) / step_max - 1e-9)) + 1)
     if f_high == f_low:
         return np.array([float(min_period_h)])
@@ -73,8 +72,7 @@ def _chunks(n_periods: int, n_times: int):
         yield slice(start, min(start + step, n_periods))
 
 
-def phase_coverage(times_jd: np.ndarray, periods_h: np.ndarray,
-                   n_bins: int = 20) -> tuple[np.ndarray, np.ndarray]:
+def phase_coverage(times_jd: np.ndarray, periods_h: np.ndarray, n_bins: int = 20) -> tuple[np.ndarray, np.ndarray]:
     """Fraction of phase bins holding at least one time, and the largest phase gap, per period.
 
     Returns ``(fraction_covered, largest_gap)``, each shaped like ``periods_h``; the gap is the
@@ -101,8 +99,7 @@ def phase_coverage(times_jd: np.ndarray, periods_h: np.ndarray,
     return frac, gap
 
 
-def phase_coverage_slow(times_jd: np.ndarray, periods_h: np.ndarray,
-                        n_bins: int = 20) -> tuple[np.ndarray, np.ndarray]:
+def phase_coverage_slow(times_jd: np.ndarray, periods_h: np.ndarray, n_bins: int = 20) -> tuple[np.ndarray, np.ndarray]:
     """Slow twin of :func:`phase_coverage`: one period and one time at a time, plain Python."""
     t = [float(x) for x in np.asarray(times_jd, dtype=float).ravel()]
     t0 = min(t) if t else 0.0

@@ -46,8 +46,7 @@ def _prepare(times_jd, y, sigma, trend_degree, trend_columns):
     return t - t_mid, yy, single, s, basis
 
 
-def trend_basis(times_jd: np.ndarray, trend_degree: int = 0,
-                trend_columns: np.ndarray | None = None) -> np.ndarray:
+def trend_basis(times_jd: np.ndarray, trend_degree: int = 0, trend_columns: np.ndarray | None = None) -> np.ndarray:
     """Columns of the secular-trend model: 1, τ, τ², … (τ = time scaled to [−1, 1]) and extras.
 
     ``trend_degree`` −1 means no polynomial at all (not even a constant). ``trend_columns``
@@ -58,7 +57,7 @@ def trend_basis(times_jd: np.ndarray, trend_degree: int = 0,
     if trend_degree >= 0:
         half = 0.5 * (t.max() - t.min()) if t.size else 0.0
         tau = (t - 0.5 * (t.max() + t.min())) / half if half > 0 else np.zeros_like(t)
-        cols.extend(tau ** d for d in range(trend_degree + 1))
+        cols.extend(tau**d for d in range(trend_degree + 1))
     if trend_columns is not None:
         extra = np.asarray(trend_columns, dtype=float).reshape(t.size, -1)
         cols.extend(extra.T)
@@ -86,10 +85,17 @@ def harmonic_design(t_days: np.ndarray, freq_per_day: np.ndarray, nterms: int) -
     return out
 
 
-def multiharmonic_power(times_jd: np.ndarray, y: np.ndarray, freq_per_day: np.ndarray, *,
-                        nterms: int = 2, sigma: np.ndarray | float | None = None,
-                        trend_degree: int = 0, trend_columns: np.ndarray | None = None,
-                        progress=None) -> np.ndarray:
+def multiharmonic_power(
+    times_jd: np.ndarray,
+    y: np.ndarray,
+    freq_per_day: np.ndarray,
+    *,
+    nterms: int = 2,
+    sigma: np.ndarray | float | None = None,
+    trend_degree: int = 0,
+    trend_columns: np.ndarray | None = None,
+    progress=None,
+) -> np.ndarray:
     """Batched multi-harmonic periodogram (Schwarzenberg-Czerny 1996) with a fitted trend.
 
     ``y`` is (N,) for one light curve or (N, M) for M trials on the same times; the result is
@@ -112,7 +118,7 @@ def multiharmonic_power(times_jd: np.ndarray, y: np.ndarray, freq_per_day: np.nd
     k2 = 2 * nterms
     block = max(1, _BLOCK_ELEMENTS // (n * k2))
     for start in range(0, f.size, block):
-        fb = f[start:start + block]
+        fb = f[start : start + block]
         h = harmonic_design(t, fb, nterms) * s[None, :, None]
         h -= np.einsum("nq,fqj->fnj", q_b, np.einsum("nq,fnj->fqj", q_b, h))
         q_h, r_h = np.linalg.qr(h)
@@ -122,16 +128,23 @@ def multiharmonic_power(times_jd: np.ndarray, y: np.ndarray, freq_per_day: np.nd
         keep = diag > 1e-9 * np.maximum(colnorm, diag.max(axis=1, keepdims=True))
         z = (np.swapaxes(q_h, 1, 2).reshape(-1, n) @ y_r).reshape(fb.size, k2, m)
         z *= keep[:, :, None]
-        power[start:start + block] = np.einsum("fjm,fjm->fm", z, z) * scale
+        power[start : start + block] = np.einsum("fjm,fjm->fm", z, z) * scale
         if progress is not None:
             progress(min(1.0, (start + fb.size) / f.size))
     return power[:, 0] if single else power
 
 
-def multiharmonic_power_slow(times_jd: np.ndarray, y: np.ndarray, freq_per_day: np.ndarray, *,
-                             nterms: int = 2, sigma: np.ndarray | float | None = None,
-                             trend_degree: int = 0, trend_columns: np.ndarray | None = None,
-                             progress=None) -> np.ndarray:
+def multiharmonic_power_slow(
+    times_jd: np.ndarray,
+    y: np.ndarray,
+    freq_per_day: np.ndarray,
+    *,
+    nterms: int = 2,
+    sigma: np.ndarray | float | None = None,
+    trend_degree: int = 0,
+    trend_columns: np.ndarray | None = None,
+    progress=None,
+) -> np.ndarray:
     """Slow twin of :func:`multiharmonic_power`: one trial, one frequency, one lstsq at a time."""
     t, yy, single, s, basis = _prepare(times_jd, y, sigma, trend_degree, trend_columns)
     f = np.atleast_1d(np.asarray(freq_per_day, dtype=float))
@@ -140,8 +153,9 @@ def multiharmonic_power_slow(times_jd: np.ndarray, y: np.ndarray, freq_per_day: 
     for j in range(m):
         yw = s * yy[:, j]
         if basis.shape[1]:
-            chi_trend = np.sum((yw - (s[:, None] * basis) @ np.linalg.lstsq(
-                s[:, None] * basis, yw, rcond=None)[0]) ** 2)
+            chi_trend = np.sum(
+                (yw - (s[:, None] * basis) @ np.linalg.lstsq(s[:, None] * basis, yw, rcond=None)[0]) ** 2
+            )
         else:
             chi_trend = float(yw @ yw)
         for i, fi in enumerate(f):
@@ -158,14 +172,28 @@ def multiharmonic_power_slow(times_jd: np.ndarray, y: np.ndarray, freq_per_day: 
     return power[:, 0] if single else power
 
 
-def best_frequencies(times_jd: np.ndarray, y: np.ndarray, freq_per_day: np.ndarray, *,
-                     nterms: int = 2, sigma: np.ndarray | float | None = None,
-                     trend_degree: int = 0, trend_columns: np.ndarray | None = None,
-                     progress=None) -> tuple[np.ndarray, np.ndarray]:
+def best_frequencies(
+    times_jd: np.ndarray,
+    y: np.ndarray,
+    freq_per_day: np.ndarray,
+    *,
+    nterms: int = 2,
+    sigma: np.ndarray | float | None = None,
+    trend_degree: int = 0,
+    trend_columns: np.ndarray | None = None,
+    progress=None,
+) -> tuple[np.ndarray, np.ndarray]:
     """Frequency of the highest peak and its power, per trial: ``(best_freq, best_power)``."""
-    p = multiharmonic_power(times_jd, y, freq_per_day, nterms=nterms, sigma=sigma,
-                            trend_degree=trend_degree, trend_columns=trend_columns,
-                            progress=progress)
+    p = multiharmonic_power(
+        times_jd,
+        y,
+        freq_per_day,
+        nterms=nterms,
+        sigma=sigma,
+        trend_degree=trend_degree,
+        trend_columns=trend_columns,
+        progress=progress,
+    )
     p = p.reshape(p.shape[0], -1)
     i = p.argmax(axis=0)
     f = np.atleast_1d(np.asarray(freq_per_day, dtype=float))

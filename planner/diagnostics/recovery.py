@@ -29,34 +29,43 @@ SHAPE_DOUBLE = ((0.0, 0.3), (1.0, 1.0), (0.0, 0.3))
 SHAPE_SINGLE = ((1.0, 1.0), (0.0, 0.4), (0.0, 0.2))
 
 
-def search_frequencies_per_day(min_period_h: float, max_period_h: float, baseline_h: float,
-                               double_peaked: bool = True, oversample: float = 10.0) -> np.ndarray:
+def search_frequencies_per_day(
+    min_period_h: float, max_period_h: float, span_h: float, double_peaked: bool = True, oversample: float = 10.0
+) -> np.ndarray:
     """Rotation frequencies searched (c/d, ascending): 1/P_max … 1/P_min, or … 2/P_min when the
     light curve is double-peaked (so the photometric period P/2 is inside the search)."""
     low = min_period_h / 2.0 if double_peaked else min_period_h
-    return np.sort(24.0 / period_grid_h(low, max_period_h, baseline_h, oversample))
+    return np.sort(24.0 / period_grid_h(low, max_period_h, span_h, oversample))
 
 
-def stratified_periods_h(rng: np.random.Generator, min_period_h: float, max_period_h: float,
-                         trials: int, n_bins: int) -> tuple[np.ndarray, np.ndarray]:
-    """Trial periods log-uniform within ``n_bins`` log-spaced bins, trials shared out evenly.
+def stratified_periods_h(
+    rng: np.random.Generator, min_period_h: float, max_period_h: float, trials: int, n_bands: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """Trial periods log-uniform within ``n_bands`` log-spaced bins, trials shared out evenly.
 
     Returns ``(periods_h, bin_edges_h)``; periods are in bin order.
     """
-    edges = np.geomspace(min_period_h, max_period_h, n_bins + 1)
-    counts = np.full(n_bins, trials // n_bins)
-    counts[: trials % n_bins] += 1
-    which = np.repeat(np.arange(n_bins), counts)
+    edges = np.geomspace(min_period_h, max_period_h, n_bands + 1)
+    counts = np.full(n_bands, trials // n_bands)
+    counts[: trials % n_bands] += 1
+    which = np.repeat(np.arange(n_bands), counts)
     u = rng.uniform(size=trials)
     log_p = np.log(edges[which]) + u * (np.log(edges[which + 1]) - np.log(edges[which]))
     return np.exp(log_p), edges
 
 
-def synthetic_light_curves(times_jd: np.ndarray, periods_h: np.ndarray, amplitude_mag: np.ndarray,
-                           rng: np.random.Generator, *, sigma_mag: np.ndarray | float = 0.0,
-                           double_peaked: bool = True, n_harmonics: int = 3,
-                           trend_mag: np.ndarray | None = None,
-                           fading_mag_per_day: float = 0.0) -> np.ndarray:
+def synthetic_light_curves(
+    times_jd: np.ndarray,
+    periods_h: np.ndarray,
+    amplitude_mag: np.ndarray,
+    rng: np.random.Generator,
+    *,
+    sigma_mag: np.ndarray | float = 0.0,
+    double_peaked: bool = True,
+    n_harmonics: int = 3,
+    trend_mag: np.ndarray | None = None,
+    fading_mag_per_day: float = 0.0,
+) -> np.ndarray:
     """Magnitudes (N times, M trials): Fourier series in rotational phase + trend + noise.
 
     Harmonic weights are drawn from :data:`SHAPE_DOUBLE` or :data:`SHAPE_SINGLE` (first
@@ -75,8 +84,7 @@ def synthetic_light_curves(times_jd: np.ndarray, periods_h: np.ndarray, amplitud
     k = np.arange(1, len(shape) + 1)
     # peak-to-peak of each shape on a fine phase grid, to scale to the requested amplitude
     grid = np.linspace(0, 2 * np.pi, 512, endpoint=False)
-    profile = np.einsum("mk,mkg->mg", weights, np.cos(k[None, :, None] * grid[None, None, :]
-                                                      + phases[:, :, None]))
+    profile = np.einsum("mk,mkg->mg", weights, np.cos(k[None, :, None] * grid[None, None, :] + phases[:, :, None]))
     ptp = profile.max(axis=1) - profile.min(axis=1)
     scale = np.asarray(amplitude_mag, dtype=float) / ptp
     rot_phase = 2 * np.pi * (days * 24.0)[:, None] / p[None, :]  # (N, M)
@@ -122,17 +130,22 @@ class RecoveryResult:
     bin_index: np.ndarray  # per trial: index into ``bins``
 
 
-def classify_matches(true_freq_per_day: np.ndarray, found_freq_per_day: np.ndarray,
-                     tolerance_freq_per_day: float, double_peaked: bool = True) -> np.ndarray:
-    """"period" if found ≈ true, "half" if found ≈ 2·true (double-peaked only), else "wrong"."""
+def classify_matches(
+    true_freq_per_day: np.ndarray,
+    found_freq_per_day: np.ndarray,
+    tolerance_freq_per_day: float,
+    double_peaked: bool = True,
+) -> np.ndarray:
+    """ "period" if found ≈ true, "half" if found ≈ 2·true (double-peaked only), else "wrong"."""
     at_p = np.abs(found_freq_per_day - true_freq_per_day) <= tolerance_freq_per_day
     at_half = np.abs(found_freq_per_day - 2 * true_freq_per_day) <= tolerance_freq_per_day
     at_half &= double_peaked
     return np.where(at_p, "period", np.where(at_half, "half", "wrong"))
 
 
-def _confusions(true_f: np.ndarray, found_f: np.ndarray, double_peaked: bool,
-                resolution_per_day: float, n_total: int, top: int = 4) -> list[dict]:
+def _confusions(
+    true_f: np.ndarray, found_f: np.ndarray, double_peaked: bool, resolution_per_day: float, n_total: int, top: int = 4
+) -> list[dict]:
     """Group wrong winners by their offset from the nearer of f and 2f (the alias step)."""
     if true_f.size == 0:
         return []
@@ -144,27 +157,40 @@ def _confusions(true_f: np.ndarray, found_f: np.ndarray, double_peaked: bool,
     out = []
     for k in np.unique(key):
         sel = key == k
-        out.append({
-            "period_h": float(np.median(24.0 / found_f[sel])),
-            "delta_freq_per_day": float(np.median(offset[sel])),
-            "relative_to": "half_period" if np.mean(use_h[sel]) > 0.5 else "period",
-            "count": int(sel.sum()),
-            "fraction": float(sel.sum() / n_total),
-        })
+        out.append(
+            {
+                "period_h": float(np.median(24.0 / found_f[sel])),
+                "delta_freq_per_day": float(np.median(offset[sel])),
+                "relative_to": "half_period" if np.mean(use_h[sel]) > 0.5 else "period",
+                "count": int(sel.sum()),
+                "fraction": float(sel.sum() / n_total),
+            }
+        )
     out.sort(key=lambda d: -d["count"])
     return out[:top]
 
 
-def injection_recovery(times_jd: np.ndarray, *, min_period_h: float, max_period_h: float,
-                       trials: int = 200, seed: int = 0,
-                       amplitude_range_mag: tuple[float, float] = (0.1, 0.5),
-                       sigma_mag: np.ndarray | float = 0.02, double_peaked: bool = True,
-                       n_harmonics: int = 3, nterms: int = 2, trend_mag: np.ndarray | None = None,
-                       fading_mag_per_day: float = 0.0, n_bins: int | None = None,
-                       oversample: float = 10.0, progress=None) -> RecoveryResult:
+def injection_recovery(
+    times_jd: np.ndarray,
+    *,
+    min_period_h: float,
+    max_period_h: float,
+    trials: int = 200,
+    seed: int = 0,
+    amplitude_range_mag: tuple[float, float] = (0.1, 0.5),
+    sigma_mag: np.ndarray | float = 0.02,
+    double_peaked: bool = True,
+    n_harmonics: int = 3,
+    nterms: int = 2,
+    trend_mag: np.ndarray | None = None,
+    fading_mag_per_day: float = 0.0,
+    n_bands: int | None = None,
+    oversample: float = 10.0,
+    progress=None,
+) -> RecoveryResult:
     """Inject ``trials`` synthetic light curves at ``times_jd`` and search each one.
 
-    Periods are stratified over log-spaced bins (``n_bins``, default ``trials // 20`` within
+    Periods are stratified over log-spaced bins (``n_bands``, default ``trials // 20`` within
     [4, 20]); amplitudes are uniform in ``amplitude_range_mag``. The search fits an
     ``nterms``-harmonic series with a linear trend, plus ``trend_mag`` as a free column when
     given, on the rotation-frequency grid of :func:`search_frequencies_per_day`.
@@ -173,36 +199,55 @@ def injection_recovery(times_jd: np.ndarray, *, min_period_h: float, max_period_
     if t.size < 2 * nterms + 3:
         raise ValueError(f"injection–recovery needs at least {2 * nterms + 3} times")
     rng = np.random.default_rng(seed)
-    if n_bins is None:
-        n_bins = int(min(20, max(4, trials // 20)))
-    n_bins = max(1, min(n_bins, trials))
+    if n_bands is None:
+        n_bands = int(min(20, max(4, trials // 20)))
+    n_bands = max(1, min(n_bands, trials))
     baseline_d = float(t.max() - t.min())
-    baseline_h = baseline_d * 24.0
-    freqs = search_frequencies_per_day(min_period_h, max_period_h, baseline_h, double_peaked,
-                                       oversample)
-    periods, edges = stratified_periods_h(rng, min_period_h, max_period_h, trials, n_bins)
+    span_h = baseline_d * 24.0
+    freqs = search_frequencies_per_day(min_period_h, max_period_h, span_h, double_peaked, oversample)
+    periods, edges = stratified_periods_h(rng, min_period_h, max_period_h, trials, n_bands)
     amps = rng.uniform(amplitude_range_mag[0], amplitude_range_mag[1], trials)
-    mags = synthetic_light_curves(t, periods, amps, rng, sigma_mag=sigma_mag,
-                                  double_peaked=double_peaked, n_harmonics=n_harmonics,
-                                  trend_mag=trend_mag, fading_mag_per_day=fading_mag_per_day)
-    best_f, _ = best_frequencies(t, mags, freqs, nterms=nterms, sigma=sigma_mag, trend_degree=1,
-                                 trend_columns=trend_mag, progress=progress)
+    mags = synthetic_light_curves(
+        t,
+        periods,
+        amps,
+        rng,
+        sigma_mag=sigma_mag,
+        double_peaked=double_peaked,
+        n_harmonics=n_harmonics,
+        trend_mag=trend_mag,
+        fading_mag_per_day=fading_mag_per_day,
+    )
+    best_f, _ = best_frequencies(
+        t, mags, freqs, nterms=nterms, sigma=sigma_mag, trend_degree=1, trend_columns=trend_mag, progress=progress
+    )
     tol = 0.5 / max(baseline_d, max_period_h / 24.0)
     true_f = 24.0 / periods
     match = classify_matches(true_f, best_f, tol, double_peaked)
-    which = np.clip(np.searchsorted(edges, periods, side="right") - 1, 0, n_bins - 1)
+    which = np.clip(np.searchsorted(edges, periods, side="right") - 1, 0, n_bands - 1)
     bins = []
-    for b in range(n_bins):
+    for b in range(n_bands):
         sel = which == b
         n = int(sel.sum())
         wrong = sel & (match == "wrong")
-        bins.append(RecoveryBin(
-            min_period_h=float(edges[b]), max_period_h=float(edges[b + 1]), n_trials=n,
-            fraction=float(np.mean(match[sel] != "wrong")) if n else math.nan,
-            fraction_at_period=float(np.mean(match[sel] == "period")) if n else math.nan,
-            fraction_at_half_period=float(np.mean(match[sel] == "half")) if n else math.nan,
-            confusions=_confusions(true_f[wrong], best_f[wrong], double_peaked, 2 * tol, max(n, 1)),
-        ))
-    return RecoveryResult(true_period_h=periods, found_period_h=24.0 / best_f, amplitude_mag=amps,
-                          match=match, bins=bins, tolerance_freq_per_day=tol,
-                          search_freq_per_day=freqs, bin_index=which)
+        bins.append(
+            RecoveryBin(
+                min_period_h=float(edges[b]),
+                max_period_h=float(edges[b + 1]),
+                n_trials=n,
+                fraction=float(np.mean(match[sel] != "wrong")) if n else math.nan,
+                fraction_at_period=float(np.mean(match[sel] == "period")) if n else math.nan,
+                fraction_at_half_period=float(np.mean(match[sel] == "half")) if n else math.nan,
+                confusions=_confusions(true_f[wrong], best_f[wrong], double_peaked, 2 * tol, max(n, 1)),
+            )
+        )
+    return RecoveryResult(
+        true_period_h=periods,
+        found_period_h=24.0 / best_f,
+        amplitude_mag=amps,
+        match=match,
+        bins=bins,
+        tolerance_freq_per_day=tol,
+        search_freq_per_day=freqs,
+        bin_index=which,
+    )

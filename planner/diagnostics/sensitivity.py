@@ -59,8 +59,9 @@ def _safe_inv(g: np.ndarray) -> np.ndarray:
     return out
 
 
-def fading_rate_sigma(times_jd: np.ndarray, periods_h: np.ndarray, sigma_mag: np.ndarray | float,
-                      nterms: int = 2) -> np.ndarray:
+def fading_rate_sigma(
+    times_jd: np.ndarray, periods_h: np.ndarray, sigma_mag: np.ndarray | float, nterms: int = 2
+) -> np.ndarray:
     """Standard error (mag/day) of a linear fading rate fitted with rotation as nuisance.
 
     One value per trial period: the (t, t) element of the covariance (Xᵀ W X)⁻¹ of the model in
@@ -84,8 +85,9 @@ def _design_slow(tc: np.ndarray, freq_per_day: float, nterms: int) -> np.ndarray
     return np.column_stack(cols)
 
 
-def fading_rate_sigma_slow(times_jd: np.ndarray, periods_h: np.ndarray,
-                           sigma_mag: np.ndarray | float, nterms: int = 2) -> np.ndarray:
+def fading_rate_sigma_slow(
+    times_jd: np.ndarray, periods_h: np.ndarray, sigma_mag: np.ndarray | float, nterms: int = 2
+) -> np.ndarray:
     """Slow twin of :func:`fading_rate_sigma`: one period, one explicit design, one inverse."""
     tc, f, w = _inputs(times_jd, periods_h, sigma_mag)
     out = []
@@ -93,15 +95,20 @@ def fading_rate_sigma_slow(times_jd: np.ndarray, periods_h: np.ndarray,
         x = _design_slow(tc, fi, nterms)
         try:
             cov = np.linalg.inv(x.T @ (w[:, None] * x))
-            out.append(math.sqrt(cov[1, 1]) if np.linalg.cond(x.T @ (w[:, None] * x)) < 1e12
-                       else math.inf)
+            out.append(math.sqrt(cov[1, 1]) if np.linalg.cond(x.T @ (w[:, None] * x)) < 1e12 else math.inf)
         except np.linalg.LinAlgError:
             out.append(math.inf)
     return np.array(out)
 
 
-def frequency_sigma(times_jd: np.ndarray, periods_h: np.ndarray, sigma_mag: np.ndarray | float,
-                    amplitude_mag: float, harmonic: int = 2, nterms: int = 2) -> np.ndarray:
+def frequency_sigma(
+    times_jd: np.ndarray,
+    periods_h: np.ndarray,
+    sigma_mag: np.ndarray | float,
+    amplitude_mag: float,
+    harmonic: int = 2,
+    nterms: int = 2,
+) -> np.ndarray:
     """Standard error (c/d) of the rotation frequency, per trial period.
 
     The assumed light curve is a sinusoid of peak-to-peak ``amplitude_mag`` at harmonic
@@ -129,13 +136,19 @@ def frequency_sigma(times_jd: np.ndarray, periods_h: np.ndarray, sigma_mag: np.n
         ok = np.all(np.isfinite(dd), axis=(1, 2))
         if np.any(ok):
             s = np.linalg.inv(dd[ok])
-            info[ok] = semi ** 2 * 0.5 * (s[:, 0, 0] + s[:, 1, 1])
+            info[ok] = semi**2 * 0.5 * (s[:, 0, 0] + s[:, 1, 1])
         out[sl] = np.where(info > 0, 1.0 / np.sqrt(np.where(info > 0, info, 1.0)), np.inf)
     return out
 
 
-def frequency_sigma_slow(times_jd: np.ndarray, periods_h: np.ndarray, sigma_mag: np.ndarray | float,
-                         amplitude_mag: float, harmonic: int = 2, nterms: int = 2) -> np.ndarray:
+def frequency_sigma_slow(
+    times_jd: np.ndarray,
+    periods_h: np.ndarray,
+    sigma_mag: np.ndarray | float,
+    amplitude_mag: float,
+    harmonic: int = 2,
+    nterms: int = 2,
+) -> np.ndarray:
     """Slow twin of :func:`frequency_sigma`: explicit Schur complement, one period at a time,
     phase average as the mean over 16 light-curve phases of the scalar Fisher information."""
     tc, f, w = _inputs(times_jd, periods_h, sigma_mag)
@@ -158,10 +171,15 @@ def frequency_sigma_slow(times_jd: np.ndarray, periods_h: np.ndarray, sigma_mag:
     return np.array(out)
 
 
-def period_change_sensitivity_h(times_jd: np.ndarray, periods_h: np.ndarray,
-                                sigma_mag: np.ndarray | float, amplitude_mag: float,
-                                harmonic: int = 2, nterms: int = 2,
-                                n_sigma: float = 3.0) -> np.ndarray:
+def period_change_sensitivity_h(
+    times_jd: np.ndarray,
+    periods_h: np.ndarray,
+    sigma_mag: np.ndarray | float,
+    amplitude_mag: float,
+    harmonic: int = 2,
+    nterms: int = 2,
+    n_sigma: float = 3.0,
+) -> np.ndarray:
     """Smallest change of rotation period between the first and second half of the span that a
     fit of each half separately detects at ``n_sigma``: n σ(f₁ − f₂) converted to hours,
     ΔP = P² Δf / 24. ``inf`` where a half has too few points for the model."""
@@ -174,18 +192,17 @@ def period_change_sensitivity_h(times_jd: np.ndarray, periods_h: np.ndarray,
     s1 = frequency_sigma(t[first], p, sig[first], amplitude_mag, harmonic, nterms)
     s2 = frequency_sigma(t[~first], p, sig[~first], amplitude_mag, harmonic, nterms)
     delta_f = n_sigma * np.hypot(s1, s2)
-    return p ** 2 * delta_f / 24.0
+    return p**2 * delta_f / 24.0
 
 
 def synodic_offset_h(periods_h: np.ndarray, pab_lon_rate_deg_per_day: float) -> np.ndarray:
     """|P_syn − P_sid| ≈ ω P² for a phase-angle-bisector longitude rate ω (Harris et al. 1984,
     Icarus 57, 251; form quoted from memory): ω in cycles/day = rate/360, so ΔP_h = P_h² · ω / 24."""
     p = np.asarray(periods_h, dtype=float)
-    return p ** 2 * abs(pab_lon_rate_deg_per_day) / 360.0 / 24.0
+    return p**2 * abs(pab_lon_rate_deg_per_day) / 360.0 / 24.0
 
 
-def pab_motion(times_jd: np.ndarray, pab_lon_deg: np.ndarray,
-               pab_lat_deg: np.ndarray) -> dict[str, float]:
+def pab_motion(times_jd: np.ndarray, pab_lon_deg: np.ndarray, pab_lat_deg: np.ndarray) -> dict[str, float]:
     """Motion of the phase-angle bisector over the span: mean longitude rate (deg/day, least
     squares on the unwrapped longitude), total longitude change and great-circle arc (deg)."""
     t = np.asarray(times_jd, dtype=float).ravel()
@@ -197,6 +214,8 @@ def pab_motion(times_jd: np.ndarray, pab_lon_deg: np.ndarray,
     lo = np.deg2rad(lon)
     v = np.stack([np.cos(lat) * np.cos(lo), np.cos(lat) * np.sin(lo), np.sin(lat)], axis=-1)
     arc = float(np.rad2deg(np.arccos(np.clip(v[0] @ v[-1], -1, 1)))) if t.size else 0.0
-    return {"pab_lon_rate_deg_per_day": rate,
-            "pab_lon_change_deg": float(lon[-1] - lon[0]) if t.size else 0.0,
-            "pab_arc_deg": arc}
+    return {
+        "pab_lon_rate_deg_per_day": rate,
+        "pab_lon_change_deg": float(lon[-1] - lon[0]) if t.size else 0.0,
+        "pab_arc_deg": arc,
+    }

@@ -35,8 +35,9 @@ def normalised_weights(weights: np.ndarray | None, n: int) -> np.ndarray:
     return w / w.sum()
 
 
-def spectral_window(times_jd: np.ndarray, freq_per_day: np.ndarray | float,
-                    weights: np.ndarray | None = None) -> np.ndarray:
+def spectral_window(
+    times_jd: np.ndarray, freq_per_day: np.ndarray | float, weights: np.ndarray | None = None
+) -> np.ndarray:
     """|W(f)| with W(f) = (1/N) Σ_k exp(2πi f t_k) (Deeming 1975, Ap&SS 36, 137, eq. 5).
 
     With ``weights`` (e.g. 1/σ²), W = Σ w_k exp(2πi f t_k) / Σ w_k. |W(0)| = 1 always.
@@ -51,15 +52,16 @@ def spectral_window(times_jd: np.ndarray, freq_per_day: np.ndarray | float,
     w = normalised_weights(weights, t.size)
     step = max(1, _CHUNK_ELEMENTS // t.size)
     for start in range(0, flat.shape[0], step):
-        arg = (2.0 * np.pi) * np.outer(flat[start:start + step], t)
+        arg = (2.0 * np.pi) * np.outer(flat[start : start + step], t)
         re = np.cos(arg) @ w
         im = np.sin(arg) @ w
-        out[start:start + step] = np.hypot(re, im)
+        out[start : start + step] = np.hypot(re, im)
     return out.reshape(f.shape)
 
 
-def spectral_window_slow(times_jd: np.ndarray, freq_per_day: np.ndarray | float,
-                         weights: np.ndarray | None = None) -> np.ndarray:
+def spectral_window_slow(
+    times_jd: np.ndarray, freq_per_day: np.ndarray | float, weights: np.ndarray | None = None
+) -> np.ndarray:
     """Slow twin of :func:`spectral_window`: the sum of Deeming (1975) term by term."""
     t = [float(x) for x in days_from_first(times_jd)]
     w = normalised_weights(weights, len(t)) if t else np.array([])
@@ -73,8 +75,7 @@ def spectral_window_slow(times_jd: np.ndarray, freq_per_day: np.ndarray | float,
     return np.array(out).reshape(f.shape)
 
 
-def window_frequency_grid(times_jd: np.ndarray, max_freq_per_day: float,
-                          oversample: float = 10.0) -> np.ndarray:
+def window_frequency_grid(times_jd: np.ndarray, max_freq_per_day: float, oversample: float = 10.0) -> np.ndarray:
     """0 … ``max_freq_per_day`` with step 1/(oversample·T), T the span in days (at least 1 day)."""
     t = days_from_first(times_jd)
     span_d = max(float(t.max()) if t.size else 0.0, 1.0)
@@ -83,9 +84,15 @@ def window_frequency_grid(times_jd: np.ndarray, max_freq_per_day: float,
     return np.linspace(0.0, max_freq_per_day, max(n, 2))
 
 
-def window_peaks(times_jd: np.ndarray, max_freq_per_day: float = 5.0, *, n_peaks: int = 8,
-                 min_height: float = 0.1, oversample: float = 10.0,
-                 weights: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+def window_peaks(
+    times_jd: np.ndarray,
+    max_freq_per_day: float = 5.0,
+    *,
+    n_peaks: int = 8,
+    min_height: float = 0.1,
+    oversample: float = 10.0,
+    weights: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
     """Principal peaks of |W| between the central lobe and ``max_freq_per_day``.
 
     Returns ``(freq_per_day, height)``, strongest first, at most ``n_peaks`` with height at
@@ -105,8 +112,8 @@ def window_peaks(times_jd: np.ndarray, max_freq_per_day: float = 5.0, *, n_peaks
     if falling.size == 0:
         return empty
     first = falling[0]
-    inner = height[first + 1:-1]
-    is_max = (inner >= height[first:-2]) & (inner > height[first + 2:])
+    inner = height[first + 1 : -1]
+    is_max = (inner >= height[first:-2]) & (inner > height[first + 2 :])
     idx = np.nonzero(is_max)[0] + first + 1
     if idx.size == 0:
         return empty

@@ -15,22 +15,38 @@ from datetime import date
 from pathlib import Path
 
 from planner.core.errors import InputError
-from planner.core.timegrid import parse_date, parse_utc
+from planner.core.timegrid import parse_date
 from planner.core.tomlfile import Fields, read_toml
-from planner.inputs.settings import Blocks, ExposureRules, Rotation, Weights
-from planner.inputs.sites import Allocation, Site, load_site
+from planner.inputs.settings import BlockRules, ExposureRules, Rotation, Weights
+from planner.inputs.sites import Site, allocation_from, load_site
 from planner.inputs.targets import Target, load_target
 
-_TOP_KEYS = {"name", "target", "sites", "first_night", "nights", "seed", "rotation", "blocks", "cadence",
-             "weights", "weather", "photometry", "diagnostics", "site", "object"}
+_TOP_KEYS = {
+    "name",
+    "target",
+    "sites",
+    "first_night",
+    "nights",
+    "seed",
+    "rotation",
+    "blocks",
+    "cadence",
+    "weights",
+    "weather",
+    "photometry",
+    "diagnostics",
+    "site",
+    "object",
+}
 _ROTATION_KEYS = {"min_period_h", "max_period_h", "double_peaked", "amplitude_mag", "phase_bins", "oversample"}
-_BLOCK_KEYS = {"slot_min", "min_block_h", "max_block_h", "setup_min", "max_per_night"}
+_BLOCK_KEYS = {"slot_minutes", "min_block_h", "max_block_h", "setup_minutes", "max_per_night"}
 _CADENCE_KEYS = {"max_gap_h"}
 _WEIGHT_KEYS = {"coverage", "robustness", "alias", "cadence", "hours", "quality"}
 _WEATHER_KEYS = {"trials"}
 _PHOTOMETRY_KEYS = {"snr_target", "min_exposure_s", "max_exposure_s", "max_airmass", "sys_err_mag_per_airmass"}
 _DIAGNOSTICS_KEYS = {"trials"}
-_OVERRIDE_KEYS = {"hours_per_night", "blocks", "clear_fraction", "total_hours"}
+#: Keys of the [blocks] table in earlier versions and their names now.
+_RENAMED_BLOCK_KEYS = {"slot_min": "slot_minutes", "setup_min": "setup_minutes"}
 
 
 @dataclass(frozen=True)
@@ -45,7 +61,7 @@ class Campaign:
     nights: int
     seed: int = 0
     rotation: Rotation = field(default_factory=Rotation)
-    blocks: Blocks = field(default_factory=Blocks)
+    block_rules: BlockRules = field(default_factory=BlockRules)
     max_gap_h: float = 12.0
     weights: Weights = field(default_factory=Weights)
     weather_trials: int = 200
@@ -64,7 +80,7 @@ class Campaign:
         except InputError as e:
             if e.field != "object":
                 raise
-            message = e.message.replace("with --object NAME", "with the campaign key object = \"NAME\"")
+            message = e.message.replace("with --object NAME", 'with the campaign key object = "NAME"')
             raise InputError(str(self.path), "object", f"{self.target_path.name}: {message}") from None
 
 
@@ -95,23 +111,10 @@ def _first_night(f: Fields) -> date:
 
 
 def _override(f: Fields, site: Site) -> tuple[Site, float | None]:
-    f.check_known(_OVERRIDE_KEYS)
     changes: dict[str, object] = {}
-    hours = f.float("hours_per_night", None, lo=0.0, lo_open=True, hi=24.0)
-    pairs = f.pairs("blocks")
-    if hours is not None and pairs is not None:
-        raise f.error("blocks", "give hours_per_night or blocks, not both")
-    if hours is not None:
-        changes["allocation"] = Allocation(hours_per_night=hours)
-    if pairs is not None:
-        blocks = []
-        for i, (a, b) in enumerate(pairs):
-            start = parse_utc(a, f.file, f"{f.name('blocks')}[{i}][0]")
-            stop = parse_utc(b, f.file, f"{f.name('blocks')}[{i}][1]")
-            if stop <= start:
-                raise f.error("blocks", f"block {i} ends before it starts")
-            blocks.append((start, stop))
-        changes["allocation"] = Allocation(blocks_utc=tuple(sorted(blocks)))
+    allocation = allocation_from(f, extra_keys=("clear_fraction", "total_hours"))
+    if allocation is not None:
+        changes["allocation"] = allocation
     clear = f.float("clear_fraction", None, lo=0.0, hi=1.0)
     if clear is not None:
         changes["clear_fraction"] = clear
@@ -150,7 +153,8 @@ def load_campaign(path: str | Path) -> Campaign:
     if not (0.0 < amp[0] <= amp[1] <= 5.0):
         raise rot_f.error("amplitude_mag", f"{amp} must be [low, high] with 0 < low <= high <= 5")
     rotation = Rotation(
-        min_period_h=min_p, max_period_h=max_p,
+        min_period_h=min_p,
+        max_period_h=max_p,
         double_peaked=rot_f.bool("double_peaked", d_rot.double_peaked),
         amplitude_mag=(amp[0], amp[1]),
         phase_bins=rot_f.int("phase_bins", d_rot.phase_bins, lo=4, hi=200),
@@ -158,20 +162,25 @@ def load_campaign(path: str | Path) -> Campaign:
     )
 
     blk_f = f.sub("blocks") or Fields(path, {}, "blocks")
-    blk_f.check_known(_BLOCK_KEYS)
-    d_blk = Blocks()
-    slot_min = blk_f.float("slot_min", d_blk.slot_min, lo=1.0, hi=60.0)
+    blk_f.check_known(_BLOCK_KEYS, renamed=_RENAMED_BLOCK_KEYS)
+    d_blk = BlockRules()
+    slot_minutes = blk_f.float("slot_minutes", d_blk.slot_minutes, lo=1.0, hi=60.0)
     min_block_h = blk_f.float("min_block_h", d_blk.min_block_h, lo=0.0, lo_open=True, hi=24.0)
     max_block_h = blk_f.float("max_block_h", d_blk.max_block_h, lo=0.0, lo_open=True, hi=24.0)
-    setup_min = blk_f.float("setup_min", d_blk.setup_min, lo=0.0, hi=120.0)
+    setup_minutes = blk_f.float("setup_minutes", d_blk.setup_minutes, lo=0.0, hi=120.0)
     if max_block_h < min_block_h:
         raise blk_f.error("max_block_h", f"{max_block_h:g} is below min_block_h ({min_block_h:g})")
-    if min_block_h * 60.0 < slot_min:
-        raise blk_f.error("min_block_h", f"{min_block_h:g} h is shorter than one slot ({slot_min:g} min)")
-    if setup_min >= min_block_h * 60.0:
-        raise blk_f.error("setup_min", f"{setup_min:g} min leaves no science time in a {min_block_h:g} h block")
-    blocks = Blocks(slot_min=slot_min, min_block_h=min_block_h, max_block_h=max_block_h, setup_min=setup_min,
-                    max_per_night=blk_f.int("max_per_night", d_blk.max_per_night, lo=1, hi=20))
+    if min_block_h * 60.0 < slot_minutes:
+        raise blk_f.error("min_block_h", f"{min_block_h:g} h is shorter than one slot ({slot_minutes:g} min)")
+    if setup_minutes >= min_block_h * 60.0:
+        raise blk_f.error("setup_minutes", f"{setup_minutes:g} min leaves no science time in a {min_block_h:g} h block")
+    blocks = BlockRules(
+        slot_minutes=slot_minutes,
+        min_block_h=min_block_h,
+        max_block_h=max_block_h,
+        setup_minutes=setup_minutes,
+        max_per_night=blk_f.int("max_per_night", d_blk.max_per_night, lo=1, hi=20),
+    )
 
     cad_f = f.sub("cadence") or Fields(path, {}, "cadence")
     cad_f.check_known(_CADENCE_KEYS)
@@ -205,10 +214,16 @@ def load_campaign(path: str | Path) -> Campaign:
                 total_hours[key] = total
 
     return Campaign(
-        name=name, path=path, target_path=target_path, site_paths=site_paths, sites=tuple(sites),
-        first_night=_first_night(f), nights=f.int("nights", required=True, lo=1, hi=60),
+        name=name,
+        path=path,
+        target_path=target_path,
+        site_paths=site_paths,
+        sites=tuple(sites),
+        first_night=_first_night(f),
+        nights=f.int("nights", required=True, lo=1, hi=60),
         seed=f.int("seed", _default("seed"), lo=0, hi=2**63 - 1),
-        rotation=rotation, blocks=blocks,
+        rotation=rotation,
+        block_rules=blocks,
         max_gap_h=cad_f.float("max_gap_h", _default("max_gap_h"), lo=0.5, hi=24.0 * 60),
         weights=weights,
         weather_trials=wx_f.int("trials", _default("weather_trials"), lo=10, hi=100_000),
@@ -217,8 +232,9 @@ def load_campaign(path: str | Path) -> Campaign:
             min_exposure_s=min_exp,
             max_exposure_s=max_exp,
             max_airmass=ph_f.float("max_airmass", rules.max_airmass, lo=1.0, hi=40.0),
-            sys_err_mag_per_airmass=ph_f.float("sys_err_mag_per_airmass", rules.sys_err_mag_per_airmass, lo=0.0,
-                                               lo_open=True, hi=1.0),
+            sys_err_mag_per_airmass=ph_f.float(
+                "sys_err_mag_per_airmass", rules.sys_err_mag_per_airmass, lo=0.0, lo_open=True, hi=1.0
+            ),
         ),
         check_trials=dg_f.int("trials", _default("check_trials"), lo=0, hi=100_000),
         total_hours=total_hours,

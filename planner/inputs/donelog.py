@@ -54,7 +54,13 @@ def read_done_log(path: str | Path, sites: tuple[Site, ...] | list[Site]) -> Don
     for row in log.lost:
         if row.site and row.site not in names:
             raise InputError(log.path, f"site (row {row.row})", f"{row.site!r} is not a campaign site ({known})")
-        for name in ([row.site] if row.site else sorted(names)):
+        for name in [row.site] if row.site else sorted(names):
             lost.add((name, row.night))
-    return DoneLog(path=log.path, times_utc=log.times_utc, site=log.site_or(),
-                   exposure_s=log.exposure_or(_DEFAULT_EXPOSURE_S), mag_err=log.mag_err_or(np.nan), lost=lost)
+    return DoneLog(
+        path=log.path,
+        times_utc=log.times_utc,
+        site=log.site_or(),
+        exposure_s=log.exposure_or(_DEFAULT_EXPOSURE_S),
+        mag_err=log.mag_err_or(np.nan),
+        lost=lost,
+    )

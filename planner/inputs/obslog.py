@@ -112,8 +112,12 @@ def read_observation_log(path: str | Path) -> ObservationLog:
         raise InputError(file, "time_utc", "the file is empty (expected a header with time_utc)")
     header = [h.strip() for h in rows[0]]
     if "time_utc" not in header:
-        raise InputError(file, "time_utc", "missing column (mid-exposure times, ISO 8601 UTC); the first row "
-                         f"must name the columns: {', '.join(KNOWN_COLUMNS)}")
+        raise InputError(
+            file,
+            "time_utc",
+            "missing column (mid-exposure times, ISO 8601 UTC); the first row "
+            f"must name the columns: {', '.join(KNOWN_COLUMNS)}",
+        )
     for h in header:
         if h not in KNOWN_COLUMNS:
             name = h if len(h) <= 40 else h[:37] + "..."
@@ -135,16 +139,20 @@ def read_observation_log(path: str | Path) -> ObservationLog:
             raise InputError(file, f"status (row {n})", f"{cell['status']!r} is not observed or lost")
         if status == "lost":
             if not cell.get("night"):
-                raise InputError(file, f"night (row {n})",
-                                 "a lost row needs the local date of the evening, e.g. 2034-03-17")
+                raise InputError(
+                    file, f"night (row {n})", "a lost row needs the local date of the evening, e.g. 2034-03-17"
+                )
             lost.append(LostNight(site=cell.get("site", ""), night=_night(cell["night"], file, n), row=n))
             continue
         if not cell["time_utc"]:
             raise InputError(file, f"time_utc (row {n})", "empty; every observed row needs a time")
         times.append(parse_utc(cell["time_utc"], file, f"time_utc (row {n})"))
         sites.append(cell.get("site", ""))
-        exposures.append(_positive(cell["exposure_s"], file, f"exposure_s (row {n})", MAX_EXPOSURE_S)
-                         if cell.get("exposure_s") else math.nan)
+        exposures.append(
+            _positive(cell["exposure_s"], file, f"exposure_s (row {n})", MAX_EXPOSURE_S)
+            if cell.get("exposure_s")
+            else math.nan
+        )
         errs.append(_positive(cell["mag_err"], file, f"mag_err (row {n})") if cell.get("mag_err") else math.nan)
         nights.append(_night(cell["night"], file, n) if cell.get("night") else None)
         row_no.append(n)
@@ -154,5 +162,7 @@ def read_observation_log(path: str | Path) -> ObservationLog:
         site=np.array(sites, dtype=object) if "site" in col else None,
         exposure_s=np.array(exposures, dtype=float) if "exposure_s" in col else None,
         mag_err=np.array(errs, dtype=float) if "mag_err" in col else None,
-        rows=np.array(row_no, dtype=np.int64), night=nights, lost=lost,
+        rows=np.array(row_no, dtype=np.int64),
+        night=nights,
+        lost=lost,
     )

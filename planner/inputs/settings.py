@@ -26,19 +26,19 @@ class Rotation:
 
 
 @dataclass(frozen=True)
-class Blocks:
+class BlockRules:
     """How telescope time is cut: the slot grid, visit lengths and the set-up at the start of each visit."""
 
-    slot_min: float = 5.0
+    slot_minutes: float = 5.0
     min_block_h: float = 1.0
     max_block_h: float = 4.0
-    setup_min: float = 10.0
+    setup_minutes: float = 10.0
     #: Most visits one site makes in one night.
     max_per_night: int = 2
 
     @property
     def slot_s(self) -> float:
-        return self.slot_min * 60.0
+        return self.slot_minutes * 60.0
 
 
 @dataclass(frozen=True)

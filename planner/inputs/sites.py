@@ -6,6 +6,7 @@ One TOML file per site (schema in docs/formats.md). Loading validates every fiel
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 from datetime import datetime
 from pathlib import Path
@@ -23,7 +24,7 @@ TWILIGHT_SUN_ALT_DEG = {"civil": -6.0, "nautical": -12.0, "astronomical": -18.0}
 
 @dataclass(frozen=True)
 class Instrument:
-    """Camera and telescope, for signal-to-noise and exposure planning (photometry issue)."""
+    """Camera and telescope, for signal-to-noise and exposure planning."""
 
     aperture_m: float
     pixel_scale_arcsec: float
@@ -46,11 +47,11 @@ class Allocation:
     """Time granted to the campaign: all dark time, a number of hours per night, or fixed UTC blocks."""
 
     hours_per_night: float | None = None
-    blocks_utc: tuple[tuple[np.datetime64, np.datetime64], ...] = ()
+    granted_utc: tuple[tuple[np.datetime64, np.datetime64], ...] = ()
 
     @property
     def unlimited(self) -> bool:
-        return self.hours_per_night is None and not self.blocks_utc
+        return self.hours_per_night is None and not self.granted_utc
 
 
 @dataclass(frozen=True)
@@ -96,9 +97,23 @@ class Site:
 
 
 _SITE_KEYS = {
-    "name", "latitude_deg", "longitude_deg", "height_m", "timezone", "min_alt_deg", "horizon",
-    "max_hour_angle_h", "dec_range_deg", "twilight", "moon_min_sep_deg", "moon_sep_per_illum_deg",
-    "min_solar_elong_deg", "instrument", "clear_fraction", "allocation", "notes",
+    "name",
+    "latitude_deg",
+    "longitude_deg",
+    "height_m",
+    "timezone",
+    "min_alt_deg",
+    "horizon",
+    "max_hour_angle_h",
+    "dec_range_deg",
+    "twilight",
+    "moon_min_sep_deg",
+    "moon_sep_per_illum_deg",
+    "min_solar_elong_deg",
+    "instrument",
+    "clear_fraction",
+    "allocation",
+    "notes",
 }
 _INSTRUMENT_KEYS = {f for f in Instrument.__dataclass_fields__}
 
@@ -122,19 +137,30 @@ def _instrument(f: Fields) -> Instrument:
     )
 
 
-def _allocation(f: Fields) -> Allocation:
-    f.check_known({"hours_per_night", "blocks"})
+#: Allocation keys of earlier versions and their names now.
+RENAMED_ALLOCATION_KEYS = {"blocks": "granted_utc"}
+
+
+def allocation_from(f: Fields, extra_keys: Iterable[str] = ()) -> Allocation | None:
+    """The allocation a table grants: ``hours_per_night`` or ``granted_utc`` intervals (or None for neither).
+
+    Shared by a site file's ``[allocation]`` and a campaign's ``[site."NAME"]`` override.
+    """
+    f.check_known({"hours_per_night", "granted_utc", *extra_keys}, renamed=RENAMED_ALLOCATION_KEYS)
     hours = f.float("hours_per_night", None, lo=0.0, lo_open=True, hi=24.0)
-    blocks = []
-    for i, (a, b) in enumerate(f.pairs("blocks") or []):
-        start = parse_utc(a, f.file, f"{f.name('blocks')}[{i}][0]")
-        stop = parse_utc(b, f.file, f"{f.name('blocks')}[{i}][1]")
+    pairs = f.pairs("granted_utc")
+    if hours is not None and pairs is not None:
+        raise f.error("granted_utc", "give hours_per_night or granted_utc, not both")
+    if pairs is None:
+        return None if hours is None else Allocation(hours_per_night=hours)
+    granted = []
+    for i, (a, b) in enumerate(pairs):
+        start = parse_utc(a, f.file, f"{f.name('granted_utc')}[{i}][0]")
+        stop = parse_utc(b, f.file, f"{f.name('granted_utc')}[{i}][1]")
         if stop <= start:
-            raise f.error("blocks", f"block {i} ends before it starts")
-        blocks.append((start, stop))
-    if hours is not None and blocks:
-        raise f.error("blocks", "give hours_per_night or blocks, not both")
-    return Allocation(hours_per_night=hours, blocks_utc=tuple(sorted(blocks)))
+            raise f.error("granted_utc", f"interval {i} ends before it starts")
+        granted.append((start, stop))
+    return Allocation(granted_utc=tuple(sorted(granted)))
 
 
 def _horizon(f: Fields) -> tuple[tuple[float, float], ...]:
@@ -147,8 +173,10 @@ def _horizon(f: Fields) -> tuple[tuple[float, float], ...]:
             raise f.error("horizon", f"point {i} [{az}, {alt}] is outside az [0, 360], alt [-5, 90]")
         key = float(az) % 360.0
         if key in points and points[key] != float(alt):
-            raise f.error("horizon", f"point {i}: azimuth {az} is given twice with different altitudes "
-                                     "(0 and 360 are the same azimuth)")
+            raise f.error(
+                "horizon",
+                f"point {i}: azimuth {az} is given twice with different altitudes (0 and 360 are the same azimuth)",
+            )
         points[key] = float(alt)
     return tuple(sorted(points.items()))
 
@@ -210,6 +238,6 @@ def load_site(path: str | Path) -> Site:
         min_solar_elong_deg=f.float("min_solar_elong_deg", 30.0, lo=0.0, hi=180.0),
         instrument=_instrument(inst) if inst else None,
         clear_fraction=f.float("clear_fraction", 0.7, lo=0.0, hi=1.0),
-        allocation=_allocation(alloc) if alloc else Allocation(),
+        allocation=(allocation_from(alloc) if alloc else None) or Allocation(),
         source=str(path),
     )

@@ -89,8 +89,9 @@ def load_target(path: str | Path, object_name: str | None = None) -> Target:
     path = Path(path)
     if path.suffix.lower() == ".toml":
         if object_name is not None:
-            raise InputError(str(path), "object",
-                             "--object picks a line from an MPC .txt file; a TOML file holds one target")
+            raise InputError(
+                str(path), "object", "--object picks a line from an MPC .txt file; a TOML file holds one target"
+            )
         return _load_toml(path)
     if path.suffix.lower() in (".txt", ".dat"):
         return _load_mpc(path, object_name)
@@ -146,12 +147,12 @@ def _load_toml(path: Path) -> Target:
     return Target(name=name, kind=kind, orbit=orbit, brightness=brightness, source=str(path))
 
 
-def _from_mean_anomaly(f: Fields, a_au: float, ecc: float, mean_anomaly_deg: float,
-                       epoch_tdb_jd: float) -> tuple[float, float]:
+def _from_mean_anomaly(
+    f: Fields, a_au: float, ecc: float, mean_anomaly_deg: float, epoch_tdb_jd: float
+) -> tuple[float, float]:
     """q = a(1 − e) and perihelion time T = epoch − M / n, n = √(GM/|a|³) (asteroid elements)."""
     if ecc == 1.0:
-        raise f.error("eccentricity",
-                      "1 (parabolic) cannot be given with semimajor_axis_au; use a comet-style orbit")
+        raise f.error("eccentricity", "1 (parabolic) cannot be given with semimajor_axis_au; use a comet-style orbit")
     if ecc < 1.0 and a_au <= 0.0:
         raise f.error("semimajor_axis_au", f"{a_au:g} must be > 0 for an elliptic orbit (e < 1)")
     if ecc > 1.0 and a_au >= 0.0:
@@ -212,11 +213,10 @@ def _jd_from_calendar(year: int, month: int, day: float) -> float:
 
 def _col(line: str, first: int, last: int) -> str:
     """Columns ``first``–``last`` (1-based, inclusive) as in the MPC format descriptions."""
-    return line[first - 1:last].strip()
+    return line[first - 1 : last].strip()
 
 
-def _num(path: Path, line_no: int, line: str, first: int, last: int, what: str,
-         required: bool = True) -> float | None:
+def _num(path: Path, line_no: int, line: str, first: int, last: int, what: str, required: bool = True) -> float | None:
     text = _col(line, first, last)
     if not text:
         if required:
@@ -225,8 +225,9 @@ def _num(path: Path, line_no: int, line: str, first: int, last: int, what: str,
     try:
         value = float(text)
     except ValueError:
-        raise InputError(str(path), f"line {line_no}: {what}",
-                         f"{text!r} in columns {first}-{last} is not a number") from None
+        raise InputError(
+            str(path), f"line {line_no}: {what}", f"{text!r} in columns {first}-{last} is not a number"
+        ) from None
     if not math.isfinite(value):
         raise InputError(str(path), f"line {line_no}: {what}", f"{text!r} is not finite")
     return value
@@ -243,6 +244,7 @@ def _comet_line(path: Path, line_no: int, line: str) -> Target:
     52–59 ω, 62–69 Ω, 72–79 i (deg, J2000 ecliptic); 82–89 epoch YYYYMMDD; 92–95 G and 97–100 k
     with m = G + 5 log Δ + 2.5 k log r; 103–158 designation and name.
     """
+
     def num(a: int, b: int, what: str, required: bool = True) -> float | None:
         return _num(path, line_no, line, a, b, what, required)
 
@@ -250,8 +252,7 @@ def _comet_line(path: Path, line_no: int, line: str) -> Target:
     month = num(20, 21, "perihelion month")
     day = num(23, 29, "perihelion day")
     if not (1 <= month <= 12 and 0.0 <= day < 32.0):
-        raise InputError(str(path), f"line {line_no}: perihelion date",
-                         f"{year:.0f}-{month:.0f}-{day} is not a date")
+        raise InputError(str(path), f"line {line_no}: perihelion date", f"{year:.0f}-{month:.0f}-{day} is not a date")
     tp = _jd_from_calendar(int(year), int(month), day)
     q = num(31, 39, "perihelion distance")
     ecc = num(42, 49, "eccentricity")
@@ -284,14 +285,16 @@ def _minor_planet_line(path: Path, line_no: int, line: str) -> Target:
     anomaly M; 38–46 ω; 49–57 Ω; 60–68 i (deg, J2000 ecliptic); 71–79 e; 93–103 a (au);
     167–194 readable designation.
     """
+
     def num(a: int, b: int, what: str, required: bool = True) -> float | None:
         return _num(path, line_no, line, a, b, what, required)
 
     h = num(9, 13, "H", required=False)
     g = num(15, 19, "G", required=False)
     packed = line[20:25]
-    epoch = _jd_from_calendar(_CENTURY[packed[0]] + int(packed[1:3]), _unpack_day(packed[3]),
-                              float(_unpack_day(packed[4])))
+    epoch = _jd_from_calendar(
+        _CENTURY[packed[0]] + int(packed[1:3]), _unpack_day(packed[3]), float(_unpack_day(packed[4]))
+    )
     m = num(27, 35, "mean anomaly")
     peri = num(38, 46, "argument of perihelion")
     node = num(49, 57, "ascending node")
@@ -300,8 +303,9 @@ def _minor_planet_line(path: Path, line_no: int, line: str) -> Target:
     a = num(93, 103, "semimajor axis")
     field_prefix = f"line {line_no}"
     if ecc < 0 or ecc >= 1.0:
-        raise InputError(str(path), f"{field_prefix}: eccentricity",
-                         f"{ecc:g} must be in [0, 1) for a minor-planet orbit line")
+        raise InputError(
+            str(path), f"{field_prefix}: eccentricity", f"{ecc:g} must be in [0, 1) for a minor-planet orbit line"
+        )
     if a <= 0:
         raise InputError(str(path), f"{field_prefix}: semimajor axis", f"{a:g} must be > 0")
     fields = Fields(path, {}, field_prefix)
@@ -313,8 +317,7 @@ def _minor_planet_line(path: Path, line_no: int, line: str) -> Target:
     return Target(name=name, kind="asteroid", orbit=orbit, brightness=brightness, source=str(path))
 
 
-def _check_elements(path: Path, prefix: str, q: float, ecc: float, incl: float, node: float,
-                    peri: float) -> None:
+def _check_elements(path: Path, prefix: str, q: float, ecc: float, incl: float, node: float, peri: float) -> None:
     checks = [
         ("perihelion distance", q > 0.0, f"{q:g} au must be > 0"),
         ("eccentricity", ecc >= 0.0, f"{ecc:g} must be ≥ 0"),
@@ -334,11 +337,13 @@ def _load_mpc(path: Path, object_name: str | None) -> Target:
         raise InputError(str(path), "-", "file not found") from None
     except IsADirectoryError:
         raise InputError(str(path), "-", "is a folder, expected a text file of MPC orbit lines") from None
-    lines = [(i + 1, ln.rstrip("\r\n")) for i, ln in enumerate(text.splitlines())
-             if ln.strip() and not ln.lstrip().startswith("#")]
+    lines = [
+        (i + 1, ln.rstrip("\r\n"))
+        for i, ln in enumerate(text.splitlines())
+        if ln.strip() and not ln.lstrip().startswith("#")
+    ]
     if not lines:
-        raise InputError(str(path), "-", "no orbit lines (expected MPC one-line comet or minor-planet "
-                                         "orbits)")
+        raise InputError(str(path), "-", "no orbit lines (expected MPC one-line comet or minor-planet orbits)")
     if object_name is not None:
         wanted = object_name.strip().lower()
         picked = [(n, ln) for n, ln in lines if wanted in ln.lower()]
@@ -348,19 +353,20 @@ def _load_mpc(path: Path, object_name: str | None) -> Target:
             raise InputError(str(path), "object", f"no line mentions {object_name!r}")
         if len(picked) > 1:
             names = ", ".join(_line_name(ln) for _, ln in picked[:5])
-            raise InputError(str(path), "object",
-                             f"{object_name!r} matches {len(picked)} lines ({names}); be more specific")
+            raise InputError(
+                str(path), "object", f"{object_name!r} matches {len(picked)} lines ({names}); be more specific"
+            )
         lines = picked
     elif len(lines) > 1:
         names = ", ".join(_line_name(ln) for _, ln in lines[:5]) + (", ..." if len(lines) > 5 else "")
-        raise InputError(str(path), "object",
-                         f"the file holds {len(lines)} orbit lines ({names}); pick one with --object NAME")
+        raise InputError(
+            str(path), "object", f"the file holds {len(lines)} orbit lines ({names}); pick one with --object NAME"
+        )
     line_no, line = lines[0]
     if _is_minor_planet_line(line):
         return _minor_planet_line(path, line_no, line)
     if len(line) < 79:
-        raise InputError(str(path), f"line {line_no}",
-                         "too short for an MPC one-line comet or minor-planet orbit")
+        raise InputError(str(path), f"line {line_no}", "too short for an MPC one-line comet or minor-planet orbit")
     return _comet_line(path, line_no, line)
 
 

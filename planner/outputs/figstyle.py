@@ -99,7 +99,6 @@ def datetimes(values) -> np.ndarray:
     return pd.to_datetime(pd.Series(values), utc=True).dt.tz_localize(None).to_numpy(dtype="datetime64[ns]")
 
 
-
 #: Round periods (h) that label every log-period axis.
 PERIOD_TICKS_H = (0.5, 1, 1.5, 2, 3, 4, 6, 8, 12, 16, 24, 36, 48, 72, 96, 144, 168, 240)
 

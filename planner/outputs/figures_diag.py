@@ -107,8 +107,14 @@ def spectral_window_figure(series: Sequence[Series], max_freq_per_day: float = 5
         top = s.check.get("highest_alias") or {}
         if top.get("min_freq_per_day"):
             # Below 2/span the peaks are the central lobe's sidelobes, shared by any campaign of that span.
-            ax.axvspan(0.0, top["min_freq_per_day"], facecolor="#eeeeee", edgecolor="none", zorder=0,
-                       label="span sidelobes (< 2/span, not aliases)")
+            ax.axvspan(
+                0.0,
+                top["min_freq_per_day"],
+                facecolor="#eeeeee",
+                edgecolor="none",
+                zorder=0,
+                label="span sidelobes (< 2/span, not aliases)",
+            )
         ax.plot(f, w, **{k: v for k, v in kw.items() if not k.startswith("marker")})
         peaks = [p for p in s.check.get("window_peaks", []) if p.get("freq_per_day", 0) <= max_freq_per_day]
         if peaks:
@@ -165,8 +171,16 @@ def recovery_figure(
     if any(s.check.get("recovery") for s in series):
         ax.legend(loc="lower left", fontsize=8)
     else:  # trials = 0: nothing was injected; say so instead of an empty legend
-        ax.text(0.5, 0.5, "injection–recovery skipped (0 trials)", transform=ax.transAxes, ha="center",
-                va="center", fontsize=9, color=SLATE)
+        ax.text(
+            0.5,
+            0.5,
+            "injection–recovery skipped (0 trials)",
+            transform=ax.transAxes,
+            ha="center",
+            va="center",
+            fontsize=9,
+            color=SLATE,
+        )
     for i, s in enumerate(series):
         y = len(series) - 1 - i
         for band in s.check.get("bands", []):
@@ -206,8 +220,16 @@ def sensitivity_figure(series: Sequence[Series]) -> Figure:
         ax.set_yscale("log")
         ax.legend(loc="upper left", fontsize=8)
     else:  # e.g. a log of a few points, or one whose first half holds a single visit
-        ax.text(0.5, 0.5, "not defined: too few points\nin one half of the span", transform=ax.transAxes,
-                ha="center", va="center", fontsize=9, color=SLATE)
+        ax.text(
+            0.5,
+            0.5,
+            "not defined: too few points\nin one half of the span",
+            transform=ax.transAxes,
+            ha="center",
+            va="center",
+            fontsize=9,
+            color=SLATE,
+        )
     ax.set_xlabel("rotation period (h)")
     ax.set_ylabel("smallest detectable change (min)")
     ax.set_title("period change, first vs second half (3σ)", fontsize=9)

@@ -156,8 +156,9 @@ def site_nights_figure(
             ax.plot([a, b], [86, 86], color=INK, lw=5, solid_capstyle="butt", zorder=4)
         if w.empty:
             reason = windows.loc[windows["night"].astype(str) == night, "reason"] if "reason" in windows else []
-            text = "no window" + (f":\n{textwrap.fill(str(reason.iloc[0]), 30)}"
-                                  if len(reason) and str(reason.iloc[0]) != "nan" else "")
+            text = "no window" + (
+                f":\n{textwrap.fill(str(reason.iloc[0]), 30)}" if len(reason) and str(reason.iloc[0]) != "nan" else ""
+            )
             # Kept out of the layout: a long reason must not squeeze the panels to nothing.
             ax.text(
                 0.5,

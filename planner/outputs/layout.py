@@ -21,8 +21,19 @@ SHEETS_DIR = "sheets"
 REPORT_HTML = "report.html"
 
 #: Every file of a plan folder, in the order docs/formats.md lists them.
-PLAN_FILES = (PLAN_CSV, MANIFEST_JSON, BASELINE_CSV, DIAGNOSTICS_JSON, WINDOWS_CSV, GEOMETRY_CSV, NIGHTS_CSV,
-              CAMPAIGN_COPY, TARGET_COPY, SHEETS_DIR + "/", REPORT_HTML)
+PLAN_FILES = (
+    PLAN_CSV,
+    MANIFEST_JSON,
+    BASELINE_CSV,
+    DIAGNOSTICS_JSON,
+    WINDOWS_CSV,
+    GEOMETRY_CSV,
+    NIGHTS_CSV,
+    CAMPAIGN_COPY,
+    TARGET_COPY,
+    SHEETS_DIR + "/",
+    REPORT_HTML,
+)
 #: Version of the manifest's and diagnostics.json's layout; raised when a key changes meaning.
 SCHEMA_VERSION = 2
 

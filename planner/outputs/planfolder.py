@@ -27,38 +27,70 @@ from planner.sky.brightness import law_name, law_params
 
 def diagnostics_json(result: PlanResult) -> dict:
     """diagnostics.json: both checks, the objective, weather robustness, comparison, re-plan, timings."""
-    return json_safe({
-        "schema_version": layout.SCHEMA_VERSION, "phasewise_version": __version__,
-        "plan": result.checks["plan"].to_dict(), "baseline": result.checks["baseline"].to_dict(),
-        "objective": result.objective.to_dict(),
-        "robustness": {k: v.to_dict() for k, v in result.robustness.items()},
-        "comparison": result.comparison.to_dict(),
-        "replan": None if result.replan is None else result.replan.to_dict(),
-        "timings_s": result.timings_s,
-    })
+    return json_safe(
+        {
+            "schema_version": layout.SCHEMA_VERSION,
+            "phasewise_version": __version__,
+            "plan": result.checks["plan"].to_dict(),
+            "baseline": result.checks["baseline"].to_dict(),
+            "objective": result.objective.to_dict(),
+            "robustness": {k: v.to_dict() for k, v in result.robustness.items()},
+            "comparison": result.comparison.to_dict(),
+            "replan": None if result.replan is None else result.replan.to_dict(),
+            "timings_s": result.timings_s,
+        }
+    )
 
 
 def plan_manifest(result: PlanResult) -> dict:
     """plan.json: the plan's inputs as the report and other tools need them, and its blocks."""
     c, t = result.campaign, result.target
-    return json_safe({
-        "schema_version": layout.SCHEMA_VERSION,
-        "phasewise_version": __version__,
-        "campaign": {"name": c.name, "first_night": c.first_night.isoformat(), "nights": c.nights, "seed": c.seed,
-                     "file": layout.CAMPAIGN_COPY},
-        "target": {"name": t.name, "kind": t.kind, "source": Path(t.source).name if t.source else "",
-                   "mag_law": law_name(t.kind, t.brightness), "mag_params": law_params(t.kind, t.brightness)},
-        "sites": [{"name": s.name, "timezone": s.timezone, "latitude_deg": s.latitude_deg,
-                   "longitude_deg": s.longitude_deg, "height_m": s.height_m, "min_alt_deg": s.min_alt_deg,
-                   "min_solar_elong_deg": s.min_solar_elong_deg, "twilight": s.twilight,
-                   "sheet": f"{layout.SHEETS_DIR}/{layout.sheet_name(s.name)}"} for s in c.sites],
-        "settings": {"rotation": dataclasses.asdict(c.rotation), "blocks": dataclasses.asdict(c.blocks),
-                     "weights": dataclasses.asdict(c.weights), "photometry": dataclasses.asdict(c.photometry),
-                     "max_gap_h": c.max_gap_h, "weather_trials": c.weather_trials, "check_trials": c.check_trials,
-                     "total_hours": dict(c.total_hours)},
-        "replan": None if result.replan is None else result.replan.to_dict(),
-        "blocks": records(result.blocks),
-    })
+    return json_safe(
+        {
+            "schema_version": layout.SCHEMA_VERSION,
+            "phasewise_version": __version__,
+            "campaign": {
+                "name": c.name,
+                "first_night": c.first_night.isoformat(),
+                "nights": c.nights,
+                "seed": c.seed,
+                "file": layout.CAMPAIGN_COPY,
+            },
+            "target": {
+                "name": t.name,
+                "kind": t.kind,
+                "source": Path(t.source).name if t.source else "",
+                "mag_law": law_name(t.kind, t.brightness),
+                "mag_params": law_params(t.kind, t.brightness),
+            },
+            "sites": [
+                {
+                    "name": s.name,
+                    "timezone": s.timezone,
+                    "latitude_deg": s.latitude_deg,
+                    "longitude_deg": s.longitude_deg,
+                    "height_m": s.height_m,
+                    "min_alt_deg": s.min_alt_deg,
+                    "min_solar_elong_deg": s.min_solar_elong_deg,
+                    "twilight": s.twilight,
+                    "sheet": f"{layout.SHEETS_DIR}/{layout.sheet_name(s.name)}",
+                }
+                for s in c.sites
+            ],
+            "settings": {
+                "rotation": dataclasses.asdict(c.rotation),
+                "blocks": dataclasses.asdict(c.block_rules),
+                "weights": dataclasses.asdict(c.weights),
+                "photometry": dataclasses.asdict(c.photometry),
+                "max_gap_h": c.max_gap_h,
+                "weather_trials": c.weather_trials,
+                "check_trials": c.check_trials,
+                "total_hours": dict(c.total_hours),
+            },
+            "replan": None if result.replan is None else result.replan.to_dict(),
+            "blocks": records(result.blocks),
+        }
+    )
 
 
 def _write_json(path: Path, doc: dict) -> None:
@@ -69,8 +101,9 @@ def _write_folder(result: PlanResult, folder: Path) -> None:
     (folder / layout.SHEETS_DIR).mkdir(parents=True)
     table_for_files(result.blocks).to_csv(folder / layout.PLAN_CSV, index=False, float_format=PLAN_CSV_FLOAT_FORMAT)
     _write_json(folder / layout.MANIFEST_JSON, plan_manifest(result))
-    table_for_files(result.baseline).to_csv(folder / layout.BASELINE_CSV, index=False,
-                                            float_format=PLAN_CSV_FLOAT_FORMAT)
+    table_for_files(result.baseline).to_csv(
+        folder / layout.BASELINE_CSV, index=False, float_format=PLAN_CSV_FLOAT_FORMAT
+    )
     _write_json(folder / layout.DIAGNOSTICS_JSON, diagnostics_json(result))
     table_for_files(result.windows).to_csv(folder / layout.WINDOWS_CSV, index=False)
     table_for_files(result.geometry).to_csv(folder / layout.GEOMETRY_CSV, index=False, float_format="%.6g")
@@ -79,8 +112,9 @@ def _write_folder(result: PlanResult, folder: Path) -> None:
     if result.campaign.target_path.suffix.lower() == ".toml":
         shutil.copyfile(result.campaign.target_path, folder / layout.TARGET_COPY)
     for site in result.campaign.sites:
-        (folder / layout.SHEETS_DIR / layout.sheet_name(site.name)).write_text(site_sheet(result, site),
-                                                                             encoding="utf-8")
+        (folder / layout.SHEETS_DIR / layout.sheet_name(site.name)).write_text(
+            site_sheet(result, site), encoding="utf-8"
+        )
     write_report(folder)  # last: rendered from the files above alone, inside the not-yet-renamed folder
 
 
@@ -107,7 +141,7 @@ def write_plan_folder(result: PlanResult, out: str | Path, force: bool = False) 
     if out.is_dir() and any(out.iterdir()) and not force:
         raise InputError(str(out), "--out", "folder is not empty (use --force to replace it)")
     out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", suffix=".part", dir=out.parent))
+    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", suffix=".site_night", dir=out.parent))
     try:
         _write_folder(result, tmp / "plan")
         if out.is_dir():

@@ -40,8 +40,12 @@ def _block_label(r: pd.Series) -> str:
 #: Headline of each caution kind in the report (the wording of the advice is CAUTION_TEXT's).
 _CAUTION_TITLES = {"sun": "Near the Sun", "twilight": "Twilight", "airmass": "Low in the sky", "moon": "Bright Moon"}
 #: The plan.csv column whose value each caution kind quotes.
-_CAUTION_COLUMNS = {"sun": "solar_elong_deg", "twilight": "sun_alt_max_deg", "airmass": "airmass_max",
-                    "moon": "moon_sep_deg"}
+_CAUTION_COLUMNS = {
+    "sun": "solar_elong_deg",
+    "twilight": "max_sun_alt_deg",
+    "airmass": "max_airmass",
+    "moon": "moon_sep_deg",
+}
 
 
 def cautions_section(pf: PlanFolder) -> str:
@@ -68,8 +72,10 @@ def cautions_section(pf: PlanFolder) -> str:
                 if kind in str(r["cautions"]).split(";")
             ]
             if flagged:
-                items.append(f"<li><strong>{html.escape(title)}:</strong> {'; '.join(flagged)}; "
-                             f"{html.escape(CAUTION_TEXT[kind])}.</li>")
+                items.append(
+                    f"<li><strong>{html.escape(title)}:</strong> {'; '.join(flagged)}; "
+                    f"{html.escape(CAUTION_TEXT[kind])}.</li>"
+                )
     w = pf.windows
     if w is not None and "caution" in w:
         notes: dict[str, list[str]] = {}
@@ -143,7 +149,7 @@ def render_check_report(check: dict, title: str = "Sampling check", source: str 
     rows = [
         ["times", json_num(check, "input.n_times")],
         ["first, last (UTC)", html.escape(f"{inp.get('first_utc') or '—'}, {inp.get('last_utc') or '—'}")],
-        ["span", json_num(check, "input.baseline_h", 2, " h")],
+        ["span", json_num(check, "input.span_h", 2, " h")],
         ["sites", html.escape(", ".join(f"{k} ({v})" for k, v in (inp.get("sites") or {}).items())) or "—"],
         [
             "candidate periods",

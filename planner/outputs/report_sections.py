@@ -39,10 +39,15 @@ def summary_section(pf: PlanFolder) -> str:
     replan = diag.get("replan")
     if isinstance(replan, dict) and replan.get("log"):
         lost = ", ".join(" ".join(str(x) for x in pair) for pair in replan.get("lost_site_nights") or []) or "none"
-        rows.append(("Re-planned from", f"{html.escape(str(replan['log']))}: "
-                     f"{json_num(diag, 'replan.n_done_times')} times already observed, planning from "
-                     f"{html.escape(str(replan.get('not_before_utc') or '—'))} UTC; lost site-nights: "
-                     f"{html.escape(lost)}"))
+        rows.append(
+            (
+                "Re-planned from",
+                f"{html.escape(str(replan['log']))}: "
+                f"{json_num(diag, 'replan.n_done_times')} times already observed, planning from "
+                f"{html.escape(str(replan.get('not_before_utc') or '—'))} UTC; lost site-nights: "
+                f"{html.escape(lost)}",
+            )
+        )
     out = ['<section id="summary"><h2>Campaign summary</h2>', table(["", ""], rows, "kv")]
 
     # Totals per site: sums of plan.csv / baseline.csv cells.
@@ -55,9 +60,15 @@ def summary_section(pf: PlanFolder) -> str:
         if df is None or df.empty:
             return 0, 0.0, 0
         d = df if site is None else df[df["site"] == site]
-        hours = float(((utc_times(d["end_utc"]) - utc_times(d["start_utc"])) / np.timedelta64(1, "h")).sum()) if len(d) else 0.0
+        hours = (
+            float(((utc_times(d["end_utc"]) - utc_times(d["start_utc"])) / np.timedelta64(1, "h")).sum())
+            if len(d)
+            else 0.0
+        )
         nexp = (
-            int(sum(int(cell_float(x)) for x in d["n_exposures"] if not math.isnan(cell_float(x)))) if "n_exposures" in d else 0
+            int(sum(int(cell_float(x)) for x in d["n_exposures"] if not math.isnan(cell_float(x))))
+            if "n_exposures" in d
+            else 0
         )
         return len(d), hours, nexp
 
@@ -259,8 +270,9 @@ def nights_section(pf: PlanFolder) -> str:
             if off is None:  # a folder without the site in its manifest: the tables' local times tell
                 off = utc_offset_h(ws) if utc_offset_h(ws) is not None else utc_offset_h(bs)
             min_alt = (pf.site_info.get(site) or {}).get("min_alt_deg")
-            fig = figures_sky.site_nights_figure(site, gs, ws, bs, pf.nights, off or 0.0,
-                                                 None if min_alt is None else float(min_alt))
+            fig = figures_sky.site_nights_figure(
+                site, gs, ws, bs, pf.nights, off or 0.0, None if min_alt is None else float(min_alt)
+            )
             out.append(
                 figure_html(fig, f"fig-site-{i}", f"Nights at {html.escape(site)}.", f"Altitude charts for {site}")
             )
@@ -310,9 +322,9 @@ _TABLE_COLUMNS = [
     ("UTC", ("start_utc", "end_utc"), None),
     ("exposures × s", ("n_exposures", "exposure_s"), 0),
     ("RA, Dec (°)", ("ra_deg", "dec_deg"), 4),
-    ("motion (″/min, PA °)", ("motion_arcsec_min", "motion_pa_deg"), 2),
-    ("altitude (°)", ("alt_min_deg", "alt_max_deg"), 1),
-    ("airmass", ("airmass_min", "airmass_max"), 2),
+    ("motion (″/min, PA °)", ("motion_arcsec_per_min", "motion_pa_deg"), 2),
+    ("altitude (°)", ("min_alt_deg", "max_alt_deg"), 1),
+    ("airmass", ("min_airmass", "max_airmass"), 2),
     ("Moon sep. (°)", ("moon_sep_deg",), 0),
     ("mag", ("mag_pred",), 2),
     ("S/N", ("snr_pred",), 0),

@@ -17,8 +17,8 @@ def _block_cautions(r, max_airmass: float) -> list[str]:
     """The block's cautions (its ``cautions`` column) in words, with the numbers that raised them."""
     detail = {
         "sun": f"target only {r.solar_elong_deg:.0f} deg from the Sun",
-        "twilight": f"Sun up to {r.sun_alt_max_deg:.0f} deg during the block",
-        "airmass": f"airmass reaches {r.airmass_max:.1f} (campaign limit {max_airmass:g})",
+        "twilight": f"Sun up to {r.max_sun_alt_deg:.0f} deg during the block",
+        "airmass": f"airmass reaches {r.max_airmass:.1f} (campaign limit {max_airmass:g})",
         "moon": f"Moon {r.moon_sep_deg:.0f} deg away, {100 * r.moon_illum:.0f}% lit",
     }
     return [f"{detail[k]}: {CAUTION_TEXT[k]}" for k in str(r.cautions or "").split(";") if k]
@@ -28,12 +28,16 @@ def _sheet_notes(rows: pd.DataFrame) -> list[str]:
     """Cautions that hold for the whole sheet, said once: trailing caps and missing exposure predictions."""
     out = []
     if len(rows) and (rows["exposure_limited_by"] == "trailing").any():
-        out.append("CAUTION: exposures marked (trailing) are capped so the target trails by at most half the "
-                   "seeing on a sidereally tracked frame; track at the given rates to expose longer")
+        out.append(
+            "CAUTION: exposures marked (trailing) are capped so the target trails by at most half the "
+            "seeing on a sidereally tracked frame; track at the given rates to expose longer"
+        )
     exp = pd.to_numeric(rows["exposure_s"], errors="coerce") if len(rows) else pd.Series(dtype=float)
     if len(rows) and exp.isna().any():
-        out.append("NOTE: blocks without an exposure time have no prediction (no instrument in the site file or "
-                   "the target too faint): set the exposure by hand")
+        out.append(
+            "NOTE: blocks without an exposure time have no prediction (no instrument in the site file or "
+            "the target too faint): set the exposure by hand"
+        )
     return out
 
 
@@ -46,8 +50,8 @@ def site_sheet(result: PlanResult, site: Site) -> str:
         f"OBSERVING SHEET - {site.name}",
         f"campaign: {camp.name}    target: {result.target_name or '-'} (file {camp.target_path.name})",
         f"site: lat {site.latitude_deg:+.3f}  lon {site.longitude_deg:+.3f}  time zone {site.timezone}",
-        f"times: local ({site.timezone}) and UTC; each block starts with {camp.blocks.setup_min:g} min of set-up "
-        "(slew, focus, acquisition), exposures start after it",
+        f"times: local ({site.timezone}) and UTC; each block starts with {camp.block_rules.setup_minutes:g} min "
+        "of set-up (slew, focus, acquisition), exposures start after it",
         "coordinates: astrometric RA/Dec (ICRF, equinox J2000) of the target's mid-block position, as a star "
         "catalogue gives them",
         "",
@@ -56,8 +60,11 @@ def site_sheet(result: PlanResult, site: Site) -> str:
         "",
     ]
     by_night = dict(tuple(t.groupby("night", sort=True)))
-    notes = result.nights[result.nights["site"] == site.name] if result.nights is not None and len(result.nights) \
+    notes = (
+        result.nights[result.nights["site"] == site.name]
+        if result.nights is not None and len(result.nights)
         else pd.DataFrame({"night": sorted(by_night), "note": ""})
+    )
     if not len(notes) and not by_night:
         lines.append("No blocks for this site in this plan.")
     observed = notes["observed_h"] if "observed_h" in notes else pd.Series(0.0, index=notes.index)
@@ -71,17 +78,20 @@ def site_sheet(result: PlanResult, site: Site) -> str:
             lines.append(f"  already observed this night: {obs_h:.2f} h (observation log); the blocks below follow it")
         for k, r in enumerate(rows.itertuples(index=False), 1):
             capped = " (trailing)" if r.exposure_limited_by == "trailing" else ""
-            exp = (f"{r.n_exposures} x {r.exposure_s:.0f} s{capped}" if isinstance(r.exposure_s, float)
-                   and math.isfinite(r.exposure_s) else f"{r.n_exposures} exposures (exposure time not predicted)")
+            exp = (
+                f"{r.n_exposures} x {r.exposure_s:.0f} s{capped}"
+                if isinstance(r.exposure_s, float) and math.isfinite(r.exposure_s)
+                else f"{r.n_exposures} exposures (exposure time not predicted)"
+            )
             lines += [
                 f"  Block {k}: {clock_hm(r.start_local)}-{clock_hm(r.end_local)} local  "
                 f"({clock_hm(r.start_utc)}-{clock_hm(r.end_utc)} UTC, {r.hours:.2f} h); "
                 f"science from {clock_hm(r.science_start_utc)} UTC",
                 f"    point (mid-block): RA {ra_hms(r.ra_deg)}  Dec {dec_dms(r.dec_deg)}",
-                f"    track: {r.motion_arcsec_min:.2f} arcsec/min at PA {r.motion_pa_deg:.0f} deg "
-                f"(RA*cos(Dec) {r.ra_rate_arcsec_min:+.3f}, Dec {r.dec_rate_arcsec_min:+.3f} arcsec/min)",
-                f"    altitude {r.alt_min_deg:.0f}-{r.alt_max_deg:.0f} deg, airmass {r.airmass_min:.2f}-"
-                f"{r.airmass_max:.2f}; Moon {r.moon_sep_deg:.0f} deg away, {100 * r.moon_illum:.0f}% lit",
+                f"    track: {r.motion_arcsec_per_min:.2f} arcsec/min at PA {r.motion_pa_deg:.0f} deg "
+                f"(RA*cos(Dec) {r.ra_rate_arcsec_per_min:+.3f}, Dec {r.dec_rate_arcsec_per_min:+.3f} arcsec/min)",
+                f"    altitude {r.min_alt_deg:.0f}-{r.max_alt_deg:.0f} deg, airmass {r.min_airmass:.2f}-"
+                f"{r.max_airmass:.2f}; Moon {r.moon_sep_deg:.0f} deg away, {100 * r.moon_illum:.0f}% lit",
                 f"    exposures: {exp}; predicted mag {r.mag_pred:.1f}, S/N per exposure "
                 f"{fixed(r.snr_pred, '.0f').strip()}",
             ]

@@ -12,10 +12,12 @@ from planner.outputs.tablefiles import table_for_files
 from planner.pipeline import PlanResult
 
 #: Units of the printed night-by-night table (under it).
-TABLE_LEGEND = ("columns: night = local evening date; local, UTC = block start-end (hh:mm, set-up included); "
-                "h = hours;\n  exp = exposures x seconds; RA, Dec in deg (mid-block); mot = sky motion arcsec/min "
-                "towards PA deg;\n  alt = altitude range deg; X = airmass range; moon = Moon separation deg; "
-                "mag = predicted magnitude; S/N per exposure; ! = a caution below")
+TABLE_LEGEND = (
+    "columns: night = local evening date; local, UTC = block start-end (hh:mm, set-up included); "
+    "h = hours;\n  exp = exposures x seconds; RA, Dec in deg (mid-block); mot = sky motion arcsec/min "
+    "towards PA deg;\n  alt = altitude range deg; X = airmass range; moon = Moon separation deg; "
+    "mag = predicted magnitude; S/N per exposure; ! = a caution below"
+)
 
 
 def _exposures(r) -> str:
@@ -29,8 +31,10 @@ def night_table(blocks: pd.DataFrame) -> str:
     if blocks.empty:
         return "no blocks planned\n"
     t = table_for_files(blocks)
-    head = (f"{'night':10}  {'site':16} {'local':13} {'UTC':13} {'h':>4} {'exp':>9} {'RA':>7} {'Dec':>6} "
-            f"{'mot':>6} {'PA':>4} {'alt':>7} {'X':>9} {'moon':>4} {'mag':>5} {'S/N':>5}")
+    head = (
+        f"{'night':10}  {'site':16} {'local':13} {'UTC':13} {'h':>4} {'exp':>9} {'RA':>7} {'Dec':>6} "
+        f"{'mot':>6} {'PA':>4} {'alt':>7} {'X':>9} {'moon':>4} {'mag':>5} {'S/N':>5}"
+    )
     lines = [head, "-" * len(head)]
     last = None
     for r in t.itertuples(index=False):
@@ -40,10 +44,11 @@ def night_table(blocks: pd.DataFrame) -> str:
         lines.append(
             f"{night:10}  {r.site[:16]:16} {clock_hm(r.start_local)}-{clock_hm(r.end_local)}   "
             f"{clock_hm(r.start_utc)}-{clock_hm(r.end_utc)}   {r.hours:4.1f} {_exposures(r):>9} "
-            f"{fixed(r.ra_deg, '.2f', 7)} {fixed(r.dec_deg, '+.1f', 6)} {fixed(r.motion_arcsec_min, '.2f', 6)} "
-            f"{fixed(r.motion_pa_deg, '.0f', 4)} {fixed(r.alt_min_deg, '.0f', 3)}-{fixed(r.alt_max_deg, '.0f', 3)} "
-            f"{fixed(r.airmass_min, '.2f', 4)}-{fixed(r.airmass_max, '.2f', 4)} {fixed(r.moon_sep_deg, '.0f', 4)} "
-            f"{fixed(r.mag_pred, '.1f', 5)} {fixed(r.snr_pred, '.0f', 5)}{flag}")
+            f"{fixed(r.ra_deg, '.2f', 7)} {fixed(r.dec_deg, '+.1f', 6)} {fixed(r.motion_arcsec_per_min, '.2f', 6)} "
+            f"{fixed(r.motion_pa_deg, '.0f', 4)} {fixed(r.min_alt_deg, '.0f', 3)}-{fixed(r.max_alt_deg, '.0f', 3)} "
+            f"{fixed(r.min_airmass, '.2f', 4)}-{fixed(r.max_airmass, '.2f', 4)} {fixed(r.moon_sep_deg, '.0f', 4)} "
+            f"{fixed(r.mag_pred, '.1f', 5)} {fixed(r.snr_pred, '.0f', 5)}{flag}"
+        )
     lines.append(TABLE_LEGEND)
     return "\n".join(lines) + "\n"
 
@@ -55,9 +60,15 @@ def nights_text(result: PlanResult) -> str:
         return ""
     per = n.groupby("site", sort=False)[["planned_h", "budget_h", "observed_h"]].sum()
     done = per["observed_h"].sum() > 0
-    out = ["hours planned / usable allocation" + (" (+ already observed)" if done else "") + ": "
-           + ", ".join(f"{site} {r.planned_h:.1f}/{r.budget_h:.1f}" + (f" (+{r.observed_h:.1f})" if done else "")
-                       for site, r in per.iterrows())]
+    out = [
+        "hours planned / usable allocation"
+        + (" (+ already observed)" if done else "")
+        + ": "
+        + ", ".join(
+            f"{site} {r.planned_h:.1f}/{r.budget_h:.1f}" + (f" (+{r.observed_h:.1f})" if done else "")
+            for site, r in per.iterrows()
+        )
+    ]
     empty = n[n["blocks"] == 0].sort_values("night", kind="stable")
     if len(empty):
         out.append("site-nights without a block:")
@@ -103,16 +114,18 @@ def comparison_text(result: PlanResult) -> str:
     w = max(len(label) for label, _, _ in rows + [(weather, None, None)])
     head = "plan vs baseline (the baseline: one block per site-night at the highest altitude, same hours)"
     if hours_b < hours_p - 0.05:  # one block a night, capped at max_block_h, cannot hold the plan's hours
-        head = (f"plan vs baseline (the baseline: one block per site-night at the highest altitude, at most "
-                f"{result.campaign.blocks.max_block_h:g} h each, so {hours_p - hours_b:.1f} h fewer than the plan)")
-    out = [head,
-           f"{'':{w}} {'plan':>9} {'baseline':>9}",
-           f"{'telescope hours':{w}} {hours_p:9.1f} {hours_b:9.1f}"]
+        head = (
+            f"plan vs baseline (the baseline: one block per site-night at the highest altitude, at most "
+            f"{result.campaign.block_rules.max_block_h:g} h each, so {hours_p - hours_b:.1f} h fewer than the plan)"
+        )
+    out = [head, f"{'':{w}} {'plan':>9} {'baseline':>9}", f"{'telescope hours':{w}} {hours_p:9.1f} {hours_b:9.1f}"]
     for label, (plan, base), spec in rows:
         out.append(f"{label:{w}} {fixed(plan, spec, 9)} {fixed(base, spec, 9)}")
     rp, rb = rob["plan"], rob["baseline"]
-    out.append(f"{weather:{w}} {rp.expected_worst_period_coverage:5.2f}/{rp.p10_worst_period_coverage:.2f} "
-               f"{rb.expected_worst_period_coverage:5.2f}/{rb.p10_worst_period_coverage:.2f}")
+    out.append(
+        f"{weather:{w}} {rp.expected_worst_period_coverage:5.2f}/{rp.p10_worst_period_coverage:.2f} "
+        f"{rb.expected_worst_period_coverage:5.2f}/{rb.p10_worst_period_coverage:.2f}"
+    )
     line = f"greedy guarantee: {obj.guarantee}"
     if obj.exact is not None:
         ex, ratio = obj.exact.result, obj.exact.greedy_ratio
@@ -120,11 +133,15 @@ def comparison_text(result: PlanResult) -> str:
             line += f"; exact mode: {ex.status}"
         else:
             kind = "optimum" if ex.optimal else "upper bound"
-            line += (f"; exact {kind} {ex.upper_bound_cells:.0f} cells vs coverage-only greedy "
-                     f"{obj.exact.coverage_greedy_cells} (ratio {ratio:.3f}; {ex.status})")
+            line += (
+                f"; exact {kind} {ex.upper_bound_cells:.0f} cells vs coverage-only greedy "
+                f"{obj.exact.coverage_greedy_cells} (ratio {ratio:.3f}; {ex.status})"
+            )
     out.append(line)
     bands = rp.single_site_bands_h
     if bands:
-        out.append("periods seen mostly from one site (fragile if that site clouds out): "
-                   + ", ".join(f"{a:.1f}-{b:.1f} h" for a, b in bands[:6]))
+        out.append(
+            "periods seen mostly from one site (fragile if that site clouds out): "
+            + ", ".join(f"{a:.1f}-{b:.1f} h" for a, b in bands[:6])
+        )
     return "\n".join(out) + "\n"

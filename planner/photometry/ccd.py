@@ -123,14 +123,31 @@ def exposure_for_snr_s(
 
 
 def exposure_for_snr_s_slow(
-    snr: float, source_e_per_s: float, sky_e_per_s_pix: float, dark_e_per_s_pix: float,
-    read_noise_e: float, n_pix: float, *, gain_e_per_adu: float = 0.0,
+    snr: float,
+    source_e_per_s: float,
+    sky_e_per_s_pix: float,
+    dark_e_per_s_pix: float,
+    read_noise_e: float,
+    n_pix: float,
+    *,
+    gain_e_per_adu: float = 0.0,
     n_background_pix: float | None = None,
 ) -> float:
     """Slow twin of :func:`exposure_for_snr_s`: bisection on the monotone S/N(t), one point at a time."""
+
     def snr_at(t: float) -> float:
-        return float(ccd_snr(source_e_per_s, sky_e_per_s_pix, dark_e_per_s_pix, read_noise_e, n_pix, t,
-                             gain_e_per_adu=gain_e_per_adu, n_background_pix=n_background_pix))
+        return float(
+            ccd_snr(
+                source_e_per_s,
+                sky_e_per_s_pix,
+                dark_e_per_s_pix,
+                read_noise_e,
+                n_pix,
+                t,
+                gain_e_per_adu=gain_e_per_adu,
+                n_background_pix=n_background_pix,
+            )
+        )
 
     lo, hi = 0.0, 1.0
     while snr_at(hi) < snr:
@@ -163,7 +180,7 @@ def snr_from_mag_err(mag_err: float) -> float:
 
 
 def trail_limit_s(
-    motion_arcsec_min: np.ndarray | float,
+    motion_arcsec_per_min: np.ndarray | float,
     seeing_arcsec: float,
     fraction: float = 0.5,
     nonsidereal_tracking: bool = False,
@@ -172,7 +189,7 @@ def trail_limit_s(
     tracked frame: t = fraction × seeing / motion (common practice; half the seeing by default).
     Infinite when the mount tracks the target or the target does not move.
     """
-    motion = np.abs(np.asarray(motion_arcsec_min, dtype=float)) / 60.0  # arcsec per second
+    motion = np.abs(np.asarray(motion_arcsec_per_min, dtype=float)) / 60.0  # arcsec per second
     if nonsidereal_tracking:
         return np.full(motion.shape, np.inf)
     with np.errstate(divide="ignore", over="ignore"):  # subnormal motion: no practical limit

@@ -135,7 +135,10 @@ def sky_mag_arcsec2(
     colour_v_minus_band = SUN_MAG_BY_BAND["V"] - SUN_MAG_BY_BAND[band]
     dark = dark_sky_mag_arcsec2(zenith_sky_mag_arcsec2, target_alt_deg, extinction_mag_per_airmass)
     moon_nl = moonlight_nanolambert(
-        moon_alt_deg, target_alt_deg, moon_sep_deg, moon_phase_angle_deg(moon_illum),
+        moon_alt_deg,
+        target_alt_deg,
+        moon_sep_deg,
+        moon_phase_angle_deg(moon_illum),
         extinction_mag_per_airmass,
     )
     # Convert the moonlight to a flux in the band, relative to the dark sky in the same band.

@@ -53,13 +53,28 @@ DEFAULT_RULES = ExposureRules()
 
 #: Columns added by :func:`photometry_columns`, in order.
 PHOTOMETRY_COLUMNS = (
-    "sky_mag_arcsec2", "aperture_arcsec", "aperture_km", "trail_limit_s", "exposure_s",
-    "exposure_limited_by", "snr_pred", "mag_err_pred", "n_stack_for_snr", "n_exposures_per_hour",
+    "sky_mag_arcsec2",
+    "aperture_arcsec",
+    "aperture_km",
+    "trail_limit_s",
+    "exposure_s",
+    "exposure_limited_by",
+    "snr_pred",
+    "mag_err_pred",
+    "n_stack_for_snr",
+    "n_exposures_per_hour",
 )
 
 _GEOMETRY_NEEDS = (
-    "mag_pred", "airmass", "alt_deg", "moon_alt_deg", "moon_sep_deg", "moon_illum", "sun_alt_deg",
-    "motion_arcsec_min", "km_per_arcsec",
+    "mag_pred",
+    "airmass",
+    "alt_deg",
+    "moon_alt_deg",
+    "moon_sep_deg",
+    "moon_illum",
+    "sun_alt_deg",
+    "motion_arcsec_per_min",
+    "km_per_arcsec",
 )
 
 
@@ -105,7 +120,7 @@ def photometry_columns(
 
     ``geom_df`` carries the geometry columns of docs/formats.md (``mag_pred``, ``airmass``,
     ``alt_deg``, ``moon_alt_deg``, ``moon_sep_deg``, ``moon_illum``, ``sun_alt_deg``,
-    ``motion_arcsec_min``, ``km_per_arcsec``; ``helio_dist_au`` and ``obs_dist_au`` for comets).
+    ``motion_arcsec_per_min``, ``km_per_arcsec``; ``helio_dist_au`` and ``obs_dist_au`` for comets).
     Returns a new DataFrame with the same index holding :data:`PHOTOMETRY_COLUMNS` (plus
     ``afrho_cm`` when ``comet``); join it to the geometry.
 
@@ -125,8 +140,9 @@ def photometry_columns(
     the target at or below the horizon or the Sun above ``max_sun_alt_deg`` get NaN predictions.
     """
     comet, point_source = _source_kind(geom_df, comet, point_source)
-    missing = [c for c in _GEOMETRY_NEEDS + (("helio_dist_au", "obs_dist_au") if comet else ())
-               if c not in geom_df.columns]
+    missing = [
+        c for c in _GEOMETRY_NEEDS + (("helio_dist_au", "obs_dist_au") if comet else ()) if c not in geom_df.columns
+    ]
     if missing:
         raise ValueError(f"geometry table lacks column(s) {', '.join(missing)}")
     snr_target = rules.snr_target
@@ -143,13 +159,20 @@ def photometry_columns(
 
     usable = (col["alt_deg"] > 0.0) & (col["sun_alt_deg"] <= max_sun_alt_deg) & np.isfinite(col["mag_pred"])
     sky = sky_mag_arcsec2(
-        inst.sky_mag_per_arcsec2, col["alt_deg"], col["moon_alt_deg"], col["moon_sep_deg"],
-        col["moon_illum"], inst.extinction_mag_per_airmass, band,
+        inst.sky_mag_per_arcsec2,
+        col["alt_deg"],
+        col["moon_alt_deg"],
+        col["moon_sep_deg"],
+        col["moon_illum"],
+        inst.extinction_mag_per_airmass,
+        band,
     )
     if not point_source and aperture_arcsec is None and aperture_km is None:
         aperture_km = COMA_APERTURE_KM  # coma: a fixed physical radius by default
     ap_arcsec, ap_km = aperture_radius_arcsec(
-        col["km_per_arcsec"], aperture_arcsec=aperture_arcsec, aperture_km=aperture_km,
+        col["km_per_arcsec"],
+        aperture_arcsec=aperture_arcsec,
+        aperture_km=aperture_km,
         default_arcsec=inst.seeing_arcsec,
     )
     n_pix = aperture_pixels(ap_arcsec, inst.pixel_scale_arcsec)
@@ -158,14 +181,16 @@ def photometry_columns(
         mag_in_aperture = col["mag_pred"] - 2.5 * np.log10(gaussian_enclosed_fraction(ap_arcsec, inst.seeing_arcsec))
     else:
         mag_in_aperture = coma_aperture_mag(col["mag_pred"], ap_km, coma_radius_km)
-    rate = source_rate_e_per_s(mag_in_aperture, inst.zero_point_mag, inst.extinction_mag_per_airmass,
-                               col["airmass"])
+    rate = source_rate_e_per_s(mag_in_aperture, inst.zero_point_mag, inst.extinction_mag_per_airmass, col["airmass"])
     sky_rate = sky_rate_e_per_s_pix(sky, inst.zero_point_mag, inst.pixel_scale_arcsec)
-    noise = dict(dark_e_per_s_pix=inst.dark_e_per_s, read_noise_e=inst.read_noise_e, n_pix=n_pix,
-                 gain_e_per_adu=inst.gain_e_per_adu)
+    noise = dict(
+        dark_e_per_s_pix=inst.dark_e_per_s,
+        read_noise_e=inst.read_noise_e,
+        n_pix=n_pix,
+        gain_e_per_adu=inst.gain_e_per_adu,
+    )
 
-    trail = trail_limit_s(col["motion_arcsec_min"], inst.seeing_arcsec, trail_fraction,
-                          inst.nonsidereal_tracking)
+    trail = trail_limit_s(col["motion_arcsec_per_min"], inst.seeing_arcsec, trail_fraction, inst.nonsidereal_tracking)
     wanted = exposure_for_snr_s(snr_target, rate, sky_rate, **noise)
     upper = np.minimum(max_exposure_s, trail)
     t = np.minimum(np.maximum(wanted, min_exposure_s), upper)
@@ -173,7 +198,8 @@ def photometry_columns(
     # (S/N above goal) or the ceiling.
     limited = np.select(
         [np.isclose(t, wanted, rtol=1e-12, atol=0.0), t == trail, t > wanted],
-        ["snr", "trailing", "min_exposure"], "max_exposure",
+        ["snr", "trailing", "min_exposure"],
+        "max_exposure",
     ).astype(object)
     if exposure_s is not None:  # logged exposures where given (finite), the plan elsewhere
         given = np.broadcast_to(np.asarray(exposure_s, dtype=float), rate.shape)
@@ -200,8 +226,11 @@ def photometry_columns(
     out["n_exposures_per_hour"] = pd.array(np.where(usable, per_hour, nan), dtype="Int64")
     if comet:
         afrho = afrho_cm(
-            mag_in_aperture, SUN_MAG_BY_BAND[band], geom_df["helio_dist_au"].to_numpy(dtype=float),
-            geom_df["obs_dist_au"].to_numpy(dtype=float), ap_km,
+            mag_in_aperture,
+            SUN_MAG_BY_BAND[band],
+            geom_df["helio_dist_au"].to_numpy(dtype=float),
+            geom_df["obs_dist_au"].to_numpy(dtype=float),
+            ap_km,
         )
         out["afrho_cm"] = np.full(afrho.shape, np.nan) if point_source else afrho
     return out
@@ -224,7 +253,11 @@ def add_photometry(frames: dict[str, pd.DataFrame], sites: Sequence[Site], **kwa
 
 
 def window_photometry(
-    windows_df: pd.DataFrame, target: Target, sites: Sequence[Site], *, time_column: str = "best_utc",
+    windows_df: pd.DataFrame,
+    target: Target,
+    sites: Sequence[Site],
+    *,
+    time_column: str = "best_utc",
     **kwargs: Any,
 ) -> pd.DataFrame:
     """Photometry columns for each observing window (``planner.visibility.windows.observable_windows`` rows),
@@ -247,8 +280,12 @@ def window_photometry(
         block_h = rows["hours"].to_numpy(dtype=float)
         if "night_budget_h" in rows:
             block_h = np.fmin(block_h, rows["night_budget_h"].to_numpy(dtype=float))
-        n = exposures_per_block(block_h * 3600.0, phot["exposure_s"].to_numpy(dtype=float),
-                                site.instrument.readout_s, site.instrument.overhead_s)
+        n = exposures_per_block(
+            block_h * 3600.0,
+            phot["exposure_s"].to_numpy(dtype=float),
+            site.instrument.readout_s,
+            site.instrument.overhead_s,
+        )
         phot["n_exposures_window"] = pd.array(np.where(phot["exposure_s"].notna(), n, np.nan), dtype="Int64")
         parts.append(phot)
     if not parts:
@@ -336,6 +373,9 @@ def log_mag_err(
         model = mag_err_for_times(target, times, site_names, sites, exposure_s=exposure_s, **kwargs)
     from_model = ~from_log & np.isfinite(model)
     err = np.where(from_log, err, np.where(from_model, model, float(fallback_mag_err)))
-    counts = {"log": int(from_log.sum()), "model": int(from_model.sum()),
-              "fallback": int((~from_log & ~from_model).sum())}
+    counts = {
+        "log": int(from_log.sum()),
+        "model": int(from_model.sum()),
+        "fallback": int((~from_log & ~from_model).sum()),
+    }
     return err, counts

@@ -34,12 +34,12 @@ def _levels(caps: np.ndarray, total: int) -> np.ndarray:
 
 def baseline_visits(grid: SlotGrid, windows: pd.DataFrame, total_slots: int) -> list[Visit]:
     """One visit per usable site-night around the window's highest-altitude time (``best_utc``)."""
-    if not grid.parts or total_slots <= 0:
+    if not grid.site_nights or total_slots <= 0:
         return []
     w = windows[windows["best_utc"].notna()].copy()
     w["_night"] = pd.to_datetime(w["night"]).dt.date
     best, caps, homes = [], [], []
-    for part in grid.parts:
+    for part in grid.site_nights:
         rows = w[(w["site"] == part.site) & (w["_night"] == part.night)]
         if len(rows):
             row = rows.loc[rows["max_alt_deg"].idxmax()] if "max_alt_deg" in rows else rows.iloc[0]
@@ -59,4 +59,4 @@ def baseline_visits(grid: SlotGrid, windows: pd.DataFrame, total_slots: int) -> 
             continue
         start = int(np.clip(b - n // 2, home[0], home[1] - n))
         visits.append(Visit(pi, start, n))
-    return sorted(visits, key=lambda v: (v.start, v.part))
+    return sorted(visits, key=lambda v: (v.start, v.site_night))

@@ -24,10 +24,35 @@ from planner.visibility.nights import local_iso
 
 #: Columns of plan.csv / baseline.csv, in order (documented in docs/formats.md).
 BLOCK_COLUMNS = (
-    "site", "night", "start_utc", "end_utc", "start_local", "end_local", "hours", "setup_min", "science_start_utc",
-    "n_exposures", "exposure_s", "exposure_limited_by", "ra_deg", "dec_deg", "motion_arcsec_min", "motion_pa_deg",
-    "ra_rate_arcsec_min", "dec_rate_arcsec_min", "alt_min_deg", "alt_max_deg", "airmass_min", "airmass_max",
-    "moon_sep_deg", "moon_illum", "mag_pred", "snr_pred", "mag_err_pred", "solar_elong_deg", "sun_alt_max_deg",
+    "site",
+    "night",
+    "start_utc",
+    "end_utc",
+    "start_local",
+    "end_local",
+    "hours",
+    "setup_minutes",
+    "science_start_utc",
+    "n_exposures",
+    "exposure_s",
+    "exposure_limited_by",
+    "ra_deg",
+    "dec_deg",
+    "motion_arcsec_per_min",
+    "motion_pa_deg",
+    "ra_rate_arcsec_per_min",
+    "dec_rate_arcsec_per_min",
+    "min_alt_deg",
+    "max_alt_deg",
+    "min_airmass",
+    "max_airmass",
+    "moon_sep_deg",
+    "moon_illum",
+    "mag_pred",
+    "snr_pred",
+    "mag_err_pred",
+    "solar_elong_deg",
+    "max_sun_alt_deg",
     "cautions",
 )
 #: Exposure used where a site has no instrument description (common practice for a first look).
@@ -36,12 +61,15 @@ DEFAULT_READOUT_S = 10.0
 
 
 def _empty() -> tuple[pd.DataFrame, pd.DataFrame]:
-    return (pd.DataFrame({c: [] for c in BLOCK_COLUMNS}),
-            pd.DataFrame({"time_utc": np.array([], dtype="datetime64[ns]"), "site": [], "mag_err": [], "airmass": []}))
+    return (
+        pd.DataFrame({c: [] for c in BLOCK_COLUMNS}),
+        pd.DataFrame({"time_utc": np.array([], dtype="datetime64[ns]"), "site": [], "mag_err": [], "airmass": []}),
+    )
 
 
-def block_table(visits: list[Visit], grid: SlotGrid, target: Target, sites: tuple[Site, ...] | list[Site],
-                rules: ExposureRules) -> tuple[pd.DataFrame, pd.DataFrame]:
+def block_table(
+    visits: list[Visit], grid: SlotGrid, target: Target, sites: tuple[Site, ...] | list[Site], rules: ExposureRules
+) -> tuple[pd.DataFrame, pd.DataFrame]:
     """One row per visit (BLOCK_COLUMNS), and the planned exposures (time_utc, site, mag_err, airmass;
     the airmass interpolated between the slot-boundary samples)."""
     if not visits:
@@ -49,9 +77,9 @@ def block_table(visits: list[Visit], grid: SlotGrid, target: Target, sites: tupl
     by_name = {s.name: s for s in sites}
     rows, exposures = [], []
     comet = getattr(target, "kind", "comet") == "comet"
-    setup_min = grid.setup_slots * grid.slot_s / 60.0
-    order = sorted(range(len(visits)), key=lambda i: (grid.slot_time(visits[i].start), visits[i].part))
-    site_of = [grid.parts[v.part].site for v in visits]
+    setup_minutes = grid.setup_slots * grid.slot_s / 60.0
+    order = sorted(range(len(visits)), key=lambda i: (grid.slot_time(visits[i].start), visits[i].site_night))
+    site_of = [grid.site_nights[v.site_night].site for v in visits]
     for name in dict.fromkeys(site_of):  # one geometry call per site (all its visits), not per epoch
         site = by_name[name]
         mine = [i for i in order if site_of[i] == name]
@@ -67,12 +95,20 @@ def block_table(visits: list[Visit], grid: SlotGrid, target: Target, sites: tupl
         t_mid = grid.t_ref + mid_ns.astype("timedelta64[ns]")
         geo = geometry(target, np.concatenate([t_samples, t_mid]), [site])[name]
         samples = geo.iloc[: t_samples.size].reset_index(drop=True)
-        mid = geo.iloc[t_samples.size:].reset_index(drop=True)
+        mid = geo.iloc[t_samples.size :].reset_index(drop=True)
         which = np.repeat(np.arange(len(mine)), counts)
-        agg = samples.assign(_b=which).groupby("_b").agg(
-            alt_min_deg=("alt_deg", "min"), alt_max_deg=("alt_deg", "max"), airmass_min=("airmass", "min"),
-            airmass_max=("airmass", "max"), sun_alt_max_deg=("sun_alt_deg", "max"),
-            solar_elong_deg=("solar_elong_deg", "min"))
+        agg = (
+            samples.assign(_b=which)
+            .groupby("_b")
+            .agg(
+                min_alt_deg=("alt_deg", "min"),
+                max_alt_deg=("alt_deg", "max"),
+                min_airmass=("airmass", "min"),
+                max_airmass=("airmass", "max"),
+                max_sun_alt_deg=("sun_alt_deg", "max"),
+                solar_elong_deg=("solar_elong_deg", "min"),
+            )
+        )
         inst = site.instrument
         science_s = (lengths - grid.setup_slots) * grid.slot_s
         if inst is not None:
@@ -98,21 +134,40 @@ def block_table(visits: list[Visit], grid: SlotGrid, target: Target, sites: tupl
         for k, i in enumerate(mine):
             v = visits[i]
             m = mid.iloc[k]
-            rows.append(dict(
-                _order=order.index(i), site=name, night=grid.parts[v.part].night.isoformat(),
-                start_utc=t_start[k], end_utc=t_stop[k], start_local=start_local[k], end_local=end_local[k],
-                hours=v.length * grid.slot_s / 3600.0, setup_min=setup_min, science_start_utc=t_sci[k],
-                n_exposures=int(n_exp[k]), exposure_s=float(exp_s[k]) if np.isfinite(exp_s[k]) else np.nan,
-                exposure_limited_by=str(limited[k]),
-                ra_deg=float(m["ra_deg"]), dec_deg=float(m["dec_deg"]),
-                motion_arcsec_min=float(m["motion_arcsec_min"]), motion_pa_deg=float(m["motion_pa_deg"]),
-                ra_rate_arcsec_min=float(m["ra_rate_arcsec_min"]), dec_rate_arcsec_min=float(m["dec_rate_arcsec_min"]),
-                alt_min_deg=float(agg["alt_min_deg"].iloc[k]), alt_max_deg=float(agg["alt_max_deg"].iloc[k]),
-                airmass_min=float(agg["airmass_min"].iloc[k]), airmass_max=float(agg["airmass_max"].iloc[k]),
-                moon_sep_deg=float(m["moon_sep_deg"]), moon_illum=float(m["moon_illum"]),
-                mag_pred=float(m["mag_pred"]), snr_pred=float(snr[k]), mag_err_pred=float(err[k]),
-                solar_elong_deg=float(agg["solar_elong_deg"].iloc[k]),
-                sun_alt_max_deg=float(agg["sun_alt_max_deg"].iloc[k])))
+            rows.append(
+                dict(
+                    _order=order.index(i),
+                    site=name,
+                    night=grid.site_nights[v.site_night].night.isoformat(),
+                    start_utc=t_start[k],
+                    end_utc=t_stop[k],
+                    start_local=start_local[k],
+                    end_local=end_local[k],
+                    hours=v.length * grid.slot_s / 3600.0,
+                    setup_minutes=setup_minutes,
+                    science_start_utc=t_sci[k],
+                    n_exposures=int(n_exp[k]),
+                    exposure_s=float(exp_s[k]) if np.isfinite(exp_s[k]) else np.nan,
+                    exposure_limited_by=str(limited[k]),
+                    ra_deg=float(m["ra_deg"]),
+                    dec_deg=float(m["dec_deg"]),
+                    motion_arcsec_per_min=float(m["motion_arcsec_per_min"]),
+                    motion_pa_deg=float(m["motion_pa_deg"]),
+                    ra_rate_arcsec_per_min=float(m["ra_rate_arcsec_per_min"]),
+                    dec_rate_arcsec_per_min=float(m["dec_rate_arcsec_per_min"]),
+                    min_alt_deg=float(agg["min_alt_deg"].iloc[k]),
+                    max_alt_deg=float(agg["max_alt_deg"].iloc[k]),
+                    min_airmass=float(agg["min_airmass"].iloc[k]),
+                    max_airmass=float(agg["max_airmass"].iloc[k]),
+                    moon_sep_deg=float(m["moon_sep_deg"]),
+                    moon_illum=float(m["moon_illum"]),
+                    mag_pred=float(m["mag_pred"]),
+                    snr_pred=float(snr[k]),
+                    mag_err_pred=float(err[k]),
+                    solar_elong_deg=float(agg["solar_elong_deg"].iloc[k]),
+                    max_sun_alt_deg=float(agg["max_sun_alt_deg"].iloc[k]),
+                )
+            )
             n = int(n_exp[k])
             if n > 0:
                 cycle_ns = np.int64(round((plan_exp[k] + readout) * 1e9))
@@ -121,14 +176,20 @@ def block_table(visits: list[Visit], grid: SlotGrid, target: Target, sites: tupl
                 sel = which == k
                 t_s = (t_samples[sel] - grid.t_ref).astype(np.int64)
                 x_exp = np.interp((t_exp - grid.t_ref).astype(np.int64), t_s, samples["airmass"].to_numpy(float)[sel])
-                exposures.append(pd.DataFrame({"time_utc": t_exp, "site": name, "mag_err": float(err[k]),
-                                               "airmass": x_exp}))
+                exposures.append(
+                    pd.DataFrame({"time_utc": t_exp, "site": name, "mag_err": float(err[k]), "airmass": x_exp})
+                )
     table = pd.DataFrame(rows).sort_values("_order").drop(columns="_order").reset_index(drop=True)
     limit = table["site"].map({s.name: s.min_solar_elong_deg for s in sites}).to_numpy(dtype=float)
     table["cautions"] = block_caution_kinds(
-        table["solar_elong_deg"].to_numpy(float), limit, table["sun_alt_max_deg"].to_numpy(float),
-        table["airmass_max"].to_numpy(float), rules.max_airmass, table["moon_sep_deg"].to_numpy(float),
-        table["moon_illum"].to_numpy(float))
+        table["solar_elong_deg"].to_numpy(float),
+        limit,
+        table["max_sun_alt_deg"].to_numpy(float),
+        table["max_airmass"].to_numpy(float),
+        rules.max_airmass,
+        table["moon_sep_deg"].to_numpy(float),
+        table["moon_illum"].to_numpy(float),
+    )
     table = table[list(BLOCK_COLUMNS)]
     exp = pd.concat(exposures, ignore_index=True) if exposures else _empty()[1]
     return table, exp.sort_values("time_utc", kind="stable").reset_index(drop=True)
@@ -148,8 +209,14 @@ def binned_points(exposures: pd.DataFrame, t_ref: np.datetime64, bin_s: float) -
     t = exposures["time_utc"].to_numpy("datetime64[ns]")
     ns = (t - np.datetime64(t_ref, "ns")).astype(np.int64)
     key = ns // np.int64(round(bin_s * 1e9))
-    df = pd.DataFrame({"site": exposures["site"].to_numpy(), "key": key, "ns": ns,
-                       "w": 1.0 / np.square(exposures["mag_err"].to_numpy(dtype=float))})
+    df = pd.DataFrame(
+        {
+            "site": exposures["site"].to_numpy(),
+            "key": key,
+            "ns": ns,
+            "w": 1.0 / np.square(exposures["mag_err"].to_numpy(dtype=float)),
+        }
+    )
     if "airmass" in exposures:
         df["airmass"] = exposures["airmass"].to_numpy(dtype=float)
     g = df.groupby(["site", "key"], sort=False)
@@ -158,9 +225,14 @@ def binned_points(exposures: pd.DataFrame, t_ref: np.datetime64, bin_s: float) -
     err = np.full(w.shape, np.nan)
     known = np.isfinite(w) & (w > 0)
     err[known] = 1.0 / np.sqrt(w[known])
-    out = pd.DataFrame({"time_utc": np.datetime64(t_ref, "ns") + mean_ns.to_numpy().astype("timedelta64[ns]"),
-                        "site": [s for s, _ in mean_ns.index], "mag_err": err,
-                        "n_frames": g.size().to_numpy()})
+    out = pd.DataFrame(
+        {
+            "time_utc": np.datetime64(t_ref, "ns") + mean_ns.to_numpy().astype("timedelta64[ns]"),
+            "site": [s for s, _ in mean_ns.index],
+            "mag_err": err,
+            "n_frames": g.size().to_numpy(),
+        }
+    )
     if "airmass" in df:
         out["airmass"] = g["airmass"].mean().to_numpy()
     return out.sort_values("time_utc", kind="stable").reset_index(drop=True)

@@ -55,13 +55,25 @@ def exact_coverage(model: PlanModel, time_limit_s: float = 60.0, greedy_cells: i
     free = np.flatnonzero(~done)
     n_e = grid.n_elements
     if greedy_cells is not None and greedy_cells >= model.n_cells:
-        return ExactResult(int(greedy_cells), [], float(model.n_cells), True, time.perf_counter() - t_start,
-                           "the greedy covers every cell, so it is optimal (no programme needed)")
+        return ExactResult(
+            int(greedy_cells),
+            [],
+            float(model.n_cells),
+            True,
+            time.perf_counter() - t_start,
+            "the greedy covers every cell, so it is optimal (no programme needed)",
+        )
     incidence = int(np.bitwise_count(model.element_packed()).sum())
     if incidence > MAX_INCIDENCE:
-        return ExactResult(int(done.sum()), [], float(model.n_cells), False, time.perf_counter() - t_start,
-                           f"not attempted: {incidence:,} element-cell pairs exceed {MAX_INCIDENCE:,}; "
-                           "the benchmark measures the gap on smaller instances")
+        return ExactResult(
+            int(done.sum()),
+            [],
+            float(model.n_cells),
+            False,
+            time.perf_counter() - t_start,
+            f"not attempted: {incidence:,} element-cell pairs exceed {MAX_INCIDENCE:,}; "
+            "the benchmark measures the gap on smaller instances",
+        )
     rows, cols = [], []
     for i in range(0, n_e, _CHUNK):
         idx = np.arange(i, min(i + _CHUNK, n_e))
@@ -76,18 +88,27 @@ def exact_coverage(model: PlanModel, time_limit_s: float = 60.0, greedy_cells: i
     # Variables: [x (n_e) | y (n_c)].
     a_cover = sparse.hstack([-touch, sparse.identity(n_c, format="csr")], format="csr")
     cons = [LinearConstraint(a_cover, -np.inf, 0.0)]
-    part_rows = sparse.csr_matrix((np.ones(n_e), (grid.elem_part, np.arange(n_e))), shape=(len(grid.parts), n_e))
-    cap = np.array([p.capacity for p in grid.parts], dtype=float)
-    cons.append(LinearConstraint(sparse.hstack([part_rows, sparse.csr_matrix((len(grid.parts), n_c))]), -np.inf, cap))
+    part_rows = sparse.csr_matrix(
+        (np.ones(n_e), (grid.elem_site_night, np.arange(n_e))), shape=(len(grid.site_nights), n_e)
+    )
+    cap = np.array([p.capacity for p in grid.site_nights], dtype=float)
+    cons.append(
+        LinearConstraint(sparse.hstack([part_rows, sparse.csr_matrix((len(grid.site_nights), n_c))]), -np.inf, cap)
+    )
     if grid.site_budget_slots:
-        site_of = np.array([grid.parts[p].site_index for p in grid.elem_part], dtype=np.int64)
+        site_of = np.array([grid.site_nights[p].site_index for p in grid.elem_site_night], dtype=np.int64)
         for si, budget in sorted(grid.site_budget_slots.items()):
             row = np.where(site_of == si, grid.elem_len, 0).astype(float)
             cons.append(LinearConstraint(np.concatenate([row, np.zeros(n_c)])[None, :], -np.inf, float(budget)))
     objective = np.concatenate([np.zeros(n_e), -np.ones(n_c)])
     integrality = np.concatenate([np.ones(n_e), np.zeros(n_c)])
-    res = milp(objective, constraints=cons, integrality=integrality, bounds=Bounds(0.0, 1.0),
-               options={"time_limit": float(time_limit_s), "disp": False})
+    res = milp(
+        objective,
+        constraints=cons,
+        integrality=integrality,
+        bounds=Bounds(0.0, 1.0),
+        options={"time_limit": float(time_limit_s), "disp": False},
+    )
     seconds = time.perf_counter() - t_start
     n_done = int(done.sum())
     if res.x is None:

@@ -59,11 +59,10 @@ class GreedyResult:
 
     def guarantee(self, grid: SlotGrid) -> tuple[float | None, str]:
         """The proven approximation ratio for the constraints met in this run, and its source."""
-        of = ("on coverage + slot quality and hours credit (monotone submodular)" if self.with_credit
-              else "on coverage")
+        of = "on coverage + slot quality and hours credit (monotone submodular)" if self.with_credit else "on coverage"
         if self.extra_rule_bound:
             return None, "none proven (longest-visit or site-budget rule was binding); see the exact mode's gap"
-        if len(grid.parts) == 1 and not grid.site_budget_slots:
+        if len(grid.site_nights) == 1 and not grid.site_budget_slots:
             return 1.0 - 1.0 / np.e, f"1 - 1/e {of} under a cardinality constraint (Nemhauser, Wolsey & Fisher 1978)"
         return 0.5, f"1/2 {of} under a partition (laminar) matroid (Fisher, Nemhauser & Wolsey 1978)"
 
@@ -73,7 +72,7 @@ class Feasibility:
 
     def __init__(self, grid: SlotGrid) -> None:
         self.grid = grid
-        self.count = np.zeros(len(grid.parts), dtype=np.int64)
+        self.count = np.zeros(len(grid.site_nights), dtype=np.int64)
         self.site_used = np.zeros(len(grid.site_names), dtype=np.int64)
         self.runs: dict[int, list[tuple[int, int]]] = {}
         self.extra_rule_bound = False
@@ -87,8 +86,8 @@ class Feasibility:
 
     def ok(self, e: int) -> bool:
         g = self.grid
-        p = int(g.elem_part[e])
-        part = g.parts[p]
+        p = int(g.elem_site_night[e])
+        part = g.site_nights[p]
         if self.count[p] >= part.capacity:
             return False
         unit = int(g.elem_len[e])
@@ -105,9 +104,9 @@ class Feasibility:
 
     def add(self, e: int) -> None:
         g = self.grid
-        p = int(g.elem_part[e])
+        p = int(g.elem_site_night[e])
         self.count[p] += 1
-        self.site_used[g.parts[p].site_index] += int(g.elem_len[e])
+        self.site_used[g.site_nights[p].site_index] += int(g.elem_len[e])
         start = int(g.elem_start[e])
         self.runs.setdefault(p, []).append((start, start + int(g.elem_len[e])))
 
@@ -143,11 +142,12 @@ class _Gains:
     def take(self, e: int) -> None:
         self.covered |= self.packed[e]
         if self.credit is not None:
-            self.taken[int(self.credit.elem_i0[e]):int(self.credit.elem_i1[e])] = True
+            self.taken[int(self.credit.elem_i0[e]) : int(self.credit.elem_i1[e])] = True
 
 
-def greedy_lazy(grid: SlotGrid, packed: np.ndarray, covered0: np.ndarray,
-                credit: SlotCredit | None = None) -> GreedyResult:
+def greedy_lazy(
+    grid: SlotGrid, packed: np.ndarray, covered0: np.ndarray, credit: SlotCredit | None = None
+) -> GreedyResult:
     """Lazy greedy (Minoux 1978) on packed element cells ``packed`` (E, W), starting from ``covered0`` (W,);
     with ``credit``, on coverage plus the slots' quality and hours credit (see the module docstring)."""
     gain = _Gains(packed, covered0, credit)
@@ -176,8 +176,9 @@ def greedy_lazy(grid: SlotGrid, packed: np.ndarray, covered0: np.ndarray,
     return GreedyResult(chosen, gains, covered, evaluations, feas.extra_rule_bound, credit is not None)
 
 
-def greedy_plain(grid: SlotGrid, packed: np.ndarray, covered0: np.ndarray,
-                 credit: SlotCredit | None = None) -> GreedyResult:
+def greedy_plain(
+    grid: SlotGrid, packed: np.ndarray, covered0: np.ndarray, credit: SlotCredit | None = None
+) -> GreedyResult:
     """Slow twin of :func:`greedy_lazy`: rescan every feasible element at every step."""
     gain = _Gains(packed, covered0, credit)
     feas = Feasibility(grid)
@@ -207,7 +208,7 @@ def merge_elements(grid: SlotGrid, elements: list[int]) -> list[Visit]:
     by_part: dict[int, list[tuple[int, int]]] = {}
     for e in elements:
         s = int(grid.elem_start[e])
-        by_part.setdefault(int(grid.elem_part[e]), []).append((s, s + int(grid.elem_len[e])))
+        by_part.setdefault(int(grid.elem_site_night[e]), []).append((s, s + int(grid.elem_len[e])))
     visits = []
     for p, runs in by_part.items():
         runs.sort()
@@ -219,4 +220,4 @@ def merge_elements(grid: SlotGrid, elements: list[int]) -> list[Visit]:
                 visits.append(Visit(p, lo, hi - lo))
                 lo, hi = a, b
         visits.append(Visit(p, lo, hi - lo))
-    return sorted(visits, key=lambda v: (v.start, v.part))
+    return sorted(visits, key=lambda v: (v.start, v.site_night))

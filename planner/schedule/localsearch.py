@@ -38,12 +38,12 @@ def fits(grid: SlotGrid, visits: list[Visit], new: Visit, ignore: Visit | None =
     """Whether ``new`` may join ``visits`` (minus ``ignore``): inside a usable interval, length rules,
     at least one free slot from the site-night's other visits, the night's count and hour budget,
     and the site's whole-campaign budget."""
-    part = grid.parts[new.part]
+    part = grid.site_nights[new.site_night]
     if new.length < grid.min_slots or new.length > grid.max_slots or new.length <= grid.setup_slots:
         return False
     if not part.contains(new.start, new.stop):
         return False
-    same = [v for v in visits if v.part == new.part and v != ignore]
+    same = [v for v in visits if v.site_night == new.site_night and v != ignore]
     if len(same) + 1 > grid.max_per_night:
         return False
     if sum(v.length for v in same) + new.length > part.budget_slots:
@@ -53,7 +53,9 @@ def fits(grid: SlotGrid, visits: list[Visit], new: Visit, ignore: Visit | None =
             return False
     budget = grid.site_budget_slots.get(part.site_index)
     if budget is not None:
-        used = sum(v.length for v in visits if v != ignore and grid.parts[v.part].site_index == part.site_index)
+        used = sum(
+            v.length for v in visits if v != ignore and grid.site_nights[v.site_night].site_index == part.site_index
+        )
         if used + new.length > budget:
             return False
     return True
@@ -62,10 +64,14 @@ def fits(grid: SlotGrid, visits: list[Visit], new: Visit, ignore: Visit | None =
 def _neighbours(v: Visit) -> list[Visit]:
     out = []
     for d in _SHIFTS:
-        out += [Visit(v.part, v.start + d, v.length), Visit(v.part, v.start - d, v.length)]
+        out += [Visit(v.site_night, v.start + d, v.length), Visit(v.site_night, v.start - d, v.length)]
     for d in _RESIZE:
-        out += [Visit(v.part, v.start - d, v.length + d), Visit(v.part, v.start, v.length + d),
-                Visit(v.part, v.start + d, v.length - d), Visit(v.part, v.start, v.length - d)]
+        out += [
+            Visit(v.site_night, v.start - d, v.length + d),
+            Visit(v.site_night, v.start, v.length + d),
+            Visit(v.site_night, v.start + d, v.length - d),
+            Visit(v.site_night, v.start, v.length - d),
+        ]
     return out
 
 
@@ -77,8 +83,13 @@ def element_credit(state: PlanState) -> tuple[float, np.ndarray]:
     return c.cell_weight, cum[c.elem_i1] - cum[c.elem_i0]
 
 
-def _candidates(state: PlanState, packed: np.ndarray, rng: np.random.Generator,
-                ignore: Visit | None, credit: tuple[float, np.ndarray] | None = None) -> list[Visit]:
+def _candidates(
+    state: PlanState,
+    packed: np.ndarray,
+    rng: np.random.Generator,
+    ignore: Visit | None,
+    credit: tuple[float, np.ndarray] | None = None,
+) -> list[Visit]:
     """Greedy elements that could be added now: the best by the greedy's gain (coverage plus slot
     credit; an element never overlaps a kept visit of its site-night) plus a few at random."""
     grid = state.model.grid
@@ -96,16 +107,16 @@ def _candidates(state: PlanState, packed: np.ndarray, rng: np.random.Generator,
         gains = credit[0] * gains + credit[1]
     # Cheap vectorised screen: the site-night has room for another visit of its unit length.
     others = [v for v in state.visits if v != ignore]
-    n_in = np.zeros(len(grid.parts), dtype=np.int64)
-    used = np.zeros(len(grid.parts), dtype=np.int64)
+    n_in = np.zeros(len(grid.site_nights), dtype=np.int64)
+    used = np.zeros(len(grid.site_nights), dtype=np.int64)
     for v in others:
-        n_in[v.part] += 1
-        used[v.part] += v.length
-    budget = np.array([p.budget_slots for p in grid.parts])
-    room = (n_in < grid.max_per_night) & (budget - used >= np.array([p.unit_slots for p in grid.parts]))
-    ok = room[grid.elem_part]
+        n_in[v.site_night] += 1
+        used[v.site_night] += v.length
+    budget = np.array([p.budget_slots for p in grid.site_nights])
+    room = (n_in < grid.max_per_night) & (budget - used >= np.array([p.unit_slots for p in grid.site_nights]))
+    ok = room[grid.elem_site_night]
     for v in others:
-        same = grid.elem_part == v.part
+        same = grid.elem_site_night == v.site_night
         clash = (grid.elem_start <= v.stop) & (v.start <= grid.elem_start + grid.elem_len)
         ok &= ~(same & clash)
     idx = np.flatnonzero(ok)
@@ -118,14 +129,15 @@ def _candidates(state: PlanState, packed: np.ndarray, rng: np.random.Generator,
         picks += list(rng.choice(rest, size=min(_RANDOM_K, rest.size), replace=False))
     out = []
     for e in picks:
-        v = Visit(int(grid.elem_part[e]), int(grid.elem_start[e]), int(grid.elem_len[e]))
+        v = Visit(int(grid.elem_site_night[e]), int(grid.elem_start[e]), int(grid.elem_len[e]))
         if fits(grid, others, v):
             out.append(v)
     return out
 
 
-def local_search(state: PlanState, packed: np.ndarray, seed: int, max_evaluations: int = 6000,
-                 max_passes: int = 30) -> SearchStats:
+def local_search(
+    state: PlanState, packed: np.ndarray, seed: int, max_evaluations: int = 6000, max_passes: int = 30
+) -> SearchStats:
     """Improve ``state`` in place by first-improvement moves; see the module docstring."""
     grid = state.model.grid
     rng = np.random.default_rng(seed)

@@ -38,8 +38,7 @@ import numpy as np
 _WORD = 64
 
 
-def arc_bins(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray,
-             n_bins: int) -> tuple[np.ndarray, np.ndarray]:
+def arc_bins(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray, n_bins: int) -> tuple[np.ndarray, np.ndarray]:
     """First phase bin and number of bins touched by each interval on each period: int arrays (N, P).
 
     Phase zero is at t = 0. An interval as long as the period touches every bin.
@@ -156,8 +155,9 @@ def point_window_sum(times_h: np.ndarray, freq_per_day: np.ndarray) -> np.ndarra
     return np.exp(2j * np.pi * np.outer(t, nu)).sum(axis=0)
 
 
-def alias_freq_grid(min_period_h: float, max_period_h: float, baseline_h: float, double_peaked: bool,
-                    oversample: float = 5.0) -> np.ndarray:
+def alias_freq_grid(
+    min_period_h: float, max_period_h: float, span_h: float, double_peaked: bool, oversample: float = 5.0
+) -> np.ndarray:
     """Window frequencies (cycles/day) whose aliases land inside the searched band.
 
     A window peak at ν moves power from f to f ± ν (VanderPlas 2018, ApJS 236, 16, §7.2); with
@@ -167,7 +167,7 @@ def alias_freq_grid(min_period_h: float, max_period_h: float, baseline_h: float,
     harm = 2.0 if double_peaked else 1.0
     f_lo = harm * 24.0 / max_period_h
     f_hi = harm * 24.0 / min_period_h
-    t_day = max(baseline_h / 24.0, 1.0)
+    t_day = max(span_h / 24.0, 1.0)
     nu_lo = 2.0 / t_day
     nu_hi = max(f_hi - f_lo, nu_lo * 2.0)
     step = 1.0 / (oversample * t_day)

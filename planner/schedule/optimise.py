@@ -44,9 +44,17 @@ def optimise(model: PlanModel, seed: int, max_evaluations: int = 6000) -> Optimi
     stats = local_search(state, packed, seed=seed, max_evaluations=max_evaluations)
     t3 = time.perf_counter()
     ratio, text = g.guarantee(model.grid)
-    return Optimised(visits=list(state.visits), terms=state.current, greedy=g, greedy_visits=greedy_visits,
-                     greedy_terms=greedy_terms, search=stats, guarantee_ratio=ratio, guarantee=text,
-                     seconds={"elements": t1 - t0, "greedy": t2 - t1, "local_search": t3 - t2})
+    return Optimised(
+        visits=list(state.visits),
+        terms=state.current,
+        greedy=g,
+        greedy_visits=greedy_visits,
+        greedy_terms=greedy_terms,
+        search=stats,
+        guarantee_ratio=ratio,
+        guarantee=text,
+        seconds={"elements": t1 - t0, "greedy": t2 - t1, "local_search": t3 - t2},
+    )
 
 
 def greedy_cells_fraction(model: PlanModel, g: GreedyResult) -> float:

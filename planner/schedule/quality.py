@@ -32,15 +32,15 @@ from planner.schedule.slots import SlotGrid
 from planner.sky.geometry import geometry
 
 
-def point_sigma_mag(frame_err_mag: np.ndarray, n_frames: np.ndarray, airmass: np.ndarray,
-                    sys_err_mag_per_airmass: float) -> np.ndarray:
+def point_sigma_mag(
+    frame_err_mag: np.ndarray, n_frames: np.ndarray, airmass: np.ndarray, sys_err_mag_per_airmass: float
+) -> np.ndarray:
     """σ (mag) of one stacked point: photon noise over √n_frames and ``s·X`` added in quadrature."""
     phot = np.asarray(frame_err_mag, dtype=float) / np.sqrt(np.maximum(np.asarray(n_frames, dtype=float), 1.0))
     return np.hypot(phot, sys_err_mag_per_airmass * np.asarray(airmass, dtype=float))
 
 
-def slot_quality(precision: np.ndarray, airmass: np.ndarray, max_airmass: float,
-                 best_precision: float) -> np.ndarray:
+def slot_quality(precision: np.ndarray, airmass: np.ndarray, max_airmass: float, best_precision: float) -> np.ndarray:
     """Quality in [0, 1]: ``precision / best_precision``, 0 above ``max_airmass`` or where unknown."""
     p = np.asarray(precision, dtype=float)
     x = np.asarray(airmass, dtype=float)
@@ -59,12 +59,13 @@ def slot_quality_slow(precision, airmass, max_airmass: float, best_precision: fl
 
 def part_slot_centres(grid: SlotGrid, p: int) -> np.ndarray:
     """UTC centres of every slot from a site-night's first usable slot to its last (datetime64[ns])."""
-    lo, hi = grid.parts[p].intervals[0][0], grid.parts[p].intervals[-1][1]
+    lo, hi = grid.site_nights[p].intervals[0][0], grid.site_nights[p].intervals[-1][1]
     return grid.slot_time(np.arange(lo, hi)) + np.timedelta64(int(round(grid.slot_s * 0.5e9)), "ns")
 
 
-def slot_precision(grid: SlotGrid, target: Target, sites: tuple[Site, ...] | list[Site],
-                   rules: ExposureRules) -> tuple[list[np.ndarray], list[np.ndarray]]:
+def slot_precision(
+    grid: SlotGrid, target: Target, sites: tuple[Site, ...] | list[Site], rules: ExposureRules
+) -> tuple[list[np.ndarray], list[np.ndarray]]:
     """Per site-night, over its slot span (first to last usable slot): precision 1/σ² (mag⁻²) of a
     stacked point and the airmass, at slot centres. One geometry call per site.
 
@@ -72,11 +73,11 @@ def slot_precision(grid: SlotGrid, target: Target, sites: tuple[Site, ...] | lis
     """
     by_name = {s.name: s for s in sites}
     comet = getattr(target, "kind", "comet") == "comet"
-    precision: list[np.ndarray] = [np.zeros(0)] * len(grid.parts)
-    airmass: list[np.ndarray] = [np.zeros(0)] * len(grid.parts)
-    for name in dict.fromkeys(p.site for p in grid.parts):
+    precision: list[np.ndarray] = [np.zeros(0)] * len(grid.site_nights)
+    airmass: list[np.ndarray] = [np.zeros(0)] * len(grid.site_nights)
+    for name in dict.fromkeys(p.site for p in grid.site_nights):
         site = by_name[name]
-        idx = [i for i, p in enumerate(grid.parts) if p.site == name]
+        idx = [i for i, p in enumerate(grid.site_nights) if p.site == name]
         times = [part_slot_centres(grid, i) for i in idx]
         geo = geometry(target, np.concatenate(times), [site])[name]
         x = geo["airmass"].to_numpy(dtype=float)

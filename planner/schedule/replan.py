@@ -43,12 +43,13 @@ def done_runs(log: DoneLog) -> dict[str, list[tuple[np.datetime64, np.datetime64
         gaps = (a[1:] - b[:-1]).astype(np.int64) / 1e9 > RUN_GAP_S
         starts = np.concatenate([[0], np.flatnonzero(gaps) + 1])
         stops = np.concatenate([np.flatnonzero(gaps), [a.size - 1]])
-        out[name] = [(a[i], np.max(b[i:j + 1])) for i, j in zip(starts, stops, strict=True)]
+        out[name] = [(a[i], np.max(b[i : j + 1])) for i, j in zip(starts, stops, strict=True)]
     return out
 
 
-def used_hours(runs: dict[str, list[tuple[np.datetime64, np.datetime64]]],
-               sites: tuple[Site, ...] | list[Site]) -> dict[tuple[str, date], float]:
+def used_hours(
+    runs: dict[str, list[tuple[np.datetime64, np.datetime64]]], sites: tuple[Site, ...] | list[Site]
+) -> dict[tuple[str, date], float]:
     """Hours already observed per (site, evening date)."""
     by_name = {s.name: s for s in sites}
     out: dict[tuple[str, date], float] = {}

@@ -51,15 +51,15 @@ def weather_monte_carlo(model: PlanModel, visits: list[Visit], trials: int, seed
     n_p, n_b = model.periods_h.size, model.n_bins
     done = model.done_cells.ravel()
     rng = np.random.default_rng(seed)
-    parts = model.grid.parts
+    parts = model.grid.site_nights
     clear_p = np.array([p.clear_fraction for p in parts], dtype=float)
     clear = rng.random((trials, len(parts))) < clear_p[None, :]
     if visits:
         masks = model.visit_masks(np.array([v.start for v in visits]), np.array([v.length for v in visits]))
         masks = masks.reshape(len(visits), -1)
-        keep = clear[:, [v.part for v in visits]].astype(np.float32)
+        keep = clear[:, [v.site_night for v in visits]].astype(np.float32)
         covered = (keep @ masks.astype(np.float32) > 0.5) | done[None, :]
-        site_of = np.array([parts[v.part].site_index for v in visits])
+        site_of = np.array([parts[v.site_night].site_index for v in visits])
         per_site = np.stack([masks[site_of == s].any(axis=0) for s in np.unique(site_of)])
         n_sites = per_site.sum(axis=0)
     else:

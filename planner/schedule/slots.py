@@ -1,7 +1,7 @@
 """Candidate slots: the observable windows cut into a regular grid, grouped into site-nights.
 
 All slot indices live on one global grid: slot ``k`` spans ``[t_ref + k·slot, t_ref + (k+1)·slot)``.
-A *site-night* (``Part``) holds the slot intervals where its site may observe (window ∩ allocation,
+A *site-night* (``SiteNight``) holds the slot intervals where its site may observe (window ∩ allocation,
 after anything already done or lost), its hour budget in slots, and the fixed visit length and
 count the greedy uses there. The greedy's *elements* are every placement of that visit on the grid.
 """
@@ -14,12 +14,12 @@ from datetime import date
 import numpy as np
 import pandas as pd
 
-from planner.inputs.settings import Blocks
+from planner.inputs.settings import BlockRules
 from planner.inputs.sites import Site
 
 
 @dataclass(frozen=True)
-class Part:
+class SiteNight:
     """One site-night: where visits may go and how much time they may take."""
 
     site: str
@@ -46,10 +46,10 @@ class SlotGrid:
     max_slots: int
     max_per_night: int
     site_names: tuple[str, ...]
-    parts: tuple[Part, ...]
+    site_nights: tuple[SiteNight, ...]
     #: Whole-campaign budget per site index, in slots (absent: none).
     site_budget_slots: dict[int, int]
-    elem_part: np.ndarray
+    elem_site_night: np.ndarray
     elem_start: np.ndarray
     elem_len: np.ndarray
     #: First and last usable slot over the network (cadence span), in slots.
@@ -61,7 +61,7 @@ class SlotGrid:
 
     @property
     def n_elements(self) -> int:
-        return int(self.elem_part.size)
+        return int(self.elem_site_night.size)
 
     def slot_time(self, slot: np.ndarray | int) -> np.ndarray:
         """Global slot index → UTC datetime64[ns] of its start."""
@@ -71,8 +71,8 @@ class SlotGrid:
     def part_spans(self) -> tuple[np.ndarray, np.ndarray, int]:
         """Flat layout of every site-night's slot span (first to last usable slot), parts end to end:
         first slot per part, offset of that slot in the flat array, and the flat length."""
-        lo = np.array([p.intervals[0][0] for p in self.parts], dtype=np.int64)
-        size = np.array([p.intervals[-1][1] - p.intervals[0][0] for p in self.parts], dtype=np.int64)
+        lo = np.array([p.intervals[0][0] for p in self.site_nights], dtype=np.int64)
+        size = np.array([p.intervals[-1][1] - p.intervals[0][0] for p in self.site_nights], dtype=np.int64)
         off = np.concatenate([[0], np.cumsum(size)[:-1]]).astype(np.int64) if size.size else size
         return lo, off, int(size.sum())
 
@@ -114,12 +114,18 @@ def _intersect(intervals: list[tuple[int, int]], allowed: list[tuple[int, int]])
     return sorted(out)
 
 
-def build_slots(windows: pd.DataFrame, sites: tuple[Site, ...] | list[Site], blocks: Blocks,
-                t_ref: np.datetime64, *, total_hours: dict[str, float] | None = None,
-                not_before_utc: np.datetime64 | None = None,
-                lost: set[tuple[str, date]] | frozenset = frozenset(),
-                used_h: dict[tuple[str, date], float] | None = None,
-                busy_utc: dict[str, list[tuple[np.datetime64, np.datetime64]]] | None = None) -> SlotGrid:
+def build_slots(
+    windows: pd.DataFrame,
+    sites: tuple[Site, ...] | list[Site],
+    blocks: BlockRules,
+    t_ref: np.datetime64,
+    *,
+    total_hours: dict[str, float] | None = None,
+    not_before_utc: np.datetime64 | None = None,
+    lost: set[tuple[str, date]] | frozenset = frozenset(),
+    used_h: dict[tuple[str, date], float] | None = None,
+    busy_utc: dict[str, list[tuple[np.datetime64, np.datetime64]]] | None = None,
+) -> SlotGrid:
     """Site-nights and greedy elements from a windows table (columns site, night, start_utc, end_utc).
 
     Allocation: ``hours_per_night`` gives the nightly budget anywhere in the window; fixed UTC
@@ -132,29 +138,33 @@ def build_slots(windows: pd.DataFrame, sites: tuple[Site, ...] | list[Site], blo
     slot_s = blocks.slot_s
     min_slots = int(np.ceil(blocks.min_block_h * 3600.0 / slot_s - 1e-9))
     max_slots = int(np.floor(blocks.max_block_h * 3600.0 / slot_s + 1e-9))
-    setup_slots = int(np.ceil(blocks.setup_min * 60.0 / slot_s - 1e-9))
+    setup_slots = int(np.ceil(blocks.setup_minutes * 60.0 / slot_s - 1e-9))
     total_hours = total_hours or {}
     used_h = used_h or {}
     busy_utc = busy_utc or {}
-    cut = None if not_before_utc is None else int(to_slot(np.datetime64(not_before_utc, "ns"), t_ref, slot_s,
-                                                          up=True))
+    cut = None if not_before_utc is None else int(to_slot(np.datetime64(not_before_utc, "ns"), t_ref, slot_s, up=True))
     w = windows.copy()
     w = w[w["start_utc"].notna() & w["end_utc"].notna()]
     nights = pd.to_datetime(w["night"]).dt.date if len(w) else pd.Series([], dtype=object)
     w = w.assign(_night=nights.values)
-    parts: list[Part] = []
+    parts: list[SiteNight] = []
     e_part, e_start = [], []
     names = tuple(s.name for s in sites)
     for si, site in enumerate(sites):
         ws = w[w["site"] == site.name]
         alloc = site.allocation
         alloc_iv = None
-        if alloc.blocks_utc:
-            starts = to_slot(np.array([a for a, _ in alloc.blocks_utc]), t_ref, slot_s, up=True)
-            stops = to_slot(np.array([b for _, b in alloc.blocks_utc]), t_ref, slot_s, up=False)
+        if alloc.granted_utc:
+            starts = to_slot(np.array([a for a, _ in alloc.granted_utc]), t_ref, slot_s, up=True)
+            stops = to_slot(np.array([b for _, b in alloc.granted_utc]), t_ref, slot_s, up=False)
             alloc_iv = [(int(a), int(b)) for a, b in zip(starts, stops, strict=True) if b > a]
-        busy = [(int(to_slot(np.datetime64(a, "ns"), t_ref, slot_s, up=False)),
-                 int(to_slot(np.datetime64(b, "ns"), t_ref, slot_s, up=True))) for a, b in busy_utc.get(site.name, [])]
+        busy = [
+            (
+                int(to_slot(np.datetime64(a, "ns"), t_ref, slot_s, up=False)),
+                int(to_slot(np.datetime64(b, "ns"), t_ref, slot_s, up=True)),
+            )
+            for a, b in busy_utc.get(site.name, [])
+        ]
         for night in sorted(set(ws["_night"])):
             if (site.name, night) in lost:
                 continue
@@ -187,8 +197,18 @@ def build_slots(windows: pd.DataFrame, sites: tuple[Site, ...] | list[Site], blo
                 continue
             capacity = int(min(blocks.max_per_night, budget // unit))
             pi = len(parts)
-            parts.append(Part(site=site.name, site_index=si, night=night, intervals=tuple(iv), budget_slots=budget,
-                              clear_fraction=float(site.clear_fraction), unit_slots=unit, capacity=capacity))
+            parts.append(
+                SiteNight(
+                    site=site.name,
+                    site_index=si,
+                    night=night,
+                    intervals=tuple(iv),
+                    budget_slots=budget,
+                    clear_fraction=float(site.clear_fraction),
+                    unit_slots=unit,
+                    capacity=capacity,
+                )
+            )
             for x, y in iv:
                 if y - x >= unit:
                     starts = np.arange(x, y - unit + 1, dtype=np.int64)
@@ -198,14 +218,25 @@ def build_slots(windows: pd.DataFrame, sites: tuple[Site, ...] | list[Site], blo
     for name, hours in total_hours.items():
         if name in names:
             site_budget[names.index(name)] = int(np.floor(hours * 3600.0 / slot_s + 1e-9))
-    elem_part = np.concatenate(e_part) if e_part else np.zeros(0, dtype=np.int64)
+    elem_site_night = np.concatenate(e_part) if e_part else np.zeros(0, dtype=np.int64)
     elem_start = np.concatenate(e_start) if e_start else np.zeros(0, dtype=np.int64)
-    elem_len = np.array([parts[p].unit_slots for p in elem_part], dtype=np.int64)
+    elem_len = np.array([parts[p].unit_slots for p in elem_site_night], dtype=np.int64)
     if parts:
         span = (min(p.intervals[0][0] for p in parts), max(p.intervals[-1][1] for p in parts))
     else:
         span = (0, 0)
-    return SlotGrid(t_ref=t_ref, slot_s=slot_s, setup_slots=setup_slots, min_slots=min_slots, max_slots=max_slots,
-                    max_per_night=blocks.max_per_night, site_names=names, parts=tuple(parts),
-                    site_budget_slots=site_budget, elem_part=elem_part, elem_start=elem_start, elem_len=elem_len,
-                    span_slots=span)
+    return SlotGrid(
+        t_ref=t_ref,
+        slot_s=slot_s,
+        setup_slots=setup_slots,
+        min_slots=min_slots,
+        max_slots=max_slots,
+        max_per_night=blocks.max_per_night,
+        site_names=names,
+        site_nights=tuple(parts),
+        site_budget_slots=site_budget,
+        elem_site_night=elem_site_night,
+        elem_start=elem_start,
+        elem_len=elem_len,
+        span_slots=span,
+    )

@@ -36,8 +36,10 @@ from planner.schedule.state import Done, PlanModel, Visit
 #: Highest window frequency (cycles/day) the alias term looks at, as in ``phasewise check``.
 ALIAS_MAX_FREQ_PER_DAY = 5.0
 #: The objective, in words (the weights are the campaign's ``[weights]``).
-OBJECTIVE_DEFINITION = ("J = w_cov*coverage + w_rob*expected_coverage - w_alias*alias - w_cad*gap_fraction"
-                        " + w_hours*hours_fraction + w_quality*quality")
+OBJECTIVE_DEFINITION = (
+    "J = w_cov*coverage + w_rob*expected_coverage - w_alias*alias - w_cad*gap_fraction"
+    " + w_hours*hours_fraction + w_quality*quality"
+)
 
 
 @dataclass
@@ -56,9 +58,15 @@ class ExactComparison:
 
     def to_dict(self) -> dict:
         ex = self.result
-        return {"covered_cells": ex.covered_cells, "upper_bound_cells": ex.upper_bound_cells, "optimal": ex.optimal,
-                "seconds": ex.seconds, "status": ex.status, "coverage_greedy_cells": self.coverage_greedy_cells,
-                "greedy_ratio": self.greedy_ratio}
+        return {
+            "covered_cells": ex.covered_cells,
+            "upper_bound_cells": ex.upper_bound_cells,
+            "optimal": ex.optimal,
+            "seconds": ex.seconds,
+            "status": ex.status,
+            "coverage_greedy_cells": self.coverage_greedy_cells,
+            "greedy_ratio": self.greedy_ratio,
+        }
 
 
 @dataclass
@@ -87,12 +95,19 @@ class ObjectiveSummary:
             "definition": OBJECTIVE_DEFINITION,
             "weights": {k: float(v) for k, v in self.weights.__dict__.items()},
             "heuristic": self.heuristic.to_dict(),
-            "greedy": {**self.greedy.to_dict(), "covered_cells": self.greedy_covered_cells, "n_cells": self.n_cells,
-                       "evaluations": self.greedy_evaluations, "elements": self.n_elements},
+            "greedy": {
+                **self.greedy.to_dict(),
+                "covered_cells": self.greedy_covered_cells,
+                "n_cells": self.n_cells,
+                "evaluations": self.greedy_evaluations,
+                "elements": self.n_elements,
+            },
             "baseline": self.baseline.to_dict(),
             "guarantee": {"ratio": self.guarantee_ratio, "statement": self.guarantee},
             "local_search": dict(self.search.__dict__),
-            "n_periods": self.n_periods, "phase_bins": self.phase_bins, "n_alias_freqs": self.n_alias_freqs,
+            "n_periods": self.n_periods,
+            "phase_bins": self.phase_bins,
+            "n_alias_freqs": self.n_alias_freqs,
             "seconds": self.seconds,
         }
         if self.exact is not None:
@@ -132,8 +147,10 @@ def _why_no_window(windows: pd.DataFrame, log_end_utc: np.datetime64 | None = No
         return ""
     ends = pd.to_datetime(windows["end_utc"]).dropna()
     if log_end_utc is not None and len(ends) and np.datetime64(ends.max().to_datetime64(), "ns") <= log_end_utc:
-        return (f" (the observation log runs to {str(log_end_utc)[:16]}Z, after the campaign's last window ends "
-                f"at {str(ends.max().to_datetime64())[:16]}Z)")
+        return (
+            f" (the observation log runs to {str(log_end_utc)[:16]}Z, after the campaign's last window ends "
+            f"at {str(ends.max().to_datetime64())[:16]}Z)"
+        )
     parts = []
     for site, rows in windows.groupby("site", sort=False):
         if (rows["hours"] > 0).any():
@@ -145,8 +162,9 @@ def _why_no_window(windows: pd.DataFrame, log_end_utc: np.datetime64 | None = No
     return f" ({'; '.join(parts)})" if parts else ""
 
 
-def quality_and_weights(precision: list[np.ndarray], airmass: list[np.ndarray], *,
-                        max_airmass: float) -> tuple[list[np.ndarray], list[np.ndarray]]:
+def quality_and_weights(
+    precision: list[np.ndarray], airmass: list[np.ndarray], *, max_airmass: float
+) -> tuple[list[np.ndarray], list[np.ndarray]]:
     """Per site-night slot arrays: spectral-window weight (precision 1/σ², mean 1 over the slots where it is
     known, the mean elsewhere) and quality (planner.schedule.quality.slot_quality, 0 where unknown)."""
     flat = np.concatenate(precision) if precision else np.zeros(0)
@@ -159,10 +177,16 @@ def quality_and_weights(precision: list[np.ndarray], airmass: list[np.ndarray], 
     return weight, quality
 
 
-def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | None = None, *,
-                  exact: bool = False, exact_time_limit_s: float = 60.0, max_evaluations: int = 6000,
-                  precision_fn: Callable[[SlotGrid], tuple[list[np.ndarray], list[np.ndarray]]] | None = None
-                  ) -> PlanCore:
+def schedule_core(
+    campaign: Campaign,
+    windows: pd.DataFrame,
+    done: DoneLog | None = None,
+    *,
+    exact: bool = False,
+    exact_time_limit_s: float = 60.0,
+    max_evaluations: int = 6000,
+    precision_fn: Callable[[SlotGrid], tuple[list[np.ndarray], list[np.ndarray]]] | None = None,
+) -> PlanCore:
     """Optimise on a windows table: slots, greedy + local search, baseline, robustness, and the exact
     optimum when asked. ``precision_fn(grid)`` gives, per site-night, the precision 1/σ² and airmass
     of every slot of its span (planner.schedule.quality.slot_precision); they set the slots' quality and each
@@ -173,17 +197,25 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
     done_model = Done()
     if done is not None:
         runs = done_runs(done)
-        kwargs = dict(not_before_utc=done.end_utc, lost=done.lost, used_h=used_hours(runs, sites),
-                      busy_utc={k: v for k, v in runs.items() if k})
+        kwargs = dict(
+            not_before_utc=done.end_utc,
+            lost=done.lost,
+            used_h=used_hours(runs, sites),
+            busy_utc={k: v for k, v in runs.items() if k},
+        )
         iv = [(a, b) for v in runs.values() for a, b in v]
-        done_model = Done(times_h=hours_since(done.times_utc, t_ref),
-                          intervals_h=np.array([[hours_since(a, t_ref), hours_since(b, t_ref)] for a, b in iv])
-                          .reshape(-1, 2))
-    grid = build_slots(windows, sites, campaign.blocks, t_ref, total_hours=campaign.total_hours, **kwargs)
-    if not grid.parts:
-        raise InputError(str(campaign.path), "sites",
-                         "no site has an observable window long enough for one block in the nights left to plan"
-                         + _why_no_window(windows, None if done is None else done.end_utc))
+        done_model = Done(
+            times_h=hours_since(done.times_utc, t_ref),
+            intervals_h=np.array([[hours_since(a, t_ref), hours_since(b, t_ref)] for a, b in iv]).reshape(-1, 2),
+        )
+    grid = build_slots(windows, sites, campaign.block_rules, t_ref, total_hours=campaign.total_hours, **kwargs)
+    if not grid.site_nights:
+        raise InputError(
+            str(campaign.path),
+            "sites",
+            "no site has an observable window long enough for one block in the nights left to plan"
+            + _why_no_window(windows, None if done is None else done.end_utc),
+        )
     rot = campaign.rotation
     span_h = campaign.nights * 24.0
     periods = period_grid_h(rot.min_period_h, rot.max_period_h, span_h, rot.oversample)
@@ -192,16 +224,34 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
     weight = quality = None
     if precision_fn is not None:
         weight, quality = quality_and_weights(*precision_fn(grid), max_airmass=campaign.photometry.max_airmass)
-    model = PlanModel(grid, periods, rot.phase_bins, freqs, campaign.weights, campaign.max_gap_h, done_model,
-                      slot_weight=weight, slot_quality=quality)
+    model = PlanModel(
+        grid,
+        periods,
+        rot.phase_bins,
+        freqs,
+        campaign.weights,
+        campaign.max_gap_h,
+        done_model,
+        slot_weight=weight,
+        slot_quality=quality,
+    )
     opt = optimise(model, seed=campaign.seed, max_evaluations=max_evaluations)
     base = baseline_visits(grid, windows, total_slots(opt.visits))
     objective = ObjectiveSummary(
-        weights=campaign.weights, heuristic=opt.terms, greedy=opt.greedy_terms,
-        greedy_covered_cells=opt.greedy.covered_cells, n_cells=model.n_cells,
-        greedy_evaluations=opt.greedy.evaluations, n_elements=grid.n_elements, baseline=model.terms(base),
-        guarantee_ratio=opt.guarantee_ratio, guarantee=opt.guarantee, search=opt.search,
-        n_periods=int(periods.size), phase_bins=int(rot.phase_bins), n_alias_freqs=int(freqs.size),
+        weights=campaign.weights,
+        heuristic=opt.terms,
+        greedy=opt.greedy_terms,
+        greedy_covered_cells=opt.greedy.covered_cells,
+        n_cells=model.n_cells,
+        greedy_evaluations=opt.greedy.evaluations,
+        n_elements=grid.n_elements,
+        baseline=model.terms(base),
+        guarantee_ratio=opt.guarantee_ratio,
+        guarantee=opt.guarantee,
+        search=opt.search,
+        n_periods=int(periods.size),
+        phase_bins=int(rot.phase_bins),
+        n_alias_freqs=int(freqs.size),
         seconds=opt.seconds,
     )
     if exact:
@@ -214,7 +264,22 @@ def schedule_core(campaign: Campaign, windows: pd.DataFrame, done: DoneLog | Non
         "plan": weather_monte_carlo(model, opt.visits, trials, campaign.seed),
         "baseline": weather_monte_carlo(model, base, trials, campaign.seed),
     }
-    nights = night_notes(campaign, windows, grid, model, opt.visits, lost=None if done is None else done.lost,
-                         not_before_utc=None if done is None else done.end_utc, observed_h=kwargs.get("used_h"))
-    return PlanCore(grid=grid, model=model, visits=opt.visits, baseline=base, objective=objective,
-                    robustness=robustness, nights=nights)
+    nights = night_notes(
+        campaign,
+        windows,
+        grid,
+        model,
+        opt.visits,
+        lost=None if done is None else done.lost,
+        not_before_utc=None if done is None else done.end_utc,
+        observed_h=kwargs.get("used_h"),
+    )
+    return PlanCore(
+        grid=grid,
+        model=model,
+        visits=opt.visits,
+        baseline=base,
+        objective=objective,
+        robustness=robustness,
+        nights=nights,
+    )

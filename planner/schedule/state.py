@@ -35,6 +35,7 @@ class SlotCredit:
     elem_i1: np.ndarray
     cell_weight: float
 
+
 #: Chance a site-night is clear is kept inside (0, 1) so log-survival stays finite.
 _CLEAR_CLIP = (1e-6, 1.0 - 1e-9)
 _ELEMENT_CHUNK = 256
@@ -46,7 +47,7 @@ _CACHE_VISITS = 2000
 class Visit:
     """A contiguous block of slots at one site-night: telescope time ``[start, start+length)``."""
 
-    part: int
+    site_night: int
     start: int
     length: int
 
@@ -64,9 +65,18 @@ class Done:
 
 
 class PlanModel:
-    def __init__(self, grid: SlotGrid, periods_h: np.ndarray, n_bins: int, freq_per_day: np.ndarray,
-                 weights: Weights, max_gap_h: float, done: Done | None = None,
-                 slot_weight: list[np.ndarray] | None = None, slot_quality: list[np.ndarray] | None = None) -> None:
+    def __init__(
+        self,
+        grid: SlotGrid,
+        periods_h: np.ndarray,
+        n_bins: int,
+        freq_per_day: np.ndarray,
+        weights: Weights,
+        max_gap_h: float,
+        done: Done | None = None,
+        slot_weight: list[np.ndarray] | None = None,
+        slot_quality: list[np.ndarray] | None = None,
+    ) -> None:
         self.grid = grid
         self.periods_h = np.asarray(periods_h, dtype=float)
         self.n_bins = int(n_bins)
@@ -77,8 +87,9 @@ class PlanModel:
         self.n_cells = self.periods_h.size * self.n_bins
         self.done_cells = point_mask(self.done.times_h, self.periods_h, self.n_bins)
         # Already-observed instants count once per slot, like planned science slots.
-        done_slots = np.unique(np.floor(np.asarray(self.done.times_h) / grid.slot_h)) if len(self.done.times_h) \
-            else np.zeros(0)
+        done_slots = (
+            np.unique(np.floor(np.asarray(self.done.times_h) / grid.slot_h)) if len(self.done.times_h) else np.zeros(0)
+        )
         self.done_phasor = point_window_sum((done_slots + 0.5) * grid.slot_h, self.freq_per_day)
         self.done_n = float(done_slots.size)
         # Quality of every slot (planner.schedule.quality), parts laid end to end over their slot spans.
@@ -89,18 +100,21 @@ class PlanModel:
         #: Weight of each science slot in the spectral window (its precision 1/σ², mean 1), as in a
         #: weighted window W = Σ w e^{2πiνt} / Σ w (what ``check`` computes); already-observed slots weigh 1.
         self.slot_weight = self._flat(slot_weight, n_flat, "slot_weight", 1.0)
-        sizes = [p.intervals[-1][1] - p.intervals[0][0] for p in grid.parts]
-        slots = (np.concatenate([np.arange(a, a + n) for a, n in zip(self.part_lo, sizes, strict=True)])
-                 if sizes else np.zeros(0))
+        sizes = [p.intervals[-1][1] - p.intervals[0][0] for p in grid.site_nights]
+        slots = (
+            np.concatenate([np.arange(a, a + n) for a, n in zip(self.part_lo, sizes, strict=True)])
+            if sizes
+            else np.zeros(0)
+        )
         #: Centre of every flat slot, hours from t_ref.
         self.slot_centre_h = (slots + 0.5) * grid.slot_h
         # Prefix sums of w·e^{2πiνt} and of w: any visit's window sum in O(frequencies).
-        phasors = self.slot_weight[:, None] * np.exp(2j * np.pi * np.outer(self.slot_centre_h / 24.0,
-                                                                           self.freq_per_day))
-        self._phasor_cum = np.vstack([np.zeros((1, self.freq_per_day.size), dtype=complex),
-                                      np.cumsum(phasors, axis=0)])
+        phasors = self.slot_weight[:, None] * np.exp(
+            2j * np.pi * np.outer(self.slot_centre_h / 24.0, self.freq_per_day)
+        )
+        self._phasor_cum = np.vstack([np.zeros((1, self.freq_per_day.size), dtype=complex), np.cumsum(phasors, axis=0)])
         self._weight_cum = np.concatenate([[0.0], np.cumsum(self.slot_weight)])
-        clear = np.array([p.clear_fraction for p in grid.parts], dtype=float)
+        clear = np.array([p.clear_fraction for p in grid.site_nights], dtype=float)
         self.log_cloudy = np.log1p(-np.clip(clear, *_CLEAR_CLIP))
         lo, hi = grid.span_slots
         self.span_h = (lo * grid.slot_h, hi * grid.slot_h)
@@ -109,7 +123,7 @@ class PlanModel:
         self._elem_packed: np.ndarray | None = None
         # Time the plan may use: the site-nights' budgets, capped by any whole-campaign site budget.
         per_site: dict[int, int] = {}
-        for p in grid.parts:
+        for p in grid.site_nights:
             per_site[p.site_index] = per_site.get(p.site_index, 0) + p.budget_slots
         self.budget_slots = int(sum(min(v, grid.site_budget_slots.get(k, v)) for k, v in per_site.items()))
 
@@ -130,8 +144,9 @@ class PlanModel:
         t0, t1 = self.science_h(starts, lengths)
         return arc_mask(t0, t1, self.periods_h, self.n_bins)
 
-    def visit_phasors(self, parts: np.ndarray, starts: np.ndarray, lengths: np.ndarray) -> tuple[np.ndarray,
-                                                                                                  np.ndarray]:
+    def visit_phasors(
+        self, parts: np.ndarray, starts: np.ndarray, lengths: np.ndarray
+    ) -> tuple[np.ndarray, np.ndarray]:
         """Weighted window sums Σ w e^{2πiνt} over each visit's science slots (N, F), and Σ w (N,)."""
         i0, i1 = self.science_flat(parts, starts, lengths)
         return self._phasor_cum[i1] - self._phasor_cum[i0], self._weight_cum[i1] - self._weight_cum[i0]
@@ -158,8 +173,11 @@ class PlanModel:
         """Σ slot quality over the science slots of visits (visits of one site-night never overlap)."""
         if not visits:
             return 0.0
-        i0, i1 = self.science_flat(np.array([v.part for v in visits]), np.array([v.start for v in visits]),
-                                   np.array([v.length for v in visits]))
+        i0, i1 = self.science_flat(
+            np.array([v.site_night for v in visits]),
+            np.array([v.start for v in visits]),
+            np.array([v.length for v in visits]),
+        )
         return float(np.sum(self._quality_cum[i1] - self._quality_cum[i0]))
 
     def slot_credit(self) -> SlotCredit:
@@ -167,15 +185,17 @@ class PlanModel:
         g = self.grid
         w = self.weights
         value = (w.quality * self.slot_quality + w.hours) / max(self.budget_slots, 1)
-        i0, i1 = self.science_flat(g.elem_part, g.elem_start, g.elem_len)
+        i0, i1 = self.science_flat(g.elem_site_night, g.elem_start, g.elem_len)
         return SlotCredit(value=value, elem_i0=i0, elem_i1=i1, cell_weight=w.coverage / max(self.n_cells, 1))
 
     def element_packed(self) -> np.ndarray:
         """Cells of every greedy element, packed (E, W); built once, in chunks to bound memory."""
         if self._elem_packed is None:
             g = self.grid
-            chunks = [pack_cells(self.visit_masks(g.elem_start[i:i + _ELEMENT_CHUNK], g.elem_len[i:i + _ELEMENT_CHUNK]))
-                      for i in range(0, g.n_elements, _ELEMENT_CHUNK)]
+            chunks = [
+                pack_cells(self.visit_masks(g.elem_start[i : i + _ELEMENT_CHUNK], g.elem_len[i : i + _ELEMENT_CHUNK]))
+                for i in range(0, g.n_elements, _ELEMENT_CHUNK)
+            ]
             n_words = -(-self.n_cells // 64)
             self._elem_packed = np.concatenate(chunks) if chunks else np.zeros((0, n_words), dtype=np.uint64)
         return self._elem_packed
@@ -185,17 +205,32 @@ class PlanModel:
         return self.visit_masks(g.elem_start[idx], g.elem_len[idx])
 
     # --- scoring from scratch (reference) --------------------------------------------------------
-    def combine(self, coverage: float, expected: float, alias: float, gap_h: float, used_slots: int,
-                quality_slots: float = 0.0) -> Terms:
+    def combine(
+        self, coverage: float, expected: float, alias: float, gap_h: float, used_slots: int, quality_slots: float = 0.0
+    ) -> Terms:
         span = max(self.span_h[1] - self.span_h[0], 1e-9)
         w = self.weights
         gap_frac = gap_h / span
         hours_frac = used_slots / max(self.budget_slots, 1)
         quality = quality_slots / max(self.budget_slots, 1)
-        total = (w.coverage * coverage + w.robustness * expected - w.alias * alias - w.cadence * gap_frac
-                 + w.hours * hours_frac + w.quality * quality)
-        return Terms(coverage=coverage, expected_coverage=expected, alias=alias, excess_gap_h=gap_h,
-                     gap_fraction=gap_frac, hours_fraction=hours_frac, quality=quality, total=total)
+        total = (
+            w.coverage * coverage
+            + w.robustness * expected
+            - w.alias * alias
+            - w.cadence * gap_frac
+            + w.hours * hours_frac
+            + w.quality * quality
+        )
+        return Terms(
+            coverage=coverage,
+            expected_coverage=expected,
+            alias=alias,
+            excess_gap_h=gap_h,
+            gap_fraction=gap_frac,
+            hours_fraction=hours_frac,
+            quality=quality,
+            total=total,
+        )
 
     def intervals_h(self, visits: list[Visit]) -> np.ndarray:
         if not visits:
@@ -214,8 +249,8 @@ class PlanModel:
         for v in visits:
             m = self.visit_masks(np.array([v.start]), np.array([v.length]))[0]
             covered |= m
-            per_part[v.part] = per_part.get(v.part, np.zeros_like(m)) | m
-            ph, w = self.visit_phasors_slow(v.part, v.start, v.length)
+            per_part[v.site_night] = per_part.get(v.site_night, np.zeros_like(m)) | m
+            ph, w = self.visit_phasors_slow(v.site_night, v.start, v.length)
             phasor = phasor + ph
             n += w
         log_surv = np.zeros(covered.shape)
@@ -224,8 +259,9 @@ class PlanModel:
         expected = np.where(self.done_cells, 1.0, 1.0 - np.exp(log_surv)).mean()
         alias = float(np.abs(phasor).max() / n) if n > 0 and phasor.size else 0.0
         gap = excess_gap_h(self.intervals_h(visits), self.span_h, self.max_gap_h)
-        return self.combine(float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits),
-                            self.quality_sum(visits))
+        return self.combine(
+            float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits), self.quality_sum(visits)
+        )
 
 
 class PlanState:
@@ -249,7 +285,7 @@ class PlanState:
         hit = self._cache.get(v)
         if hit is None:
             m = self.model.visit_masks(np.array([v.start]), np.array([v.length]))[0]
-            ph, w = self.model.visit_phasors(np.array([v.part]), np.array([v.start]), np.array([v.length]))
+            ph, w = self.model.visit_phasors(np.array([v.site_night]), np.array([v.start]), np.array([v.length]))
             hit = (m, ph[0], float(w[0]))
             if len(self._cache) > _CACHE_VISITS:
                 self._cache.clear()
@@ -268,11 +304,11 @@ class PlanState:
                 counts += sign * m
                 phasor += sign * ph
                 n += sign * w
-                pc = touched.get(v.part)
+                pc = touched.get(v.site_night)
                 if pc is None:
-                    base = self.part_counts.get(v.part)
+                    base = self.part_counts.get(v.site_night)
                     pc = np.zeros(counts.shape, dtype=np.int32) if base is None else base.copy()
-                    touched[v.part] = pc
+                    touched[v.site_night] = pc
                 pc += sign * m
         log_surv = self.log_surv.copy() if touched else self.log_surv
         for p, pc in touched.items():
@@ -289,8 +325,9 @@ class PlanState:
         alias = float(np.abs(phasor).max() / n) if n > 0 and phasor.size else 0.0
         visits = [v for v in self.visits if v not in remove] + list(add)
         gap = excess_gap_h(model.intervals_h(visits), model.span_h, model.max_gap_h)
-        return model.combine(float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits),
-                             model.quality_sum(visits))
+        return model.combine(
+            float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits), model.quality_sum(visits)
+        )
 
     def apply(self, remove: list[Visit], add: list[Visit]) -> None:
         counts, phasor, n, touched, log_surv = self._updated(remove, add)
@@ -300,7 +337,7 @@ class PlanState:
         for v in remove:
             self.visits.remove(v)
         self.visits.extend(add)
-        self.visits.sort(key=lambda v: (v.start, v.part))
+        self.visits.sort(key=lambda v: (v.start, v.site_night))
         self.current = self.score([], [])
 
     def covered_packed(self) -> np.ndarray:

@@ -27,21 +27,35 @@ def comet_total_mag(M1: float, K1: float, helio_dist_au: np.ndarray, obs_dist_au
     return M1 + 5.0 * np.log10(obs_dist_au) + K1 * np.log10(helio_dist_au)
 
 
-def comet_nuclear_mag(M2: float, K2: float, phase_coeff_mag_per_deg: float, helio_dist_au: np.ndarray,
-                      obs_dist_au: np.ndarray, phase_angle_deg: np.ndarray) -> np.ndarray:
+def comet_nuclear_mag(
+    M2: float,
+    K2: float,
+    phase_coeff_mag_per_deg: float,
+    helio_dist_au: np.ndarray,
+    obs_dist_au: np.ndarray,
+    phase_angle_deg: np.ndarray,
+) -> np.ndarray:
     """m = M2 + 5 log10 Δ + K2 log10 r + β α (nucleus, linear phase law)."""
-    return (M2 + 5.0 * np.log10(obs_dist_au) + K2 * np.log10(helio_dist_au)
-            + phase_coeff_mag_per_deg * np.asarray(phase_angle_deg))
+    return (
+        M2
+        + 5.0 * np.log10(obs_dist_au)
+        + K2 * np.log10(helio_dist_au)
+        + phase_coeff_mag_per_deg * np.asarray(phase_angle_deg)
+    )
 
 
-def hg_mag(H: float, G: float, helio_dist_au: np.ndarray, obs_dist_au: np.ndarray,
-           phase_angle_deg: np.ndarray) -> np.ndarray:
+def hg_mag(
+    H: float, G: float, helio_dist_au: np.ndarray, obs_dist_au: np.ndarray, phase_angle_deg: np.ndarray
+) -> np.ndarray:
     """Bowell et al. (1989) H,G apparent magnitude (eq. A4, with the small-angle blend)."""
     alpha = np.radians(np.asarray(phase_angle_deg, dtype=float))
     phi1 = _hg_phi(alpha, 3.332, 0.631, 0.986)
     phi2 = _hg_phi(alpha, 1.862, 1.218, 0.238)
-    return H + 5.0 * np.log10(np.asarray(helio_dist_au) * np.asarray(obs_dist_au)) - 2.5 * np.log10(
-        (1.0 - G) * phi1 + G * phi2)
+    return (
+        H
+        + 5.0 * np.log10(np.asarray(helio_dist_au) * np.asarray(obs_dist_au))
+        - 2.5 * np.log10((1.0 - G) * phi1 + G * phi2)
+    )
 
 
 def _hg_phi(alpha_rad: np.ndarray, a: float, b: float, c: float) -> np.ndarray:
@@ -49,7 +63,7 @@ def _hg_phi(alpha_rad: np.ndarray, a: float, b: float, c: float) -> np.ndarray:
     sin_a = np.sin(alpha_rad)
     w = np.exp(-90.56 * tan_half * tan_half)
     small = 1.0 - c * sin_a / (0.119 + 1.341 * sin_a - 0.754 * sin_a * sin_a)
-    large = np.exp(-a * tan_half ** b)
+    large = np.exp(-a * tan_half**b)
     return w * small + (1.0 - w) * large
 
 
@@ -85,8 +99,9 @@ def format_law(law: str, params: dict[str, float]) -> str:
     return f"{law} ({', '.join(shown)})" if shown else law
 
 
-def predicted_mag(kind: str, b: Brightness, helio_dist_au: np.ndarray, obs_dist_au: np.ndarray,
-                  phase_angle_deg: np.ndarray) -> tuple[np.ndarray, str]:
+def predicted_mag(
+    kind: str, b: Brightness, helio_dist_au: np.ndarray, obs_dist_au: np.ndarray, phase_angle_deg: np.ndarray
+) -> tuple[np.ndarray, str]:
     """Predicted magnitude array and the name of the law used (NaN where no law is given)."""
     law = law_name(kind, b)
     r = np.asarray(helio_dist_au, dtype=float)
@@ -100,10 +115,10 @@ def predicted_mag(kind: str, b: Brightness, helio_dist_au: np.ndarray, obs_dist_
     return np.full(np.broadcast(r, delta).shape, np.nan), law
 
 
-def nuclear_mag(b: Brightness, helio_dist_au: np.ndarray, obs_dist_au: np.ndarray,
-                phase_angle_deg: np.ndarray) -> np.ndarray:
+def nuclear_mag(
+    b: Brightness, helio_dist_au: np.ndarray, obs_dist_au: np.ndarray, phase_angle_deg: np.ndarray
+) -> np.ndarray:
     """Nuclear magnitude where M2 is given, else NaN (for photometry of the nucleus)."""
     if b.M2 is None:
         return np.full(np.broadcast(np.asarray(helio_dist_au), np.asarray(obs_dist_au)).shape, np.nan)
-    return comet_nuclear_mag(b.M2, b.K2, b.phase_coeff_mag_per_deg, helio_dist_au, obs_dist_au,
-                             phase_angle_deg)
+    return comet_nuclear_mag(b.M2, b.K2, b.phase_coeff_mag_per_deg, helio_dist_au, obs_dist_au, phase_angle_deg)

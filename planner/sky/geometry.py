@@ -46,12 +46,15 @@ GEOCENTRE = "geocentre"
 #: and blind people; the observatory's own rules always decide.
 MIN_SOLAR_ELONG_DEG = 30.0
 
-SAFETY_WARNING = ("CAUTION: solar elongation below {limit:g} deg at {n} of {total} epochs. Pointing a "
-                  "telescope near the Sun can destroy equipment and blind people; the observatory's own "
-                  "rules decide.")
+SAFETY_WARNING = (
+    "CAUTION: solar elongation below {limit:g} deg at {n} of {total} epochs. Pointing a "
+    "telescope near the Sun can destroy equipment and blind people; the observatory's own "
+    "rules decide."
+)
 
 
 # ------------------------------------------------------------------------------- small kernels
+
 
 def airmass(alt_deg: np.ndarray) -> np.ndarray:
     """Relative optical air mass, Kasten & Young (1989), Applied Optics 28, 4735.
@@ -92,8 +95,7 @@ def _sky_basis(p: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 def _position_angle_deg(v: np.ndarray, east: np.ndarray, north: np.ndarray) -> np.ndarray:
     """Position angle (from north through east, [0, 360)) of the sky-plane component of ``v``."""
-    return np.degrees(np.arctan2(np.einsum("...i,...i->...", v, east),
-                                 np.einsum("...i,...i->...", v, north))) % 360.0
+    return np.degrees(np.arctan2(np.einsum("...i,...i->...", v, east), np.einsum("...i,...i->...", v, north))) % 360.0
 
 
 def _to_ecliptic(v: np.ndarray) -> np.ndarray:
@@ -103,8 +105,7 @@ def _to_ecliptic(v: np.ndarray) -> np.ndarray:
     return np.stack([v[:, 0], c * v[:, 1] + s * v[:, 2], -s * v[:, 1] + c * v[:, 2]], axis=-1)
 
 
-def phase_angle_bisector_deg(helio_au: np.ndarray,
-                             obs_to_target_au: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def phase_angle_bisector_deg(helio_au: np.ndarray, obs_to_target_au: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Ecliptic longitude and latitude of the phase-angle bisector (Harris et al. 1984, Icarus 57, 251).
 
     The bisector is the mean of the unit vectors Sun → target and observer → target.
@@ -117,6 +118,7 @@ def phase_angle_bisector_deg(helio_au: np.ndarray,
 
 
 # ------------------------------------------------------------------------------------ the frame
+
 
 class _SkyAtTimes:
     """Sun, Earth and Moon states for one time grid (read once, shared by every site)."""
@@ -178,22 +180,23 @@ def _target_light_time(target: Target, sky: _SkyAtTimes, obs_au: np.ndarray):
     helio, helio_v = propagate(target.orbit, sky.tdb_jd)
     r = _norm(helio)[:, None]
     rv = np.einsum("ij,ij->i", helio, helio_v)[:, None]
-    acc = -GM_SUN_AU3_D2 * helio / r ** 3
-    jerk = -GM_SUN_AU3_D2 * (helio_v / r ** 3 - 3.0 * rv * helio / r ** 5)
+    acc = -GM_SUN_AU3_D2 * helio / r**3
+    jerk = -GM_SUN_AU3_D2 * (helio_v / r**3 - 3.0 * rv * helio / r**5)
     tau = _norm(helio + sky.sun_au - obs_au) / C_AU_PER_DAY
     for _ in range(3):  # fixed point; each pass gains a factor ~v/c
         tt = tau[:, None]
-        helio_then = helio - tt * helio_v + 0.5 * tt * tt * acc - tt ** 3 / 6.0 * jerk
+        helio_then = helio - tt * helio_v + 0.5 * tt * tt * acc - tt**3 / 6.0 * jerk
         sun_then = sky.sun_au - tt * sky.sun_au_d
         tau = _norm(helio_then + sun_then - obs_au) / C_AU_PER_DAY
     tt = tau[:, None]
-    helio_then = helio - tt * helio_v + 0.5 * tt * tt * acc - tt ** 3 / 6.0 * jerk
+    helio_then = helio - tt * helio_v + 0.5 * tt * tt * acc - tt**3 / 6.0 * jerk
     helio_v_then = helio_v - tt * acc + 0.5 * tt * tt * jerk
     return helio_then, helio_v_then, tau
 
 
-def geometry(target: Target, times_utc: np.ndarray, sites: Sequence[Site] = (),
-             min_solar_elong_deg: float = MIN_SOLAR_ELONG_DEG) -> dict[str, pd.DataFrame]:
+def geometry(
+    target: Target, times_utc: np.ndarray, sites: Sequence[Site] = (), min_solar_elong_deg: float = MIN_SOLAR_ELONG_DEG
+) -> dict[str, pd.DataFrame]:
     """Target geometry per site (or at the geocentre when ``sites`` is empty), one row per epoch.
 
     Columns: see docs/formats.md "Geometry columns". ``low_solar_elong`` flags epochs closer to the
@@ -222,15 +225,25 @@ def geometry(target: Target, times_utc: np.ndarray, sites: Sequence[Site] = (),
             d_tau = _norm(p_geo) / C_AU_PER_DAY - tau_g
             helio = helio_g - d_tau[:, None] * helio_v
             tau = tau_g + d_tau
-        out[name] = _observer_frame(target, sky, helio, target_v_bary, tau, obs_au, obs_v, site, topo,
-                                    min_solar_elong_deg)
+        out[name] = _observer_frame(
+            target, sky, helio, target_v_bary, tau, obs_au, obs_v, site, topo, min_solar_elong_deg
+        )
         out[name].attrs.update(observer=name)
     return out
 
 
-def _observer_frame(target: Target, sky: _SkyAtTimes, helio: np.ndarray, target_v_bary: np.ndarray,
-                    tau: np.ndarray, obs_au: np.ndarray, obs_v: np.ndarray, site: Site | None, topo,
-                    min_solar_elong_deg: float) -> pd.DataFrame:
+def _observer_frame(
+    target: Target,
+    sky: _SkyAtTimes,
+    helio: np.ndarray,
+    target_v_bary: np.ndarray,
+    tau: np.ndarray,
+    obs_au: np.ndarray,
+    obs_v: np.ndarray,
+    site: Site | None,
+    topo,
+    min_solar_elong_deg: float,
+) -> pd.DataFrame:
     sun_then = sky.sun_au - tau[:, None] * sky.sun_au_d
     p = helio + sun_then - obs_au  # astrometric: observer at t → target at t − τ
     delta = _norm(p)
@@ -254,14 +267,14 @@ def _observer_frame(target: Target, sky: _SkyAtTimes, helio: np.ndarray, target_
         "dec_deg": dec,
         "helio_dist_au": r,
         "obs_dist_au": delta,
-        "light_time_min": tau * 1440.0,
+        "light_time_minutes": tau * 1440.0,
         "phase_angle_deg": phase,
         "solar_elong_deg": elong,
         "low_solar_elong": elong < min_solar_elong_deg,
-        "motion_arcsec_min": np.hypot(rate_east, rate_north),
+        "motion_arcsec_per_min": np.hypot(rate_east, rate_north),
         "motion_pa_deg": np.degrees(np.arctan2(rate_east, rate_north)) % 360.0,
-        "ra_rate_arcsec_min": rate_east,
-        "dec_rate_arcsec_min": rate_north,
+        "ra_rate_arcsec_per_min": rate_east,
+        "dec_rate_arcsec_per_min": rate_north,
         "sunward_pa_deg": _position_angle_deg(to_sun, east, north),
         "mag_pred": mag,
         "km_per_arcsec": KM_PER_ARCSEC_AT_1AU * delta,
@@ -271,13 +284,18 @@ def _observer_frame(target: Target, sky: _SkyAtTimes, helio: np.ndarray, target_
     if site is not None:
         cols.update(_site_columns(sky, topo, p, tau, obs_au, obs_v))
     frame = pd.DataFrame(cols)
-    frame.attrs.update(mag_law=law, mag_params=law_params(target.kind, target.brightness), target=target.name,
-                       min_solar_elong_deg=min_solar_elong_deg)
+    frame.attrs.update(
+        mag_law=law,
+        mag_params=law_params(target.kind, target.brightness),
+        target=target.name,
+        min_solar_elong_deg=min_solar_elong_deg,
+    )
     return frame
 
 
-def _site_columns(sky: _SkyAtTimes, topo, p: np.ndarray, tau: np.ndarray, obs_au: np.ndarray,
-                  obs_v: np.ndarray) -> dict[str, np.ndarray]:
+def _site_columns(
+    sky: _SkyAtTimes, topo, p: np.ndarray, tau: np.ndarray, obs_au: np.ndarray, obs_v: np.ndarray
+) -> dict[str, np.ndarray]:
     from skyfield.functions import mxv
     from skyfield.relativity import add_aberration
 
@@ -309,6 +327,7 @@ def _site_columns(sky: _SkyAtTimes, topo, p: np.ndarray, tau: np.ndarray, obs_au
 
 
 # ----------------------------------------------------------------------- helpers for other modules
+
 
 def sun_alt_deg(site: Site, times_utc: np.ndarray) -> np.ndarray:
     """Geometric altitude of the Sun's centre at a site (degrees, no refraction), vectorised.

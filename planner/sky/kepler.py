@@ -47,8 +47,8 @@ def stumpff(x: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarr
     c2 = np.empty_like(x)
     c3 = np.empty_like(x)
     small = np.abs(x) < _SERIES_X
-    pos = (x >= _SERIES_X)
-    neg = (x <= -_SERIES_X)
+    pos = x >= _SERIES_X
+    neg = x <= -_SERIES_X
     if small.any():
         xs = x[small]
         # c2 = 1/2! − x/4! + x²/6! − …,  c3 = 1/3! − x/5! + x²/7! − …  (Horner form, 15 terms)
@@ -79,16 +79,27 @@ def stumpff(x: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarr
     return c0, c1, c2, c3
 
 
-def universal_anomaly(r0_au: np.ndarray, sigma0: np.ndarray, beta: np.ndarray, q_au: np.ndarray,
-                      dt_d: np.ndarray, gm: float = GM_SUN_AU3_D2, max_iter: int = 200) -> np.ndarray:
+def universal_anomaly(
+    r0_au: np.ndarray,
+    sigma0: np.ndarray,
+    beta: np.ndarray,
+    q_au: np.ndarray,
+    dt_d: np.ndarray,
+    gm: float = GM_SUN_AU3_D2,
+    max_iter: int = 200,
+) -> np.ndarray:
     """Solve the universal Kepler equation for ``s`` (Danby 1988, eq. 6.9.x), vectorised.
 
     f(s) = r0 s c1(βs²) + σ0 s² c2(βs²) + GM s³ c3(βs²) − Δt = 0, with σ0 = r0·v0 and β = 2GM/r0 − v0²
     (= GM/a). f'(s) = r(s) ≥ q > 0, so f is increasing and the root lies in [0, Δt/q] (or [Δt/q, 0]).
     Laguerre–Conway steps (n = 5) inside that bracket, bisection when a step would leave it.
     """
-    r0, sigma0, beta, q, dt = (np.array(a, dtype=float) for a in np.broadcast_arrays(
-        *(np.atleast_1d(np.asarray(a, dtype=float)) for a in (r0_au, sigma0, beta, q_au, dt_d))))
+    r0, sigma0, beta, q, dt = (
+        np.array(a, dtype=float)
+        for a in np.broadcast_arrays(
+            *(np.atleast_1d(np.asarray(a, dtype=float)) for a in (r0_au, sigma0, beta, q_au, dt_d))
+        )
+    )
     lo = np.minimum(0.0, dt / q)
     hi = np.maximum(0.0, dt / q)
     # Starting guess, clipped to the bracket: Δt/a for ellipses (mean-anomaly estimate); for hyperbolas
@@ -96,7 +107,7 @@ def universal_anomaly(r0_au: np.ndarray, sigma0: np.ndarray, beta: np.ndarray, q
     with np.errstate(invalid="ignore", divide="ignore"):
         root_neg_beta = np.sqrt(np.maximum(-beta, 0.0))
         ecc = 1.0 - beta * q / gm
-        s_hyp = np.arcsinh(root_neg_beta ** 3 / gm * dt / np.maximum(ecc, 1.0)) / root_neg_beta
+        s_hyp = np.arcsinh(root_neg_beta**3 / gm * dt / np.maximum(ecc, 1.0)) / root_neg_beta
     s = np.where(beta > 0, dt * beta / gm, np.where(ecc > 1.0 + 1e-6, s_hyp, dt / r0))
     s = np.clip(np.nan_to_num(s), lo, hi)
     n_lag = 5.0
@@ -105,7 +116,7 @@ def universal_anomaly(r0_au: np.ndarray, sigma0: np.ndarray, beta: np.ndarray, q
         si, r0i, sgi, bi, dti = s[idx], r0[idx], sigma0[idx], beta[idx], dt[idx]
         c0, c1, c2, c3 = stumpff(bi * si * si)
         with np.errstate(over="ignore", invalid="ignore"):
-            f = r0i * si * c1 + sgi * si * si * c2 + gm * si ** 3 * c3 - dti
+            f = r0i * si * c1 + sgi * si * si * c2 + gm * si**3 * c3 - dti
             fp = r0i * c0 + sgi * si * c1 + gm * si * si * c2
             fpp = (gm - bi * r0i) * si * c1 + sgi * c0
         bad = ~(np.isfinite(f) & np.isfinite(fp) & np.isfinite(fpp))
@@ -129,8 +140,9 @@ def universal_anomaly(r0_au: np.ndarray, sigma0: np.ndarray, beta: np.ndarray, q
     return s
 
 
-def propagate_state(r0_au: np.ndarray, v0_au_d: np.ndarray, dt_d: np.ndarray,
-                    gm: float = GM_SUN_AU3_D2) -> tuple[np.ndarray, np.ndarray]:
+def propagate_state(
+    r0_au: np.ndarray, v0_au_d: np.ndarray, dt_d: np.ndarray, gm: float = GM_SUN_AU3_D2
+) -> tuple[np.ndarray, np.ndarray]:
     """Two-body state after ``dt_d`` days from position ``r0_au`` (…, 3) and velocity ``v0_au_d`` (…, 3).
 
     Universal variables with Lagrange f and g functions (Danby 1988, §6.9). Shapes broadcast; the
@@ -172,6 +184,7 @@ def orbit_rotation(orbit: Orbit) -> np.ndarray:
 
     R = R_x(ε₀) · R_z(Ω) · R_x(i) · R_z(ω), angles referred to the ecliptic and equinox of J2000.
     """
+
     def rz(a: float) -> np.ndarray:
         c, s = math.cos(a), math.sin(a)
         return np.array([[c, -s, 0.0], [s, c, 0.0], [0.0, 0.0, 1.0]])
@@ -180,8 +193,12 @@ def orbit_rotation(orbit: Orbit) -> np.ndarray:
         c, s = math.cos(a), math.sin(a)
         return np.array([[1.0, 0.0, 0.0], [0.0, c, -s], [0.0, s, c]])
 
-    return (rx(math.radians(OBLIQUITY_J2000_DEG)) @ rz(math.radians(orbit.ascending_node_deg))
-            @ rx(math.radians(orbit.inclination_deg)) @ rz(math.radians(orbit.arg_perihelion_deg)))
+    return (
+        rx(math.radians(OBLIQUITY_J2000_DEG))
+        @ rz(math.radians(orbit.ascending_node_deg))
+        @ rx(math.radians(orbit.inclination_deg))
+        @ rz(math.radians(orbit.arg_perihelion_deg))
+    )
 
 
 def perihelion_state(orbit: Orbit, gm: float = GM_SUN_AU3_D2) -> tuple[np.ndarray, np.ndarray]:
@@ -203,8 +220,7 @@ def propagate(orbit: Orbit, tdb_jd: np.ndarray, gm: float = GM_SUN_AU3_D2) -> tu
     return propagate_state(r0, v0, dt, gm)
 
 
-def propagate_reference(orbit: Orbit, tdb_jd: np.ndarray,
-                        gm: float = GM_SUN_AU3_D2) -> tuple[np.ndarray, np.ndarray]:
+def propagate_reference(orbit: Orbit, tdb_jd: np.ndarray, gm: float = GM_SUN_AU3_D2) -> tuple[np.ndarray, np.ndarray]:
     """Slow twin of :func:`propagate`: one epoch at a time, the classical Kepler equation of each conic.
 
     Ellipse: E − e sin E = M; hyperbola: e sinh H − H = M (both solved with scipy.optimize.brentq);
@@ -225,21 +241,23 @@ def propagate_reference(orbit: Orbit, tdb_jd: np.ndarray,
         dt = t - orbit.perihelion_tdb_jd
         if e < 1.0:
             a = q / (1.0 - e)
-            n = math.sqrt(gm / a ** 3)
+            n = math.sqrt(gm / a**3)
             m = math.remainder(n * dt, 2.0 * math.pi)
-            ecc_anom = brentq(lambda E, m=m: E - e * math.sin(E) - m, m - e - 1e-12, m + e + 1e-12,
-                              xtol=1e-15, rtol=1e-15)
-            nu = 2.0 * math.atan2(math.sqrt(1.0 + e) * math.sin(ecc_anom / 2),
-                                  math.sqrt(1.0 - e) * math.cos(ecc_anom / 2))
+            ecc_anom = brentq(
+                lambda E, m=m: E - e * math.sin(E) - m, m - e - 1e-12, m + e + 1e-12, xtol=1e-15, rtol=1e-15
+            )
+            nu = 2.0 * math.atan2(
+                math.sqrt(1.0 + e) * math.sin(ecc_anom / 2), math.sqrt(1.0 - e) * math.cos(ecc_anom / 2)
+            )
         elif e > 1.0:
             a = q / (e - 1.0)
-            n = math.sqrt(gm / a ** 3)
+            n = math.sqrt(gm / a**3)
             m = n * dt
             top = math.asinh(abs(m) / (e - 1.0)) + 1e-12
             hyp_anom = brentq(lambda H, m=m: e * math.sinh(H) - H - m, -top, top, xtol=1e-15, rtol=1e-15)
             nu = 2.0 * math.atan(math.sqrt((e + 1.0) / (e - 1.0)) * math.tanh(hyp_anom / 2))
         else:
-            w = 3.0 * math.sqrt(gm / (2.0 * q ** 3)) * dt
+            w = 3.0 * math.sqrt(gm / (2.0 * q**3)) * dt
             root = math.sqrt(w * w / 4.0 + 1.0)
             y = math.cbrt(w / 2.0 + root) - math.cbrt(-w / 2.0 + root)  # Y³ + 3Y = W (Barker)
             nu = 2.0 * math.atan(y)
@@ -249,8 +267,7 @@ def propagate_reference(orbit: Orbit, tdb_jd: np.ndarray,
     return pos, vel
 
 
-def orbit_from_state(pos_au: np.ndarray, vel_au_d: np.ndarray, tdb_jd: float,
-                     gm: float = GM_SUN_AU3_D2) -> Orbit:
+def orbit_from_state(pos_au: np.ndarray, vel_au_d: np.ndarray, tdb_jd: float, gm: float = GM_SUN_AU3_D2) -> Orbit:
     """Osculating elements (ecliptic J2000 angles) from one equatorial-J2000 state, any conic.
 
     Classical vector formulas (Danby 1988, §6.12): h = r × v, e = v × h / GM − r̂, q = h² / (GM(1 + e)),
@@ -278,8 +295,7 @@ def orbit_from_state(pos_au: np.ndarray, vel_au_d: np.ndarray, tdb_jd: float,
     return Orbit(tdb_jd, q, e, incl, node, peri, tdb_jd - time_since_perihelion(rn, float(r @ v), q, e, gm))
 
 
-def time_since_perihelion(r_au: float, sigma: float, q_au: float, e: float,
-                          gm: float = GM_SUN_AU3_D2) -> float:
+def time_since_perihelion(r_au: float, sigma: float, q_au: float, e: float, gm: float = GM_SUN_AU3_D2) -> float:
     """Time (days) from perihelion to a state with distance ``r_au`` and σ = r·v, for any conic.
 
     In universal variables counted from perihelion, r − q = GM e s² c2(βs²) and σ = GM e s c1(βs²),
@@ -292,7 +308,7 @@ def time_since_perihelion(r_au: float, sigma: float, q_au: float, e: float,
         return 0.0
     w = beta * dr * dr / (sigma * sigma) if sigma != 0.0 else math.copysign(math.inf, beta)
     if abs(w) < 1e-4:
-        g = 1.0 - w / 3.0 + w * w / 5.0 - w ** 3 / 7.0 + w ** 4 / 9.0  # atan(√w)/√w
+        g = 1.0 - w / 3.0 + w * w / 5.0 - w**3 / 7.0 + w**4 / 9.0  # atan(√w)/√w
         s = 2.0 * dr / sigma * g
     elif beta > 0.0:
         half = math.atan2(math.sqrt(beta) * dr, sigma)
@@ -302,4 +318,4 @@ def time_since_perihelion(r_au: float, sigma: float, q_au: float, e: float,
     else:
         s = 2.0 * math.atanh(math.sqrt(-beta) * dr / sigma) / math.sqrt(-beta)
     _, c1, _, c3 = stumpff(np.array([beta * s * s]))
-    return float(q_au * s * c1[0] + gm * s ** 3 * c3[0])
+    return float(q_au * s * c1[0] + gm * s**3 * c3[0])

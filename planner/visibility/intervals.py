@@ -78,8 +78,9 @@ def refine_edges(
     return t_in, t_out
 
 
-def refine_edge_slow(holds_at_one: Callable[[np.datetime64], bool], t_in: np.datetime64,
-                     t_out: np.datetime64, tol_s: float) -> np.datetime64:
+def refine_edge_slow(
+    holds_at_one: Callable[[np.datetime64], bool], t_in: np.datetime64, t_out: np.datetime64, tol_s: float
+) -> np.datetime64:
     """Scalar twin of :func:`refine_edges` for one bracket: step from t_in toward t_out by tol_s/4."""
     sign = 1 if t_out > t_in else -1
     step = np.timedelta64(max(1, int(tol_s * 1e9 / 4)), "ns") * sign

@@ -109,8 +109,10 @@ def sun_below_intervals(
         def below_at(t):
             return spline((t - unique_t[0]).astype(np.int64) / 3.6e12) < sun_alt_limit_deg
     else:
+
         def below_at(t):
             return sun_alt_deg(site, t) < sun_alt_limit_deg
+
     below = alt < sun_alt_limit_deg
     first, last = true_runs(below, night)
 
@@ -136,20 +138,40 @@ def sun_below_intervals(
         runs = np.flatnonzero(night[first] == k)
         polar = max_alt[k] < SUNRISE_SUN_ALT_DEG
         note = "polar night: the Sun stays below the horizon all day" if polar else ""
-        common = dict(site=site.name, night=labels[k], sun_min_alt_deg=min_alt[k], sun_max_alt_deg=max_alt[k],
-                      note=note)
+        common = dict(
+            site=site.name, night=labels[k], sun_min_alt_deg=min_alt[k], sun_max_alt_deg=max_alt[k], note=note
+        )
         if runs.size == 0:
             if min_alt[k] >= SUNRISE_SUN_ALT_DEG:
                 reason = "midnight Sun: the Sun stays above the horizon all night"
             else:
-                reason = (f"no {word} darkness at this latitude and season: the Sun gets no lower than "
-                          f"{min_alt[k]:.1f}° (the night needs {sun_alt_limit_deg:g}°)")
-            rows.append(dict(common, start_utc=np.datetime64("NaT", "ns"), end_utc=np.datetime64("NaT", "ns"),
-                             hours=0.0, start_is_twilight=False, end_is_twilight=False, reason=reason))
+                reason = (
+                    f"no {word} darkness at this latitude and season: the Sun gets no lower than "
+                    f"{min_alt[k]:.1f}° (the night needs {sun_alt_limit_deg:g}°)"
+                )
+            rows.append(
+                dict(
+                    common,
+                    start_utc=np.datetime64("NaT", "ns"),
+                    end_utc=np.datetime64("NaT", "ns"),
+                    hours=0.0,
+                    start_is_twilight=False,
+                    end_is_twilight=False,
+                    reason=reason,
+                )
+            )
         for j in runs:
-            rows.append(dict(common, start_utc=start[j], end_utc=end[j],
-                             hours=float((end[j] - start[j]).astype(np.int64) / 3.6e12),
-                             start_is_twilight=bool(~opens[j]), end_is_twilight=bool(~closes[j]), reason=""))
+            rows.append(
+                dict(
+                    common,
+                    start_utc=start[j],
+                    end_utc=end[j],
+                    hours=float((end[j] - start[j]).astype(np.int64) / 3.6e12),
+                    start_is_twilight=bool(~opens[j]),
+                    end_is_twilight=bool(~closes[j]),
+                    reason="",
+                )
+            )
     df = pd.DataFrame(rows)
     df["start_utc"] = df["start_utc"].astype("datetime64[ns]")
     df["end_utc"] = df["end_utc"].astype("datetime64[ns]")
@@ -158,12 +180,25 @@ def sun_below_intervals(
     return df[list(DARK_COLUMNS)]
 
 
-DARK_COLUMNS = ("site", "night", "start_utc", "end_utc", "start_local", "end_local", "hours",
-                "sun_min_alt_deg", "sun_max_alt_deg", "start_is_twilight", "end_is_twilight", "reason",
-                "note")
+DARK_COLUMNS = (
+    "site",
+    "night",
+    "start_utc",
+    "end_utc",
+    "start_local",
+    "end_local",
+    "hours",
+    "sun_min_alt_deg",
+    "sun_max_alt_deg",
+    "start_is_twilight",
+    "end_is_twilight",
+    "reason",
+    "note",
+)
 
 
-def dark_intervals(site: Site, first_night: date, nights: int, *, step_s: float = SUN_STEP_S,
-                   tol_s: float = EDGE_TOL_S) -> pd.DataFrame:
+def dark_intervals(
+    site: Site, first_night: date, nights: int, *, step_s: float = SUN_STEP_S, tol_s: float = EDGE_TOL_S
+) -> pd.DataFrame:
     """Dark time per night: the Sun below the site's twilight altitude (see :func:`sun_below_intervals`)."""
     return sun_below_intervals(site, first_night, nights, site.night_sun_alt_deg, step_s=step_s, tol_s=tol_s)

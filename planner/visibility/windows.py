@@ -19,118 +19,42 @@ import numpy as np
 import pandas as pd
 
 from planner.core.errors import InputError
+from planner.core.safety import SUN_SAFETY_TEXT, near_sun
 from planner.inputs.sites import Site
 from planner.visibility.intervals import refine_edges, true_runs
+from planner.visibility.limits import all_met, first_failed, limit_masks, no_window_reason
 from planner.visibility.nights import EDGE_TOL_S, dark_intervals, local_iso, night_labels, spans_grid
 
 #: Sky provider: UTC times per site name → one geometry row per time (columns of docs/formats.md).
 SkyAt = Callable[[dict[str, np.ndarray]], dict[str, pd.DataFrame]]
 
-#: The limits tested in darkness, in the order used to name the one that closes a window.
-LIMITS = ("sun_elong", "dec_range", "horizon", "hour_angle", "moon", "allocation")
-
-#: Solar elongation margin above the site's limit within which a window carries the Sun caution.
-SUN_CAUTION_MARGIN_DEG = 10.0
-
-SUN_CAUTION = ("pointing near the Sun can destroy equipment and blind people; the observatory's rules "
-               "decide")
 
 WINDOW_COLUMNS = (
-    "site", "night", "start_utc", "end_utc", "start_local", "end_local", "hours", "night_budget_h",
-    "best_utc", "min_airmass", "max_alt_deg", "moon_sep_deg", "moon_illum", "solar_elong_deg", "mag_pred",
-    "motion_arcsec_min", "start_limit", "end_limit", "reason", "caution",
+    "site",
+    "night",
+    "start_utc",
+    "end_utc",
+    "start_local",
+    "end_local",
+    "hours",
+    "night_budget_h",
+    "best_utc",
+    "min_airmass",
+    "max_alt_deg",
+    "moon_sep_deg",
+    "moon_illum",
+    "solar_elong_deg",
+    "mag_pred",
+    "motion_arcsec_per_min",
+    "start_limit",
+    "end_limit",
+    "reason",
+    "caution",
 )
-
-
-def moon_limit_deg(site: Site, moon_illum: np.ndarray) -> np.ndarray:
-    """Least Moon separation allowed: ``moon_min_sep_deg + moon_sep_per_illum_deg × illuminated fraction``."""
-    return site.moon_min_sep_deg + site.moon_sep_per_illum_deg * np.asarray(moon_illum, dtype=float)
-
-
-def in_blocks(times_utc: np.ndarray, blocks_utc: Sequence[tuple[np.datetime64, np.datetime64]]) -> np.ndarray:
-    """True where a time lies inside one of the sorted, half-open blocks [start, end)."""
-    t = np.asarray(times_utc, dtype="datetime64[ns]")
-    if not blocks_utc:
-        return np.ones(t.shape, dtype=bool)
-    starts = np.array([a for a, _ in blocks_utc], dtype="datetime64[ns]")
-    ends = np.array([b for _, b in blocks_utc], dtype="datetime64[ns]")
-    i = np.searchsorted(starts, t, side="right") - 1
-    return (i >= 0) & (t < ends[np.maximum(i, 0)])
-
-
-def limit_masks(site: Site, sky: pd.DataFrame) -> dict[str, np.ndarray]:
-    """Each pointing limit of the site tested on geometry rows: True where the limit is met.
-
-    The Moon limit applies only while the Moon's centre is above the horizon (moon_alt_deg > 0).
-    """
-    n = len(sky)
-    alt = sky["alt_deg"].to_numpy(float)
-    masks = {"sun_elong": sky["solar_elong_deg"].to_numpy(float) >= site.min_solar_elong_deg,
-             "horizon": alt >= site.horizon_alt_deg(sky["az_deg"].to_numpy(float))}
-    dec = sky["dec_deg"].to_numpy(float)
-    masks["dec_range"] = ((dec >= site.dec_range_deg[0]) & (dec <= site.dec_range_deg[1])
-                          if site.dec_range_deg else np.ones(n, dtype=bool))
-    masks["hour_angle"] = (np.abs(sky["hour_angle_h"].to_numpy(float)) <= site.max_hour_angle_h
-                           if site.max_hour_angle_h is not None else np.ones(n, dtype=bool))
-    masks["moon"] = (sky["moon_alt_deg"].to_numpy(float) <= 0.0) | (
-        sky["moon_sep_deg"].to_numpy(float) >= moon_limit_deg(site, sky["moon_illum"].to_numpy(float)))
-    masks["allocation"] = in_blocks(sky["time_utc"].to_numpy(), site.allocation.blocks_utc)
-    return {k: masks[k] for k in LIMITS}
-
-
-def _all_met(masks: dict[str, np.ndarray]) -> np.ndarray:
-    return np.logical_and.reduce([masks[k] for k in LIMITS])
-
-
-def _first_failed(masks: dict[str, np.ndarray]) -> np.ndarray:
-    """Name of the first limit (in LIMITS order) not met at each row; '' where all are met."""
-    names = np.array(LIMITS + ("",), dtype=object)
-    table = np.stack([~masks[k] for k in LIMITS] + [np.ones_like(masks[LIMITS[0]])])
-    return names[np.argmax(table, axis=0)]
 
 
 def _hours(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return (np.asarray(b, "datetime64[ns]") - np.asarray(a, "datetime64[ns]")).astype(np.int64) / 3.6e12
-
-
-def _no_window_reason(site: Site, sky: pd.DataFrame, masks: dict[str, np.ndarray]) -> str:
-    """Plain words for a night whose dark time never meets every limit (``sky``: its dark samples)."""
-    alone = [k for k in LIMITS if not masks[k].any()]
-    dec = sky["dec_deg"].to_numpy(float)
-    words = []
-    for k in alone:
-        if k == "horizon":
-            transit_deg = float(np.max(90.0 - np.abs(site.latitude_deg - dec)))
-            dark_max = float(sky["alt_deg"].max())
-            if transit_deg < 0.0:
-                words.append(f"never rises at this latitude (dec {np.median(dec):+.1f}°, "
-                             f"highest {transit_deg:.1f}° at transit)")
-            elif transit_deg < float(np.min(site.horizon_alt_deg(np.array([0.0, 90.0, 180.0, 270.0])))):
-                words.append(f"never climbs above the horizon limit (highest {transit_deg:.1f}° at transit)")
-            else:
-                words.append(f"below the horizon limit all dark time (highest {dark_max:.1f}° in darkness)")
-        elif k == "sun_elong":
-            words.append(f"too close to the Sun: elongation {sky['solar_elong_deg'].max():.1f}° < "
-                         f"{site.min_solar_elong_deg:g}° ({SUN_CAUTION})")
-        elif k == "dec_range":
-            words.append(f"declination {np.median(dec):+.1f}° outside the mount's range "
-                         f"[{site.dec_range_deg[0]:g}, {site.dec_range_deg[1]:g}]")
-        elif k == "hour_angle":
-            words.append(f"beyond the hour-angle limit ±{site.max_hour_angle_h:g} h all dark time")
-        elif k == "moon":
-            words.append(f"Moon too close all dark time ({sky['moon_sep_deg'].min():.0f}° from a "
-                         f"{100 * sky['moon_illum'].mean():.0f}% lit Moon)")
-        elif k == "allocation":
-            words.append("outside the allocated time blocks")
-    if words:
-        return "; ".join(words)
-    partial = [k for k in LIMITS if not masks[k].all()]
-    return f"no dark time meets all limits at once ({', '.join(_LIMIT_WORD[k] for k in partial)})"
-
-
-_LIMIT_WORD = {"sun_elong": "solar elongation", "dec_range": "declination range", "horizon": "horizon limit",
-               "hour_angle": "hour-angle limit", "moon": "Moon separation", "allocation": "allocation",
-               "twilight": "twilight", "noon": "night's noon edge"}
 
 
 def find_windows(
@@ -150,8 +74,7 @@ def find_windows(
     """
     names = [s.name for s in sites]
     if len(set(names)) != len(names):
-        raise InputError("command line", "site",
-                         f"two sites share a name ({', '.join(names)}); names must differ")
+        raise InputError("command line", "site", f"two sites share a name ({', '.join(names)}); names must differ")
     if step_s <= 0 or tol_s <= 0:
         raise InputError("command line", "step", "the grid step and the edge tolerance must be positive")
     labels = night_labels(first_night, nights)
@@ -162,8 +85,9 @@ def find_windows(
         d = dark_intervals(s, first_night, nights, tol_s=tol_s)
         dark[s.name] = d
         dark_on[s.name] = d[d["hours"] > 0].reset_index(drop=True)
-        grid[s.name], span_of[s.name] = spans_grid(dark_on[s.name]["start_utc"].to_numpy(),
-                                                   dark_on[s.name]["end_utc"].to_numpy(), step_s)
+        grid[s.name], span_of[s.name] = spans_grid(
+            dark_on[s.name]["start_utc"].to_numpy(), dark_on[s.name]["end_utc"].to_numpy(), step_s
+        )
     sky = sky_at(grid)
     masks = {s.name: limit_masks(s, sky[s.name]) for s in sites}
 
@@ -171,7 +95,7 @@ def find_windows(
     runs, brackets = {}, []
     for s in sites:
         t, span = grid[s.name], span_of[s.name]
-        first, last = true_runs(_all_met(masks[s.name]), span)
+        first, last = true_runs(all_met(masks[s.name]), span)
         opens = (first == 0) | (span[np.maximum(first - 1, 0)] != span[first])
         closes = (last == t.size - 1) | (span[np.minimum(last + 1, max(t.size - 1, 0))] != span[last])
         runs[s.name] = (first, last, opens, closes)
@@ -189,7 +113,7 @@ def find_windows(
         rows = sky_at({n: times[i] for n, i in sel.items()})
         for n, i in sel.items():
             if i.size:
-                ok[i] = _all_met(limit_masks(by_name[n], rows[n]))
+                ok[i] = all_met(limit_masks(by_name[n], rows[n]))
         return ok
 
     t_in, t_out = refine_edges(_holds_at, t_in, t_out, tol_s)
@@ -202,17 +126,33 @@ def find_windows(
         start, end = t[first].copy(), t[last].copy()
         start_out, end_out = start.copy(), end.copy()  # replaced where an edge was refined
         n_open, n_close = int((~opens).sum()), int((~closes).sum())
-        start[~opens], start_out[~opens] = t_in[k:k + n_open], t_out[k:k + n_open]
+        start[~opens], start_out[~opens] = t_in[k : k + n_open], t_out[k : k + n_open]
         k += n_open
-        end[~closes], end_out[~closes] = t_in[k:k + n_close], t_out[k:k + n_close]
+        end[~closes], end_out[~closes] = t_in[k : k + n_close], t_out[k : k + n_close]
         k += n_close
         best = _best_times(t, sky[s.name]["alt_deg"].to_numpy(float), first, last, start, end)
         edges[s.name] = (start, end, start_out, end_out, best)
     at = sky_at({n: np.concatenate(edges[n]) for n in names})
 
-    out = pd.concat([_site_rows(s, labels, dark[s.name], dark_on[s.name], grid[s.name], span_of[s.name],
-                                sky[s.name], masks[s.name], runs[s.name], edges[s.name], at[s.name])
-                     for s in sites], ignore_index=True)[list(WINDOW_COLUMNS)]
+    out = pd.concat(
+        [
+            _site_rows(
+                s,
+                labels,
+                dark[s.name],
+                dark_on[s.name],
+                grid[s.name],
+                span_of[s.name],
+                sky[s.name],
+                masks[s.name],
+                runs[s.name],
+                edges[s.name],
+                at[s.name],
+            )
+            for s in sites
+        ],
+        ignore_index=True,
+    )[list(WINDOW_COLUMNS)]
     for c in ("start_utc", "end_utc", "best_utc"):
         out[c] = out[c].astype("datetime64[ns]")
     return out
@@ -252,9 +192,9 @@ def _site_rows(site, labels, dark, dark_on, t, span, sky, masks, runs, edges, at
     empty = [k for k in range(len(labels))]
     parts = []
     if m:
-        at_start, at_end, at_best = (at.iloc[i * m:(i + 1) * m] for i in (0, 1, 4))
-        failed_start = _first_failed(limit_masks(site, at.iloc[2 * m:3 * m]))
-        failed_end = _first_failed(limit_masks(site, at.iloc[3 * m:4 * m]))
+        at_start, at_end, at_best = (at.iloc[i * m : (i + 1) * m] for i in (0, 1, 4))
+        failed_start = first_failed(limit_masks(site, at.iloc[2 * m : 3 * m]))
+        failed_end = first_failed(limit_masks(site, at.iloc[3 * m : 4 * m]))
         night_of_run = np.searchsorted(labels, dark_on["night"].to_numpy()[span[first]])
         hours = _hours(start, end)
         budget = np.zeros(len(labels))
@@ -264,33 +204,47 @@ def _site_rows(site, labels, dark, dark_on, t, span, sky, masks, runs, edges, at
         # The least solar elongation over each window (samples and both edges): the safety figure.
         c = "solar_elong_deg"
         inside, offsets = _run_values(sky[c].to_numpy(float), first, last)
-        elong = np.minimum.reduce([np.minimum.reduceat(inside, offsets), at_start[c].to_numpy(float),
-                                   at_end[c].to_numpy(float)])
+        elong = np.minimum.reduce(
+            [np.minimum.reduceat(inside, offsets), at_start[c].to_numpy(float), at_end[c].to_numpy(float)]
+        )
         span_rows = dark_on.iloc[span[first]]
         edge_kind = {True: "twilight", False: "noon"}
         start_limit = np.where(opens, [edge_kind[b] for b in span_rows["start_is_twilight"]], failed_start)
         end_limit = np.where(closes, [edge_kind[b] for b in span_rows["end_is_twilight"]], failed_end)
-        near_sun = (elong < site.min_solar_elong_deg + SUN_CAUTION_MARGIN_DEG) | (start_limit == "sun_elong") | (
-            end_limit == "sun_elong")
+        near = near_sun(elong, site.min_solar_elong_deg) | (start_limit == "sun_elong") | (end_limit == "sun_elong")
         caution = []
         for j in range(m):  # a sentence per window: output assembly only
-            words = [f"Sun {elong[j]:.0f}° away: {SUN_CAUTION}"] if near_sun[j] else []
+            words = [f"Sun {elong[j]:.0f}° away: {SUN_SAFETY_TEXT}"] if near[j] else []
             tw = [w for w, lim in (("opens", start_limit[j]), ("closes", end_limit[j])) if lim == "twilight"]
             if tw:
                 words.append(f"{' and '.join(tw)} in {site.twilight} twilight: keep clear of the Sun's side of the sky")
             caution.append("; ".join(words))
-        parts.append(pd.DataFrame({
-            "site": site.name, "night": np.asarray(labels)[night_of_run], "start_utc": start, "end_utc": end,
-            "start_local": local_iso(start, site.timezone), "end_local": local_iso(end, site.timezone),
-            "hours": hours, "night_budget_h": budget[night_of_run], "best_utc": best,
-            "min_airmass": at_best["airmass"].to_numpy(float), "max_alt_deg": at_best["alt_deg"].to_numpy(float),
-            "moon_sep_deg": at_best["moon_sep_deg"].to_numpy(float),
-            "moon_illum": at_best["moon_illum"].to_numpy(float), "solar_elong_deg": elong,
-            "mag_pred": at_best["mag_pred"].to_numpy(float),
-            "motion_arcsec_min": at_best["motion_arcsec_min"].to_numpy(float),
-            "start_limit": start_limit.astype(str), "end_limit": end_limit.astype(str), "reason": "",
-            "caution": caution,
-        }))
+        parts.append(
+            pd.DataFrame(
+                {
+                    "site": site.name,
+                    "night": np.asarray(labels)[night_of_run],
+                    "start_utc": start,
+                    "end_utc": end,
+                    "start_local": local_iso(start, site.timezone),
+                    "end_local": local_iso(end, site.timezone),
+                    "hours": hours,
+                    "night_budget_h": budget[night_of_run],
+                    "best_utc": best,
+                    "min_airmass": at_best["airmass"].to_numpy(float),
+                    "max_alt_deg": at_best["alt_deg"].to_numpy(float),
+                    "moon_sep_deg": at_best["moon_sep_deg"].to_numpy(float),
+                    "moon_illum": at_best["moon_illum"].to_numpy(float),
+                    "solar_elong_deg": elong,
+                    "mag_pred": at_best["mag_pred"].to_numpy(float),
+                    "motion_arcsec_per_min": at_best["motion_arcsec_per_min"].to_numpy(float),
+                    "start_limit": start_limit.astype(str),
+                    "end_limit": end_limit.astype(str),
+                    "reason": "",
+                    "caution": caution,
+                }
+            )
+        )
         empty = sorted(set(empty) - set(night_of_run.tolist()))
     if empty:
         parts.append(pd.DataFrame([_empty_row(site, labels[k], dark, dark_on, span, sky, masks) for k in empty]))
@@ -309,16 +263,33 @@ def _empty_row(site, label, dark, dark_on, span, sky, masks) -> dict:
         sel = np.isin(span, spans_k)
         night_masks = {n: v[sel] for n, v in masks.items()}
         night_sky = sky.iloc[np.flatnonzero(sel)]
-        reason = _no_window_reason(site, night_sky, night_masks)
+        reason = no_window_reason(site, night_sky, night_masks)
         elong = float(night_sky["solar_elong_deg"].min())
         if not night_masks["sun_elong"].all():
-            caution = f"Sun {elong:.0f}° away: {SUN_CAUTION}"
+            caution = f"Sun {elong:.0f}° away: {SUN_SAFETY_TEXT}"
     nat = np.datetime64("NaT", "ns")
-    return dict(site=site.name, night=label, start_utc=nat, end_utc=nat, start_local="", end_local="",
-                hours=0.0, night_budget_h=0.0, best_utc=nat, min_airmass=np.nan, max_alt_deg=np.nan,
-                moon_sep_deg=np.nan, moon_illum=np.nan, solar_elong_deg=elong, mag_pred=np.nan,
-                motion_arcsec_min=np.nan,
-                start_limit="", end_limit="", reason=reason, caution=caution)
+    return dict(
+        site=site.name,
+        night=label,
+        start_utc=nat,
+        end_utc=nat,
+        start_local="",
+        end_local="",
+        hours=0.0,
+        night_budget_h=0.0,
+        best_utc=nat,
+        min_airmass=np.nan,
+        max_alt_deg=np.nan,
+        moon_sep_deg=np.nan,
+        moon_illum=np.nan,
+        solar_elong_deg=elong,
+        mag_pred=np.nan,
+        motion_arcsec_per_min=np.nan,
+        start_limit="",
+        end_limit="",
+        reason=reason,
+        caution=caution,
+    )
 
 
 #: Below this many epochs in all, sites are evaluated together on the union of their times (one
@@ -350,8 +321,21 @@ def geometry_sky(target, sites: Sequence[Site], pool_max_epochs: int = POOL_MAX_
     return sky_at
 
 
-_SKY_COLUMNS = ("ra_deg", "dec_deg", "solar_elong_deg", "mag_pred", "motion_arcsec_min", "alt_deg", "az_deg",
-                "airmass", "hour_angle_h", "sun_alt_deg", "moon_alt_deg", "moon_sep_deg", "moon_illum")
+_SKY_COLUMNS = (
+    "ra_deg",
+    "dec_deg",
+    "solar_elong_deg",
+    "mag_pred",
+    "motion_arcsec_per_min",
+    "alt_deg",
+    "az_deg",
+    "airmass",
+    "hour_angle_h",
+    "sun_alt_deg",
+    "moon_alt_deg",
+    "moon_sep_deg",
+    "moon_illum",
+)
 
 
 def observable_windows(

@@ -1,0 +1,192 @@
+"""Every fast kernel beside its slow, obvious twin, in one table (docs/architecture.md, "Fast kernels").
+
+Each row builds one seeded, realistic input, runs both implementations and compares the results. The
+module tests add wide property tests (hypothesis) for the same pairs; this table makes sure no pair is
+ever left without a comparison. A new kernel with a twin gets a row here.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+import pytest
+from schedule_helpers import model_for
+
+from planner.diagnostics import coverage, periodogram, sensitivity, specwindow
+from planner.inputs.targets import Orbit
+from planner.photometry import ccd
+from planner.schedule import greedy, objective, quality
+from planner.sky import kepler
+from planner.visibility import intervals
+
+T0_JD = 2462000.5  # an epoch in 2028
+
+
+def _times(rng: np.random.Generator, n: int = 120, span_d: float = 7.0) -> np.ndarray:
+    return T0_JD + np.sort(rng.uniform(0.0, span_d, n))
+
+
+@dataclass(frozen=True)
+class Twin:
+    name: str
+    #: (rng) -> (fast result, slow result)
+    run: Callable[[np.random.Generator], tuple[object, object]]
+    rtol: float = 1e-9
+    atol: float = 0.0
+
+
+def _kepler(rng):
+    orbit = Orbit(
+        epoch_tdb_jd=T0_JD,
+        perihelion_dist_au=0.9,
+        eccentricity=1.3,
+        inclination_deg=40.0,
+        ascending_node_deg=120.0,
+        arg_perihelion_deg=200.0,
+        perihelion_tdb_jd=T0_JD + 10.0,
+    )
+    t = T0_JD + np.linspace(-200.0, 200.0, 25)
+    return kepler.propagate(orbit, t)[0], kepler.propagate_reference(orbit, t)[0]
+
+
+def _true_runs(rng):
+    mask = rng.random(400) < 0.6
+    segment = np.cumsum(rng.random(400) < 0.05)
+    return np.concatenate(intervals.true_runs(mask, segment)), np.concatenate(intervals.true_runs_slow(mask, segment))
+
+
+def _refine_edges(rng):
+    t_in = np.datetime64("2034-03-16T20:00", "ns") + (rng.uniform(0, 3600, 6) * 1e9).astype("timedelta64[ns]")
+    cross = t_in + (rng.uniform(1, 290, 6) * 1e9).astype("timedelta64[ns]")
+    t_out = t_in + np.timedelta64(300, "s")
+    fast = intervals.refine_edges(lambda t: t < cross, t_in, t_out, 1.0)[0]
+    slow = [
+        intervals.refine_edge_slow(lambda t, c=c: t < c, a, b, 1.0) for a, b, c in zip(t_in, t_out, cross, strict=True)
+    ]
+    return fast.astype(np.int64) / 1e9, np.array(slow, dtype="datetime64[ns]").astype(np.int64) / 1e9
+
+
+def _exposure(rng):
+    args = [
+        (float(s), float(f), float(k), 0.1, 8.0, float(n))
+        for s, f, k, n in zip(
+            rng.uniform(5, 200, 8), rng.uniform(10, 1e4, 8), rng.uniform(0.1, 50, 8), rng.uniform(5, 80, 8), strict=True
+        )
+    ]
+    fast = [float(ccd.exposure_for_snr_s(*a)) for a in args]
+    return np.array(fast), np.array([ccd.exposure_for_snr_s_slow(*a) for a in args])
+
+
+def _coverage(rng):
+    t, p = _times(rng), np.geomspace(2.0, 30.0, 60)
+    return np.concatenate(coverage.phase_coverage(t, p, 20)), np.concatenate(coverage.phase_coverage_slow(t, p, 20))
+
+
+def _window(rng):
+    t, f = _times(rng), np.linspace(0.01, 5.0, 300)
+    w = rng.uniform(0.5, 2.0, t.size)
+    return specwindow.spectral_window(t, f, w), specwindow.spectral_window_slow(t, f, w)
+
+
+def _nyquist(rng):
+    t = T0_JD + np.round(np.sort(rng.uniform(0.0, 5.0, 60)) * 86400.0 / 60.0) * 60.0 / 86400.0
+    return specwindow.nyquist_freq_per_day(t), specwindow.nyquist_freq_per_day_slow(t)
+
+
+def _periodogram(rng):
+    t = _times(rng, 80)
+    y = 0.2 * np.sin(2 * np.pi * t * 24 / 7.3)[:, None] + rng.normal(0, 0.02, (t.size, 3))
+    f = np.linspace(0.8, 12.0, 40)
+    kw = dict(nterms=2, sigma=0.02, trend_degree=1)
+    return periodogram.multiharmonic_power(t, y, f, **kw), periodogram.multiharmonic_power_slow(t, y, f, **kw)
+
+
+def _fading(rng):
+    t, p, s = _times(rng, 60), rng.uniform(2, 30, 5), rng.uniform(0.005, 0.05, 60)
+    return sensitivity.fading_rate_sigma(t, p, s, 2), sensitivity.fading_rate_sigma_slow(t, p, s, 2)
+
+
+def _frequency(rng):
+    t, p, s = _times(rng, 60), rng.uniform(2, 30, 5), rng.uniform(0.005, 0.05, 60)
+    return (sensitivity.frequency_sigma(t, p, s, 0.3, 2, 2), sensitivity.frequency_sigma_slow(t, p, s, 0.3, 2, 2))
+
+
+def _slot_quality(rng):
+    prec, x = rng.uniform(0, 1e4, 50), rng.uniform(1.0, 3.0, 50)
+    return quality.slot_quality(prec, x, 2.0, 1e4), quality.slot_quality_slow(prec, x, 2.0, 1e4)
+
+
+def _arc_mask(rng):
+    t0 = rng.uniform(0, 100, 5)
+    t1, p = t0 + rng.uniform(0, 5, 5), np.geomspace(2, 30, 9)
+    return objective.arc_mask(t0, t1, p, 12), objective.arc_mask_slow(t0, t1, p, 12)
+
+
+def _coverage_gains(rng):
+    masks, covered = rng.random((9, 7, 11)) < 0.3, rng.random((7, 11)) < 0.5
+    fast = objective.coverage_gains(objective.pack_cells(masks), objective.pack_cells(covered))
+    return fast, objective.coverage_gains_slow(masks, covered)
+
+
+def _window_sum(rng):
+    t0, n, nu = rng.uniform(0, 100, 4), rng.integers(1, 40, 4), np.linspace(0.05, 6.0, 37)
+    return objective.window_sum(t0, n, 5 / 60, nu), objective.window_sum_slow(t0, n, 5 / 60, nu)
+
+
+def _excess_gap(rng):
+    a = np.sort(rng.uniform(0, 100, 8))
+    iv = np.stack([a, a + rng.uniform(0, 5, 8)], axis=1)
+    return objective.excess_gap_h(iv, (0.0, 130.0), 12.0), objective.excess_gap_h_slow(iv, (0.0, 130.0), 12.0)
+
+
+def _visit_phasors(rng):
+    model, _, _ = model_for(n_sites=2, n_nights=2, n_periods=20, n_bins=10, seed=int(rng.integers(100)))
+    fast, slow = [], []
+    for p, sn in enumerate(model.grid.site_nights):
+        a, b = sn.intervals[0]
+        length = max(1, (b - a) // 2)
+        fast.append(model.visit_phasors(p, a, length)[0])
+        slow.append(model.visit_phasors_slow(p, a, length)[0])
+    return np.concatenate(fast), np.concatenate(slow)
+
+
+def _greedy(rng):
+    model, _, _ = model_for(n_sites=2, n_nights=2, n_periods=24, n_bins=10, seed=int(rng.integers(100)))
+    packed, start = model.element_packed(), objective.pack_cells(model.done_cells)
+    lazy, plain = greedy.greedy_lazy(model.grid, packed, start), greedy.greedy_plain(model.grid, packed, start)
+    return np.array(lazy.elements), np.array(plain.elements)
+
+
+TWINS = [
+    Twin("kepler.propagate", _kepler, rtol=1e-10, atol=1e-10),
+    Twin("intervals.true_runs", _true_runs),
+    Twin("intervals.refine_edges", _refine_edges, atol=1.0),
+    Twin("ccd.exposure_for_snr_s", _exposure, rtol=1e-9),
+    Twin("coverage.phase_coverage", _coverage),
+    Twin("specwindow.spectral_window", _window, rtol=1e-9, atol=1e-12),
+    Twin("specwindow.nyquist_freq_per_day", _nyquist),
+    Twin("periodogram.multiharmonic_power", _periodogram, rtol=1e-8, atol=1e-10),
+    Twin("sensitivity.fading_rate_sigma", _fading, rtol=1e-6),
+    Twin("sensitivity.frequency_sigma", _frequency, rtol=1e-6),
+    Twin("quality.slot_quality", _slot_quality),
+    Twin("objective.arc_mask", _arc_mask),
+    Twin("objective.coverage_gains", _coverage_gains),
+    Twin("objective.window_sum", _window_sum, rtol=1e-9, atol=1e-9),
+    Twin("objective.excess_gap_h", _excess_gap, rtol=1e-12),
+    Twin("state.PlanModel.visit_phasors", _visit_phasors, rtol=1e-9, atol=1e-9),
+    Twin("greedy.greedy_lazy", _greedy),
+]
+
+
+@pytest.mark.parametrize("twin", TWINS, ids=[t.name for t in TWINS])
+@pytest.mark.parametrize("seed", [1, 2])
+def test_fast_kernel_equals_its_slow_twin(twin: Twin, seed: int):
+    fast, slow = twin.run(np.random.default_rng(seed))
+    fast, slow = np.asarray(fast), np.asarray(slow)
+    assert fast.shape == slow.shape, twin.name
+    if fast.dtype == bool or np.issubdtype(fast.dtype, np.integer):
+        assert np.array_equal(fast, slow), twin.name
+    else:
+        np.testing.assert_allclose(fast, slow, rtol=twin.rtol, atol=twin.atol, err_msg=twin.name)
