@@ -118,22 +118,24 @@ def harmonic_columns(t_days: np.ndarray, freq_per_day: np.ndarray | float, nterm
 
 @dataclass(frozen=True)
 class _FixedFit:
-    basis: np.ndarray       # (N + p, r) orthonormal basis of the augmented fixed columns
-    resid: np.ndarray       # (N + p, M) augmented residual [√w (y − Xβ̂); −√λ β̂]
+    basis: np.ndarray       # (N + q, r) orthonormal basis of the augmented fixed columns (q prior rows)
+    resid: np.ndarray       # (N + q, M) augmented residual [√w (y − Xβ̂); −√λ β̂]
     chi2: np.ndarray        # (M,)
 
 
 def _fixed_fit(sw: np.ndarray, yy: np.ndarray, x: np.ndarray, lam: np.ndarray) -> _FixedFit:
-    """Least squares of the fixed columns alone on the augmented system [√W X; √Λ] β = [√W y; 0]."""
+    """Least squares of the fixed columns alone on the augmented system [√W X; √Λ] β = [√W y; 0]
+    (one prior row per column with λ > 0)."""
     n, p = x.shape
-    rhs = np.vstack([sw[:, None] * yy, np.zeros((p, yy.shape[1]))])
+    prior_rows = np.diag(np.sqrt(lam))[lam > 0]
+    rhs = np.vstack([sw[:, None] * yy, np.zeros((prior_rows.shape[0], yy.shape[1]))])
     if p == 0:
         return _FixedFit(np.zeros((n, 0)), rhs, np.einsum("nm,nm->m", rhs, rhs))
-    a = np.vstack([sw[:, None] * x, np.diag(np.sqrt(lam))])
+    a = np.vstack([sw[:, None] * x, prior_rows])
     norm = np.sqrt(np.einsum("ij,ij->j", a, a))
     a = a[:, norm > 0] / norm[norm > 0]
     if a.shape[1] == 0:
-        return _FixedFit(np.zeros((n + p, 0)), rhs, np.einsum("nm,nm->m", rhs, rhs))
+        return _FixedFit(np.zeros((rhs.shape[0], 0)), rhs, np.einsum("nm,nm->m", rhs, rhs))
     u, sv, _ = np.linalg.svd(a, full_matrices=False)
     basis = u[:, sv > _FIXED_RCOND * sv[0]]
     resid = rhs - basis @ (basis.T @ rhs)
@@ -221,8 +223,12 @@ def _schur_reduction(d: np.ndarray, s: np.ndarray, r: np.ndarray) -> tuple[np.nd
 
 def _trig_sums_high(z: np.ndarray, w: np.ndarray) -> np.ndarray:
     """Σ w e^{imθ} for m = K+1..2K, (Fb, K) complex, from products of the first K harmonics."""
-    nterms = z.shape[1]
-    return np.stack([(z[:, nterms - 1, :] * z[:, j, :]) @ w for j in range(nterms)], axis=1)
+    nf, nterms, n = z.shape
+    out = np.empty((nf, nterms), dtype=complex)
+    for j in range(nterms):
+        prod = z[:, nterms - 1, :] * z[:, j, :]
+        out[:, j] = (w @ prod.view(float).reshape(nf, n, 2)).view(complex)[:, 0]
+    return out
 
 
 def _block_products(phasors: _Phasors, left: np.ndarray, w: np.ndarray, start: int, stop: int,
