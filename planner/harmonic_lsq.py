@@ -41,7 +41,7 @@ from typing import NamedTuple
 import numpy as np
 
 #: Bytes of harmonics (complex and real copies) per block of frequencies: stays in the cache.
-_BLOCK_BYTES = 2_000_000
+_BLOCK_BYTES = 1_000_000
 #: Frequencies whose small (2K × 2K) systems are reduced together.
 _OUTER_FREQS = 1024
 #: A Schur pivot below this fraction of its column's weighted norm² is recomputed by QR.
@@ -222,13 +222,11 @@ def _schur_reduction(d: np.ndarray, s: np.ndarray, r: np.ndarray) -> tuple[np.nd
 
 
 def _trig_sums_high(z: np.ndarray, w: np.ndarray) -> np.ndarray:
-    """Σ w e^{imθ} for m = K+1..2K, (Fb, K) complex, from products of the first K harmonics."""
+    """Σ w e^{imθ} for m = K+1..2K, (Fb, K) complex: e^{iKθ}·e^{ijθ}, j = 1..K, then one weighted
+    sum over points (numpy's own loop over the real view: no threaded BLAS call on small blocks)."""
     nf, nterms, n = z.shape
-    out = np.empty((nf, nterms), dtype=complex)
-    for j in range(nterms):
-        prod = z[:, nterms - 1, :] * z[:, j, :]
-        out[:, j] = (w @ prod.view(float).reshape(nf, n, 2)).view(complex)[:, 0]
-    return out
+    high = z[:, nterms - 1:nterms, :] * z
+    return (w @ high.view(float).reshape(nf, nterms, n, 2)).view(complex)[..., 0]
 
 
 def _block_products(phasors: _Phasors, left: np.ndarray, w: np.ndarray, start: int, stop: int,
