@@ -9,6 +9,7 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
+from planner.errors import InputError
 from planner.lightcurve import fit_light_curve
 from planner.lightcurve.scan import frequency_grid_per_day
 from tests.lightcurve_synth import C_AU_PER_DAY, SITES, T0_JD, campaign
@@ -176,3 +177,13 @@ def test_light_time_correction_removes_the_period_bias_of_a_changing_distance():
     assert abs(fixed.periods.best_h - 6.3) < 3 * fixed.periods.sigma_h
     assert naive.periods.best_h - fixed.periods.best_h == pytest.approx(bias, rel=0.1)
     assert bias > 3 * fixed.periods.sigma_h
+
+
+def test_too_few_points_and_bad_options_are_input_errors():
+    c = campaign(np.random.default_rng(1), sites=SITES[:1], nights=1, points_per_night=7)
+    with pytest.raises(InputError, match="7 points are too few for a model with 8 parameters"):
+        fit_light_curve(c.points)
+    with pytest.raises(InputError, match="min_period_h"):
+        fit_light_curve(c.points, min_period_h=5.0, max_period_h=3.0)
+    with pytest.raises(InputError, match="night_offset_sigma_mag"):
+        fit_light_curve(c.points, night_offset_sigma_mag=-0.01)

@@ -102,8 +102,9 @@ def find_candidates(design: FixedDesign, scan: Scan, max_candidates: int = 20) -
     n = scan.nterms
     dof = design.dof(2 * n) - 1  # the frequency is fitted too
     if dof <= 0:
-        raise ValueError(f"{design.y.size} points are too few for a model with {design.columns.shape[1] + 2 * n} "
-                         "parameters")
+        raise ValueError(f"{design.y.size} points are too few for a model with {design.columns.shape[1] + 2 * n + 1} "
+                         f"parameters (zero points, {n} harmonics and the frequency; {design.prior_rows} of them "
+                         "held by a prior)")
     idx = grid_minima(scan.chi2)
     idx = idx[np.argsort(scan.chi2[idx], kind="stable")[:_REFINED]]
     f_ref, c_ref = refine_minima(design, n, scan.freq_per_day, idx)
