@@ -152,6 +152,42 @@ def _visit_phasors(rng):
     return np.concatenate(fast), np.concatenate(slow)
 
 
+def _harmonic_chi2(rng):
+    from planner.diagnostics import harmonic_lsq
+
+    t = np.sort(rng.uniform(0.0, 6.0, 90))
+    y = 0.3 * np.cos(2 * np.pi * t * 3.1)[:, None] + rng.normal(0, 0.03, (90, 2))
+    fixed = np.column_stack([np.ones(90), (t > 3).astype(float), t])
+    prior = np.array([0.0, 0.0, 1.0 / 0.02**2])
+    f = np.linspace(0.5, 8.0, 30)
+    kw = dict(nterms=2, fixed=fixed, prior_precision=prior)
+    w = rng.uniform(500, 3000, 90)
+    return (harmonic_lsq.harmonic_chi2(t, y, w, f, **kw).chi2, harmonic_lsq.harmonic_chi2_slow(t, y, w, f, **kw).chi2)
+
+
+def _discrimination(rng):
+    from planner.lightcurve.discriminate import (
+        CandidateModel,
+        expected_min_delta_chi2,
+        expected_min_delta_chi2_slow,
+    )
+
+    models = [
+        CandidateModel(
+            period_h=p,
+            delta_chi2=0.0,
+            t_ref_jd=T0_JD,
+            mean_mag=15.0,
+            k1=10.0,
+            log10_r_ref=0.1,
+            harmonics=rng.normal(0, 0.1, 4),
+        )
+        for p in (6.0, 8.0, 12.0)
+    ]
+    t, r = _times(rng, 40), rng.uniform(1.2, 1.3, 40)
+    return (expected_min_delta_chi2(t, 0.02, models, r), expected_min_delta_chi2_slow(t, 0.02, models, r))
+
+
 def _greedy(rng):
     model, _, _ = model_for(n_sites=2, n_nights=2, n_periods=24, n_bins=10, seed=int(rng.integers(100)))
     packed, start = model.element_packed(), objective.pack_cells(model.done_cells)
@@ -177,6 +213,8 @@ TWINS = [
     Twin("objective.excess_gap_h", _excess_gap, rtol=1e-12),
     Twin("state.PlanModel.visit_phasors", _visit_phasors, rtol=1e-9, atol=1e-9),
     Twin("greedy.greedy_lazy", _greedy),
+    Twin("harmonic_lsq.harmonic_chi2", _harmonic_chi2, rtol=1e-8, atol=1e-8),
+    Twin("discriminate.expected_min_delta_chi2", _discrimination, rtol=1e-9),
 ]
 
 

@@ -14,18 +14,18 @@ the multi-harmonic periodogram of Schwarzenberg-Czerny (1996), ApJ 460, L107, in
 form. With ``trend_degree=0`` and no columns it equals astropy's LombScargle with
 ``nterms=K``, ``normalization='standard'`` (VanderPlas 2018, ApJS 236, 16, §6).
 
-Speed: every trial shares the same times and weights, so per trial frequency the harmonic design
-matrix is built once, made orthogonal to the trend (QR), and all trials are projected together
-by one matrix product. :func:`multiharmonic_power_slow` fits one trial at one frequency at a time
-with ``numpy.linalg.lstsq``, the obvious way; the tests hold the two to 1e-10.
+Speed: every trial shares the same times and weights, so the χ² of all trials at all frequencies
+comes from the batched normal-equation kernel :func:`planner.diagnostics.harmonic_lsq.harmonic_chi2` (trend
+fitted once, one matrix product per block of frequencies for every trial at once, Schur complement
+of the trend). :func:`multiharmonic_power_slow` fits one trial at one frequency at a time with
+``numpy.linalg.lstsq``, the obvious way; the tests hold the two to 1e-10.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-#: Frequencies handled per block: bounds the (block, N, 2K) design stack in memory.
-_BLOCK_ELEMENTS = 2_000_000
+from planner.diagnostics.harmonic_lsq import harmonic_chi2, harmonic_columns
 
 
 def _prepare(times_jd, y, sigma, trend_degree, trend_columns):
@@ -64,25 +64,9 @@ def trend_basis(times_jd: np.ndarray, trend_degree: int = 0, trend_columns: np.n
     return np.column_stack(cols) if cols else np.zeros((t.size, 0))
 
 
-def trend_projector(weighted_basis: np.ndarray) -> np.ndarray:
-    """Orthonormal columns spanning the weighted trend basis; dependent columns dropped (SVD)."""
-    if weighted_basis.shape[1] == 0:
-        return np.zeros((weighted_basis.shape[0], 0))
-    u, sv, _ = np.linalg.svd(weighted_basis, full_matrices=False)
-    return u[:, sv > 1e-10 * sv[0]] if sv[0] > 0 else u[:, :0]
-
-
 def harmonic_design(t_days: np.ndarray, freq_per_day: np.ndarray, nterms: int) -> np.ndarray:
     """(F, N, 2K) stack: cos(2πkft), sin(2πkft) for k = 1..K, harmonics by angle addition."""
-    arg = (2.0 * np.pi) * np.outer(freq_per_day, t_days)
-    c1, s1 = np.cos(arg), np.sin(arg)
-    out = np.empty(arg.shape + (2 * nterms,))
-    out[..., 0], out[..., 1] = c1, s1
-    ck, sk = c1, s1
-    for k in range(1, nterms):
-        ck, sk = ck * c1 - sk * s1, sk * c1 + ck * s1
-        out[..., 2 * k], out[..., 2 * k + 1] = ck, sk
-    return out
+    return harmonic_columns(t_days, np.atleast_1d(np.asarray(freq_per_day, dtype=float)), nterms)
 
 
 def multiharmonic_power(
@@ -110,27 +94,10 @@ def multiharmonic_power(
     power = np.zeros((f.size, m))
     if n == 0:
         return power[:, 0] if single else power
-    q_b = trend_projector(s[:, None] * basis)
-    y_w = s[:, None] * yy
-    y_r = y_w - q_b @ (q_b.T @ y_w)
-    chi0 = np.einsum("nm,nm->m", y_r, y_r)
+    fit = harmonic_chi2(t, yy, s * s, f, nterms, fixed=basis, progress=progress)
+    chi0 = fit.chi2_fixed
     scale = np.where(chi0 > 0, 1.0 / np.where(chi0 > 0, chi0, 1.0), 0.0)
-    k2 = 2 * nterms
-    block = max(1, _BLOCK_ELEMENTS // (n * k2))
-    for start in range(0, f.size, block):
-        fb = f[start : start + block]
-        h = harmonic_design(t, fb, nterms) * s[None, :, None]
-        h -= np.einsum("nq,fqj->fnj", q_b, np.einsum("nq,fnj->fqj", q_b, h))
-        q_h, r_h = np.linalg.qr(h)
-        # columns that the trend (or earlier harmonics) already explain carry no information
-        diag = np.abs(np.diagonal(r_h, axis1=1, axis2=2))
-        colnorm = np.sqrt(np.einsum("fnj,fnj->fj", h, h)) + np.finfo(float).tiny
-        keep = diag > 1e-9 * np.maximum(colnorm, diag.max(axis=1, keepdims=True))
-        z = (np.swapaxes(q_h, 1, 2).reshape(-1, n) @ y_r).reshape(fb.size, k2, m)
-        z *= keep[:, :, None]
-        power[start : start + block] = np.einsum("fjm,fjm->fm", z, z) * scale
-        if progress is not None:
-            progress(min(1.0, (start + fb.size) / f.size))
+    power = fit.reduction * scale[None, :]
     return power[:, 0] if single else power
 
 
