@@ -15,16 +15,15 @@ import pytest
 from planner.inputs.settings import BlockRules
 from planner.schedule.exact import exact_coverage
 from planner.schedule.greedy import greedy_lazy, greedy_plain, merge_elements
-from planner.schedule.objective import arc_mask_slow, pack_cells
+from planner.schedule.objective import arc_mask_slow
 from tests.schedule_helpers import model_for
 
 SMALL = BlockRules(slot_minutes=15, min_block_h=1.0, max_block_h=4.0, setup_minutes=15, max_per_night=2)
 
 
 def _run(model):
-    packed = model.element_packed()
-    start = pack_cells(model.done_cells)
-    return greedy_lazy(model.grid, packed, start), greedy_plain(model.grid, packed, start)
+    cells = model.element_cells()
+    return greedy_lazy(model.grid, cells, model.done_cells), greedy_plain(model.grid, cells, model.done_cells)
 
 
 @pytest.mark.parametrize("seed", range(6))

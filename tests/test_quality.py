@@ -19,7 +19,7 @@ from hypothesis import strategies as st
 
 from planner.inputs.settings import BlockRules, Weights
 from planner.schedule.greedy import greedy_lazy, greedy_plain
-from planner.schedule.objective import arc_mask_slow, pack_cells
+from planner.schedule.objective import arc_mask_slow
 from planner.schedule.optimise import optimise
 from planner.schedule.quality import point_sigma_mag, slot_quality, slot_quality_slow
 from planner.schedule.state import PlanModel, PlanState, Visit
@@ -116,9 +116,9 @@ def test_lazy_equals_plain_with_slot_credit(seed):
     m = _with_quality(
         base, Weights(), [rng.uniform(0, 1, p.intervals[-1][1] - p.intervals[0][0]) for p in base.grid.site_nights]
     )
-    packed, start, credit = m.element_packed(), pack_cells(m.done_cells), m.slot_credit()
-    lazy = greedy_lazy(m.grid, packed, start, credit)
-    plain = greedy_plain(m.grid, packed, start, credit)
+    cells, start, credit = m.element_cells(), m.done_cells, m.slot_credit()
+    lazy = greedy_lazy(m.grid, cells, start, credit)
+    plain = greedy_plain(m.grid, cells, start, credit)
     assert lazy.elements == plain.elements and lazy.evaluations < plain.evaluations
     assert np.allclose(lazy.gains, plain.gains)
 
@@ -147,7 +147,7 @@ def test_greedy_with_credit_reaches_half_of_brute_force(seed):
         dataclasses.replace(Weights(), quality=2.0, hours=0.5),
         [rng.uniform(0, 1, p.intervals[-1][1] - p.intervals[0][0]) for p in base.grid.site_nights],
     )
-    lazy = greedy_lazy(m.grid, m.element_packed(), pack_cells(m.done_cells), m.slot_credit())
+    lazy = greedy_lazy(m.grid, m.element_cells(), m.done_cells, m.slot_credit())
     per_part = []
     for p, part in enumerate(m.grid.site_nights):
         idx = np.flatnonzero(m.grid.elem_site_night == p).tolist()

@@ -100,6 +100,13 @@ def test_running_sums_equal_scoring_from_scratch():
         scratch = model.terms(state.visits)
         for k in ("coverage", "expected_coverage", "alias", "excess_gap_h", "total"):
             assert getattr(predicted, k) == pytest.approx(getattr(scratch, k), abs=1e-9)
+    # Removing a visit, and adding it back: both scored on the cells they change, equal to scoring afresh.
+    for v in list(state.visits)[:4]:
+        rest = [x for x in state.visits if x != v]
+        assert state.score([v], []).total == pytest.approx(model.terms(rest).total, abs=1e-9)
+        state.apply([v], [])
+        assert state.score([], [v]).total == pytest.approx(model.terms([*rest, v]).total, abs=1e-9)
+        state.apply([], [v])
 
 
 def test_baseline_one_visit_per_site_night_at_best_time_with_same_hours():

@@ -124,10 +124,12 @@ def _arc_mask(rng):
     return objective.arc_mask(t0, t1, p, 12), objective.arc_mask_slow(t0, t1, p, 12)
 
 
-def _coverage_gains(rng):
-    masks, covered = rng.random((9, 7, 11)) < 0.3, rng.random((7, 11)) < 0.5
-    fast = objective.coverage_gains(objective.pack_cells(masks), objective.pack_cells(covered))
-    return fast, objective.coverage_gains_slow(masks, covered)
+def _arc_gains(rng):
+    from planner.schedule import cells
+
+    t0 = rng.uniform(0, 200, 9)
+    t1, p, covered = t0 + rng.uniform(0, 8, 9), np.geomspace(2, 30, 7), rng.random((7, 11)) < 0.5
+    return cells.arc_gains(t0, t1, p, 11, covered), cells.arc_gains_slow(t0, t1, p, 11, covered)
 
 
 def _window_sum(rng):
@@ -190,8 +192,8 @@ def _discrimination(rng):
 
 def _greedy(rng):
     model, _, _ = model_for(n_sites=2, n_nights=2, n_periods=24, n_bins=10, seed=int(rng.integers(100)))
-    packed, start = model.element_packed(), objective.pack_cells(model.done_cells)
-    lazy, plain = greedy.greedy_lazy(model.grid, packed, start), greedy.greedy_plain(model.grid, packed, start)
+    cells, start = model.element_cells(), model.done_cells
+    lazy, plain = greedy.greedy_lazy(model.grid, cells, start), greedy.greedy_plain(model.grid, cells, start)
     return np.array(lazy.elements), np.array(plain.elements)
 
 
@@ -208,7 +210,7 @@ TWINS = [
     Twin("sensitivity.frequency_sigma", _frequency, rtol=1e-6),
     Twin("quality.slot_quality", _slot_quality),
     Twin("objective.arc_mask", _arc_mask),
-    Twin("objective.coverage_gains", _coverage_gains),
+    Twin("cells.arc_gains", _arc_gains),
     Twin("objective.window_sum", _window_sum, rtol=1e-9, atol=1e-9),
     Twin("objective.excess_gap_h", _excess_gap, rtol=1e-12),
     Twin("state.PlanModel.visit_phasors", _visit_phasors, rtol=1e-9, atol=1e-9),

@@ -63,7 +63,7 @@ def exact_coverage(model: PlanModel, time_limit_s: float = 60.0, greedy_cells: i
             time.perf_counter() - t_start,
             "the greedy covers every cell, so it is optimal (no programme needed)",
         )
-    incidence = int(np.bitwise_count(model.element_packed()).sum())
+    incidence = model.element_cells().incidence()
     if incidence > MAX_INCIDENCE:
         return ExactResult(
             int(done.sum()),
@@ -77,7 +77,7 @@ def exact_coverage(model: PlanModel, time_limit_s: float = 60.0, greedy_cells: i
     rows, cols = [], []
     for i in range(0, n_e, _CHUNK):
         idx = np.arange(i, min(i + _CHUNK, n_e))
-        m = model.element_masks(idx).reshape(idx.size, -1)[:, free]
+        m = model.element_cells().masks(idx).reshape(idx.size, -1)[:, free]
         e_loc, c_loc = np.nonzero(m)
         rows.append(c_loc)
         cols.append(idx[e_loc])

@@ -39,7 +39,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from planner.schedule.objective import coverage_gains
+from planner.schedule.cells import ElementCells, open_periods, run_prefix
 from planner.schedule.slots import SlotGrid
 from planner.schedule.state import SlotCredit, Visit
 
@@ -111,18 +111,48 @@ class Feasibility:
         self.runs.setdefault(p, []).append((start, start + int(g.elem_len[e])))
 
 
+#: Elements whose cell gains are counted together with the one the lazy greedy asks for.
+_AHEAD = 127
+
+
 class _Gains:
     """Marginal gain of an element: coverage cells (times ``cell_weight`` when a credit is given)
-    plus the credit of its science slots not yet taken. Without a credit, plain cell counts (ints)."""
+    plus the credit of its science slots not yet taken. Without a credit, plain cell counts (ints).
+    Cells are counted from the elements' arcs against the covered map (:mod:`planner.schedule.cells`)."""
 
-    def __init__(self, packed: np.ndarray, covered0: np.ndarray, credit: SlotCredit | None) -> None:
-        self.packed = packed
-        self.covered = covered0.copy()
+    def __init__(self, cells: ElementCells, covered0: np.ndarray, credit: SlotCredit | None) -> None:
+        self.cells = cells
+        self.covered = np.asarray(covered0, dtype=bool).copy()
+        self._prefix: np.ndarray | None = None
+        self._rows = np.zeros(0, dtype=np.int64)
+        #: Cell gains counted ahead, in one vectorised batch, for the map as it stands (cleared by ``take``).
+        self._ahead: dict[int, int] = {}
         self.credit = credit
         self.taken = None if credit is None else np.zeros(credit.value.size, dtype=bool)
 
+    def _cells(self, idx: np.ndarray | None) -> np.ndarray:
+        if self._prefix is None:
+            # Fully covered periods add nothing: as coverage fills, each gain looks at fewer periods.
+            self._rows = open_periods(self.covered)
+            self._prefix = run_prefix(self.covered[self._rows])
+        if self._rows.size == 0:  # every cell covered: only the slot credit is left to gain
+            return np.zeros(len(self.cells) if idx is None else len(idx), dtype=np.int64)
+        return self.cells.gains_prefix(self._prefix, self._rows, idx)
+
+    def count_ahead(self, idx: list[int]) -> None:
+        """Count the cell gains of ``idx`` together (one call instead of one per element): the lazy greedy
+        asks for the elements near the top of its heap one by one, and most of them in turn."""
+        todo = [e for e in dict.fromkeys(idx) if e not in self._ahead]
+        if todo:
+            self._ahead.update(zip(todo, self._cells(np.array(todo)).tolist(), strict=True))
+
+    def counted(self, e: int) -> bool:
+        return e in self._ahead
+
     def one(self, e: int) -> float | int:
-        cells = int(np.bitwise_count(self.packed[e] & ~self.covered).sum())
+        if e not in self._ahead:
+            self.count_ahead([e])
+        cells = self._ahead[e]
         if self.credit is None:
             return cells
         c = self.credit
@@ -130,7 +160,7 @@ class _Gains:
         return c.cell_weight * cells + float(c.value[i0:i1][~self.taken[i0:i1]].sum())
 
     def all(self) -> np.ndarray:
-        cells = coverage_gains(self.packed, self.covered)
+        cells = self._cells(None)
         if self.credit is None:
             return cells
         c = self.credit
@@ -140,17 +170,20 @@ class _Gains:
         return c.cell_weight * cells + slots * (1.0 + 1e-9) + 1e-12
 
     def take(self, e: int) -> None:
-        self.covered |= self.packed[e]
+        self.covered |= self.cells.masks(np.array([e]))[0]
+        self._prefix = None
+        self._ahead.clear()
         if self.credit is not None:
             self.taken[int(self.credit.elem_i0[e]) : int(self.credit.elem_i1[e])] = True
 
 
 def greedy_lazy(
-    grid: SlotGrid, packed: np.ndarray, covered0: np.ndarray, credit: SlotCredit | None = None
+    grid: SlotGrid, cells: ElementCells, covered0: np.ndarray, credit: SlotCredit | None = None
 ) -> GreedyResult:
-    """Lazy greedy (Minoux 1978) on packed element cells ``packed`` (E, W), starting from ``covered0`` (W,);
-    with ``credit``, on coverage plus the slots' quality and hours credit (see the module docstring)."""
-    gain = _Gains(packed, covered0, credit)
+    """Lazy greedy (Minoux 1978) on the elements' cells ``cells``, starting from the covered map ``covered0``
+    (periods × bins); with ``credit``, on coverage plus the slots' quality and hours credit (see the module
+    docstring)."""
+    gain = _Gains(cells, covered0, credit)
     feas = Feasibility(grid)
     gains0 = gain.all()
     heap = [(-float(g), int(e)) for e, g in enumerate(gains0) if g > 0]
@@ -161,6 +194,9 @@ def greedy_lazy(
         _, e = heapq.heappop(heap)
         if not feas.ok(e):
             continue
+        if not gain.counted(e):
+            # The heap's first entries are its top levels: the elements most likely asked for next.
+            gain.count_ahead([e, *(x for _, x in heap[:_AHEAD])])
         g = gain.one(e)
         evaluations += 1
         if g <= 0:
@@ -172,24 +208,34 @@ def greedy_lazy(
         gains.append(g)
         feas.add(e)
         gain.take(e)
-    covered = int(np.bitwise_count(gain.covered).sum())
+    covered = int(gain.covered.sum())
     return GreedyResult(chosen, gains, covered, evaluations, feas.extra_rule_bound, credit is not None)
 
 
 def greedy_plain(
-    grid: SlotGrid, packed: np.ndarray, covered0: np.ndarray, credit: SlotCredit | None = None
+    grid: SlotGrid, cells: ElementCells, covered0: np.ndarray, credit: SlotCredit | None = None
 ) -> GreedyResult:
-    """Slow twin of :func:`greedy_lazy`: rescan every feasible element at every step."""
-    gain = _Gains(packed, covered0, credit)
+    """Slow twin of :func:`greedy_lazy`: rescan every feasible element at every step, each gain counted
+    on the element's cell mask (not from its arc)."""
+    covered = np.asarray(covered0, dtype=bool).copy()
+    taken = None if credit is None else np.zeros(credit.value.size, dtype=bool)
+
+    def one(e: int) -> float | int:
+        n = int((cells.masks(np.array([e]))[0] & ~covered).sum())
+        if credit is None:
+            return n
+        i0, i1 = int(credit.elem_i0[e]), int(credit.elem_i1[e])
+        return credit.cell_weight * n + float(credit.value[i0:i1][~taken[i0:i1]].sum())
+
     feas = Feasibility(grid)
     chosen, gains = [], []
     evaluations = 0
     while True:
         best_g, best_e = 0, -1
-        for e in range(packed.shape[0]):
+        for e in range(len(cells)):
             if not feas.ok(e):
                 continue
-            g = gain.one(e)
+            g = one(e)
             evaluations += 1
             if g > best_g:
                 best_g, best_e = g, e
@@ -198,9 +244,10 @@ def greedy_plain(
         chosen.append(best_e)
         gains.append(best_g)
         feas.add(best_e)
-        gain.take(best_e)
-    covered = int(np.bitwise_count(gain.covered).sum())
-    return GreedyResult(chosen, gains, covered, evaluations, feas.extra_rule_bound, credit is not None)
+        covered |= cells.masks(np.array([best_e]))[0]
+        if taken is not None:
+            taken[int(credit.elem_i0[best_e]) : int(credit.elem_i1[best_e])] = True
+    return GreedyResult(chosen, gains, int(covered.sum()), evaluations, feas.extra_rule_bound, credit is not None)
 
 
 def merge_elements(grid: SlotGrid, elements: list[int]) -> list[Visit]:

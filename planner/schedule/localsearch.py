@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from planner.schedule.objective import coverage_gains, pack_cells
+from planner.schedule.cells import ElementCells
 from planner.schedule.slots import SlotGrid
 from planner.schedule.state import PlanState, Visit
 
@@ -85,44 +85,48 @@ def element_credit(state: PlanState) -> tuple[float, np.ndarray]:
 
 def _candidates(
     state: PlanState,
-    packed: np.ndarray,
+    cells: ElementCells,
     rng: np.random.Generator,
     ignore: Visit | None,
     credit: tuple[float, np.ndarray] | None = None,
 ) -> list[Visit]:
     """Greedy elements that could be added now: the best by the greedy's gain (coverage plus slot
-    credit; an element never overlaps a kept visit of its site-night) plus a few at random."""
+    credit; an element never overlaps a kept visit of its site-night) plus a few at random. Gains are
+    counted only for the elements that pass the cheap screen (room in their site-night, no clash)."""
     grid = state.model.grid
     if grid.n_elements == 0:
         return []
+    # Cheap vectorised screen: the site-night has room for another visit of its unit length.
+    n_parts = len(grid.site_nights)
+    others = [v for v in state.visits if v != ignore]
+    parts = np.array([v.site_night for v in others], dtype=np.int64)
+    n_in = np.bincount(parts, minlength=n_parts)
+    used = np.bincount(parts, weights=np.array([v.length for v in others], dtype=float), minlength=n_parts)
+    budget = np.array([p.budget_slots for p in grid.site_nights])
+    room = (n_in < grid.max_per_night) & (budget - used >= np.array([p.unit_slots for p in grid.site_nights]))
+    # Elements are laid out site-night by site-night: only those of site-nights with room are screened.
+    bounds = np.searchsorted(grid.elem_site_night, np.arange(n_parts + 1))
+    open_parts = np.flatnonzero(room)
+    if open_parts.size == 0:
+        return []
+    idx = np.concatenate([np.arange(bounds[p], bounds[p + 1]) for p in open_parts])
+    part_of, start, length = grid.elem_site_night[idx], grid.elem_start[idx], grid.elem_len[idx]
+    keep = np.ones(idx.size, dtype=bool)
+    for p in open_parts:
+        for v in state.part_visits(int(p)):
+            if v != ignore:
+                keep &= ~((part_of == p) & (start <= v.stop) & (v.start <= start + length))
+    idx = idx[keep]
     if ignore is not None:
         counts = state.counts.copy()
         counts -= state._pieces(ignore)[0]
         covered = np.asarray((counts > 0) | state.model.done_cells)
-        cov_packed = pack_cells(covered)
     else:
-        cov_packed = state.covered_packed()
-    gains = coverage_gains(packed, cov_packed).astype(float)
+        covered = state.covered_mask()
+    gains = cells.gains(covered, idx).astype(float)
     if credit is not None:
-        gains = credit[0] * gains + credit[1]
-    # Cheap vectorised screen: the site-night has room for another visit of its unit length.
-    others = [v for v in state.visits if v != ignore]
-    n_in = np.zeros(len(grid.site_nights), dtype=np.int64)
-    used = np.zeros(len(grid.site_nights), dtype=np.int64)
-    for v in others:
-        n_in[v.site_night] += 1
-        used[v.site_night] += v.length
-    budget = np.array([p.budget_slots for p in grid.site_nights])
-    room = (n_in < grid.max_per_night) & (budget - used >= np.array([p.unit_slots for p in grid.site_nights]))
-    ok = room[grid.elem_site_night]
-    for v in others:
-        same = grid.elem_site_night == v.site_night
-        clash = (grid.elem_start <= v.stop) & (v.start <= grid.elem_start + grid.elem_len)
-        ok &= ~(same & clash)
-    idx = np.flatnonzero(ok)
-    if idx.size == 0:
-        return []
-    order = idx[np.lexsort((idx, -gains[idx]))]
+        gains = credit[0] * gains + credit[1][idx]
+    order = idx[np.lexsort((idx, -gains))]
     picks = list(order[:_TOP_K])
     rest = order[_TOP_K:]
     if rest.size:
@@ -130,13 +134,23 @@ def _candidates(
     out = []
     for e in picks:
         v = Visit(int(grid.elem_site_night[e]), int(grid.elem_start[e]), int(grid.elem_len[e]))
-        if fits(grid, others, v):
+        if fits(grid, [x for x in _relevant(state, v.site_night) if x != ignore], v):
             out.append(v)
     return out
 
 
+def _relevant(state: PlanState, part: int) -> list[Visit]:
+    """The visits :func:`fits` looks at for a visit in site-night ``part``: that site-night's, or every
+    visit of the site when the site has a whole-campaign budget."""
+    grid = state.model.grid
+    site = grid.site_nights[part].site_index
+    if site in grid.site_budget_slots:
+        return [v for v in state.visits if grid.site_nights[v.site_night].site_index == site]
+    return state.part_visits(part)
+
+
 def local_search(
-    state: PlanState, packed: np.ndarray, seed: int, max_evaluations: int = 6000, max_passes: int = 30
+    state: PlanState, cells: ElementCells, seed: int, max_evaluations: int = 6000, max_passes: int = 30
 ) -> SearchStats:
     """Improve ``state`` in place by first-improvement moves; see the module docstring."""
     grid = state.model.grid
@@ -161,19 +175,20 @@ def local_search(
         stats.passes += 1
         improved = False
         # Add where time is left.
-        while try_moves([], _candidates(state, packed, rng, None, credit)):
+        while try_moves([], _candidates(state, cells, rng, None, credit)):
             improved = True
         visits = list(state.visits)
         for i in rng.permutation(len(visits)):
             v = visits[i]
             if v not in state.visits:
                 continue
-            options = [n for n in _neighbours(v) if fits(grid, state.visits, n, ignore=v)]
+            near = _relevant(state, v.site_night)
+            options = [n for n in _neighbours(v) if fits(grid, near, n, ignore=v)]
             options = [options[j] for j in rng.permutation(len(options))]
             if try_moves([v], options):
                 improved = True
                 continue
-            if try_moves([v], _candidates(state, packed, rng, v, credit)):
+            if try_moves([v], _candidates(state, cells, rng, v, credit)):
                 improved = True
         if not improved:
             break

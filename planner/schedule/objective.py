@@ -29,13 +29,11 @@ Each vectorised kernel keeps a slow, obvious twin (suffix ``_slow``) that the te
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
 import numpy as np
-
-#: Cells packed 64 to a word for popcount gains.
-_WORD = 64
 
 
 def arc_bins(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray, n_bins: int) -> tuple[np.ndarray, np.ndarray]:
@@ -47,18 +45,38 @@ def arc_bins(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray, n_bins: 
     t1 = np.asarray(t1_h, dtype=float).reshape(-1, 1)
     p = np.asarray(periods_h, dtype=float).reshape(1, -1)
     cyc0 = t0 / p
-    first_abs = np.floor(cyc0 * n_bins)
-    last_abs = np.floor((cyc0 + (t1 - t0) / p) * n_bins)
-    n_cov = np.minimum(last_abs - first_abs + 1, n_bins).astype(np.int64)
-    first = np.mod(first_abs, n_bins).astype(np.int64)
-    return first, n_cov
+    last_abs = (t1 - t0) / p
+    last_abs += cyc0
+    last_abs *= n_bins
+    np.floor(last_abs, out=last_abs)
+    first_abs = np.multiply(cyc0, n_bins, out=cyc0)
+    np.floor(first_abs, out=first_abs)
+    last_abs -= first_abs
+    last_abs += 1
+    n_cov = np.minimum(last_abs, n_bins, out=last_abs).astype(np.int64)
+    # first_abs is a whole number below 2^53, so its floor division by n_bins is exact: the same value
+    # as np.mod(first_abs, n_bins), several times faster.
+    wraps = np.floor(first_abs / n_bins)
+    wraps *= n_bins
+    first_abs -= wraps
+    return first_abs.astype(np.int64), n_cov
 
 
 def arc_mask(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray, n_bins: int) -> np.ndarray:
     """Cells touched by each interval: bool array (N, P, n_bins). Vectorised over intervals, periods, bins."""
     first, n_cov = arc_bins(t0_h, t1_h, periods_h, n_bins)
-    b = np.arange(n_bins, dtype=np.int64)
-    return np.mod(b[None, None, :] - first[:, :, None], n_bins) < n_cov[:, :, None]
+    # Every (first bin, run length) pair has one row of bins: look the rows up instead of comparing
+    # bin by bin.
+    return np.take(_run_rows(int(n_bins)), first * (n_bins + 1) + n_cov, axis=0)
+
+
+@functools.lru_cache(maxsize=8)
+def _run_rows(n_bins: int) -> np.ndarray:
+    """Bins touched by a circular run starting at bin ``f`` of length ``n``: row ``f·(n_bins+1) + n``."""
+    f = np.arange(n_bins)[:, None, None]
+    n = np.arange(n_bins + 1)[None, :, None]
+    b = np.arange(n_bins)[None, None, :]
+    return (np.mod(b - f, n_bins) < n).reshape(n_bins * (n_bins + 1), n_bins)
 
 
 def arc_mask_slow(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray, n_bins: int) -> np.ndarray:
@@ -90,25 +108,9 @@ def point_mask(times_h: np.ndarray, periods_h: np.ndarray, n_bins: int) -> np.nd
     return out
 
 
-def pack_cells(mask: np.ndarray) -> np.ndarray:
-    """Pack the cells of each row (N, P, n_bins) or (P, n_bins) into uint64 words (N, W) or (W,)."""
-    m = np.asarray(mask, dtype=bool)
-    single = m.ndim == 2
-    flat = m.reshape(1 if single else m.shape[0], -1)
-    n_words = -(-flat.shape[1] // _WORD)
-    padded = np.zeros((flat.shape[0], n_words * _WORD), dtype=bool)
-    padded[:, : flat.shape[1]] = flat
-    words = np.packbits(padded, axis=1, bitorder="little").view(np.uint64)
-    return words[0] if single else words
-
-
-def coverage_gains(elements_packed: np.ndarray, covered_packed: np.ndarray) -> np.ndarray:
-    """Cells each element would newly cover: popcount(element AND NOT covered), int64 (N,)."""
-    return np.bitwise_count(elements_packed & ~covered_packed[None, :]).sum(axis=1, dtype=np.int64)
-
-
 def coverage_gains_slow(element_masks: np.ndarray, covered: np.ndarray) -> np.ndarray:
-    """Slow twin of :func:`coverage_gains` on unpacked masks: count cell by cell."""
+    """Cells each mask would newly cover, counted cell by cell (the reference for
+    :func:`planner.schedule.cells.arc_gains`)."""
     out = []
     for m in element_masks:
         out.append(sum(1 for a, c in zip(m.ravel().tolist(), covered.ravel().tolist(), strict=True) if a and not c))

@@ -13,7 +13,7 @@ import numpy as np
 
 from planner.schedule.greedy import GreedyResult, greedy_lazy, merge_elements
 from planner.schedule.localsearch import SearchStats, local_search
-from planner.schedule.objective import Terms, pack_cells
+from planner.schedule.objective import Terms
 from planner.schedule.state import PlanModel, PlanState, Visit
 
 
@@ -34,14 +34,14 @@ def optimise(model: PlanModel, seed: int, max_evaluations: int = 6000) -> Optimi
     """Greedy (lazy gains) on coverage plus the slots' quality and hours credit, then local search on the
     full objective."""
     t0 = time.perf_counter()
-    packed = model.element_packed()
+    cells = model.element_cells()
     t1 = time.perf_counter()
-    g = greedy_lazy(model.grid, packed, pack_cells(model.done_cells), model.slot_credit())
+    g = greedy_lazy(model.grid, cells, model.done_cells, model.slot_credit())
     t2 = time.perf_counter()
     greedy_visits = merge_elements(model.grid, g.elements)
     state = PlanState(model, greedy_visits)
     greedy_terms = state.current
-    stats = local_search(state, packed, seed=seed, max_evaluations=max_evaluations)
+    stats = local_search(state, cells, seed=seed, max_evaluations=max_evaluations)
     t3 = time.perf_counter()
     ratio, text = g.guarantee(model.grid)
     return Optimised(

@@ -25,7 +25,7 @@ from planner.schedule.exact import ExactResult, exact_coverage
 from planner.schedule.greedy import greedy_lazy
 from planner.schedule.localsearch import SearchStats
 from planner.schedule.nightnotes import night_notes
-from planner.schedule.objective import Terms, alias_freq_grid, pack_cells
+from planner.schedule.objective import Terms, alias_freq_grid
 from planner.schedule.optimise import optimise, total_slots
 from planner.schedule.quality import slot_quality
 from planner.schedule.replan import done_runs, used_hours
@@ -256,7 +256,7 @@ def schedule_core(
     )
     if exact:
         # The exact mode solves coverage alone, so it is measured against the coverage-only greedy.
-        cov_greedy = greedy_lazy(grid, model.element_packed(), pack_cells(model.done_cells))
+        cov_greedy = greedy_lazy(grid, model.element_cells(), model.done_cells)
         ex = exact_coverage(model, time_limit_s=exact_time_limit_s, greedy_cells=cov_greedy.covered_cells)
         objective.exact = ExactComparison(ex, cov_greedy.covered_cells)
     trials = campaign.weather_trials

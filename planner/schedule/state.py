@@ -14,11 +14,11 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from planner.inputs.settings import Weights
+from planner.schedule.cells import ElementCells
 from planner.schedule.objective import (
     Terms,
     arc_mask,
     excess_gap_h,
-    pack_cells,
     point_mask,
     point_window_sum,
 )
@@ -38,9 +38,8 @@ class SlotCredit:
 
 #: Chance a site-night is clear is kept inside (0, 1) so log-survival stays finite.
 _CLEAR_CLIP = (1e-6, 1.0 - 1e-9)
-_ELEMENT_CHUNK = 256
-#: Visits whose cells and phasors are kept between moves (~20 kB each on the demo grid).
-_CACHE_VISITS = 2000
+#: Bytes of visit cells and phasors kept between moves (a visit holds periods × bins + 16 × frequencies).
+_CACHE_BYTES = 64_000_000
 
 
 @dataclass(frozen=True)
@@ -108,11 +107,9 @@ class PlanModel:
         )
         #: Centre of every flat slot, hours from t_ref.
         self.slot_centre_h = (slots + 0.5) * grid.slot_h
-        # Prefix sums of w·e^{2πiνt} and of w: any visit's window sum in O(frequencies).
-        phasors = self.slot_weight[:, None] * np.exp(
-            2j * np.pi * np.outer(self.slot_centre_h / 24.0, self.freq_per_day)
-        )
-        self._phasor_cum = np.vstack([np.zeros((1, self.freq_per_day.size), dtype=complex), np.cumsum(phasors, axis=0)])
+        # Slots are evenly spaced, so a visit's window sum is e^{2πiνt₀} Σ_k w_k z^k with z = e^{2πiν·slot}: one
+        # table of z^k (longest visit × frequencies) serves every visit, whatever the number of nights.
+        self._zpow = np.zeros((0, self.freq_per_day.size), dtype=complex)
         self._weight_cum = np.concatenate([[0.0], np.cumsum(self.slot_weight)])
         clear = np.array([p.clear_fraction for p in grid.site_nights], dtype=float)
         self.log_cloudy = np.log1p(-np.clip(clear, *_CLEAR_CLIP))
@@ -120,7 +117,7 @@ class PlanModel:
         self.span_h = (lo * grid.slot_h, hi * grid.slot_h)
         if len(self.done.intervals_h):
             self.span_h = (min(self.span_h[0], float(np.min(self.done.intervals_h[:, 0]))), self.span_h[1])
-        self._elem_packed: np.ndarray | None = None
+        self._elem_cells: ElementCells | None = None
         # Time the plan may use: the site-nights' budgets, capped by any whole-campaign site budget.
         per_site: dict[int, int] = {}
         for p in grid.site_nights:
@@ -147,9 +144,27 @@ class PlanModel:
     def visit_phasors(
         self, parts: np.ndarray, starts: np.ndarray, lengths: np.ndarray
     ) -> tuple[np.ndarray, np.ndarray]:
-        """Weighted window sums Σ w e^{2πiνt} over each visit's science slots (N, F), and Σ w (N,)."""
+        """Weighted window sums Σ w e^{2πiνt} over each visit's science slots (N, F), and Σ w (N,).
+
+        The slots of a visit are evenly spaced, so the sum is e^{2πiνt₀} times a polynomial in
+        z = e^{2πiν·slot} with the slots' weights as coefficients: one (visits × slots) @ (slots ×
+        frequencies) product."""
         i0, i1 = self.science_flat(parts, starts, lengths)
-        return self._phasor_cum[i1] - self._phasor_cum[i0], self._weight_cum[i1] - self._weight_cum[i0]
+        scalar = np.ndim(i0) == 0
+        i0, i1 = np.atleast_1d(i0), np.atleast_1d(i1)
+        n = np.maximum(i1 - i0, 0)
+        longest = int(n.max()) if n.size else 0
+        if self._zpow.shape[0] < longest:
+            k = np.arange(longest, dtype=float)[:, None]
+            self._zpow = np.exp(2j * np.pi * k * (self.grid.slot_h / 24.0) * self.freq_per_day[None, :])
+        k = np.arange(longest)
+        inside = k[None, :] < n[:, None]
+        idx = np.where(inside, i0[:, None] + k[None, :], 0)
+        w = np.where(inside, self.slot_weight[idx] if idx.size else 0.0, 0.0)
+        t0 = self.slot_centre_h[np.minimum(i0, max(self.slot_centre_h.size - 1, 0))] if i0.size else np.zeros(0)
+        lead = np.exp(2j * np.pi * np.outer(t0 / 24.0, self.freq_per_day))
+        phasor, weight = lead * (w @ self._zpow[:longest]), self._weight_cum[i1] - self._weight_cum[i0]
+        return (phasor[0], weight[0]) if scalar else (phasor, weight)
 
     def visit_phasors_slow(self, part: int, start: int, length: int) -> tuple[np.ndarray, float]:
         """Slow twin of :meth:`visit_phasors` for one visit: add each science slot's phasor in turn."""
@@ -188,21 +203,13 @@ class PlanModel:
         i0, i1 = self.science_flat(g.elem_site_night, g.elem_start, g.elem_len)
         return SlotCredit(value=value, elem_i0=i0, elem_i1=i1, cell_weight=w.coverage / max(self.n_cells, 1))
 
-    def element_packed(self) -> np.ndarray:
-        """Cells of every greedy element, packed (E, W); built once, in chunks to bound memory."""
-        if self._elem_packed is None:
+    def element_cells(self) -> ElementCells:
+        """Cells of every greedy element, counted from their arcs on demand (no element × cell table)."""
+        if self._elem_cells is None:
             g = self.grid
-            chunks = [
-                pack_cells(self.visit_masks(g.elem_start[i : i + _ELEMENT_CHUNK], g.elem_len[i : i + _ELEMENT_CHUNK]))
-                for i in range(0, g.n_elements, _ELEMENT_CHUNK)
-            ]
-            n_words = -(-self.n_cells // 64)
-            self._elem_packed = np.concatenate(chunks) if chunks else np.zeros((0, n_words), dtype=np.uint64)
-        return self._elem_packed
-
-    def element_masks(self, idx: np.ndarray) -> np.ndarray:
-        g = self.grid
-        return self.visit_masks(g.elem_start[idx], g.elem_len[idx])
+            t0, t1 = self.science_h(g.elem_start, g.elem_len)
+            self._elem_cells = ElementCells(t0, t1, self.periods_h, self.n_bins)
+        return self._elem_cells
 
     # --- scoring from scratch (reference) --------------------------------------------------------
     def combine(
@@ -264,22 +271,34 @@ class PlanModel:
         )
 
 
+def _touched(remove: list[Visit], add: list[Visit]) -> list[int]:
+    return list(dict.fromkeys(v.site_night for v in [*remove, *add]))
+
+
 class PlanState:
-    """One schedule with running sums; ``score`` a move without applying it, ``apply`` to keep it."""
+    """One schedule with running sums; ``score`` a move without applying it, ``apply`` to keep it.
+
+    ``score`` costs a few byte-wide passes over the cells plus work on the cells the move changes:
+    the covered count and the weather-expected coverage are updated where a site-night's cells change
+    (usually a thin rim of the arcs a visit moves by), never re-summed over every cell. ``apply``
+    recomputes the sums from scratch, so no rounding accumulates over many moves."""
 
     def __init__(self, model: PlanModel, visits: list[Visit] | tuple[Visit, ...] = ()) -> None:
         self.model = model
         shape = (model.periods_h.size, model.n_bins)
         self.visits: list[Visit] = []
         self.counts = np.zeros(shape, dtype=np.int32)
-        self.part_counts: dict[int, np.ndarray] = {}
+        #: The schedule's visits per site-night (a site-night's cells are the union of its visits').
+        self._by_part: dict[int, list[Visit]] = {}
         self.log_surv = np.zeros(shape)
         self.phasor = model.done_phasor.copy()
         self.n_slots = model.done_n
         self._cache: dict[Visit, tuple[np.ndarray, np.ndarray, float]] = {}
+        self._cache_bytes = 0
+        self._not_done = ~model.done_cells
         for v in visits:
-            self.apply([], [v])
-        self.current = self.score([], [])
+            self._apply_arrays([], [v])
+        self._refresh()
 
     def _pieces(self, v: Visit) -> tuple[np.ndarray, np.ndarray, float]:
         hit = self._cache.get(v)
@@ -287,58 +306,143 @@ class PlanState:
             m = self.model.visit_masks(np.array([v.start]), np.array([v.length]))[0]
             ph, w = self.model.visit_phasors(np.array([v.site_night]), np.array([v.start]), np.array([v.length]))
             hit = (m, ph[0], float(w[0]))
-            if len(self._cache) > _CACHE_VISITS:
+            size = m.nbytes + hit[1].nbytes
+            if self._cache_bytes + size > _CACHE_BYTES:
                 self._cache.clear()
+                self._cache_bytes = 0
             self._cache[v] = hit
+            self._cache_bytes += size
         return hit
 
-    def _updated(self, remove: list[Visit], add: list[Visit]):
+    def _part_cells(self, visits: list[Visit]) -> np.ndarray | None:
+        """Cells touched by a site-night's visits (None when it has none)."""
+        out = None
+        for v in visits:
+            m = self._pieces(v)[0]
+            out = m.copy() if out is None else np.logical_or(out, m, out=out)
+        return out
+
+    def _part_change(self, p: int, remove: list[Visit], add: list[Visit]) -> tuple[np.ndarray, np.ndarray]:
+        """Site-night ``p``'s cells before and after the move (bool, periods × bins)."""
+        before = self._by_part.get(p, [])
+        after = [v for v in before if v not in remove] + [v for v in add if v.site_night == p]
+        old, new = self._part_cells(before), self._part_cells(after)
+        was = np.zeros(self.counts.shape, dtype=bool) if old is None else old
+        now = np.zeros(self.counts.shape, dtype=bool) if new is None else new
+        return was, now
+
+    def _apply_arrays(self, remove: list[Visit], add: list[Visit]) -> None:
         model = self.model
-        counts = self.counts.copy()
-        phasor = self.phasor.copy()
-        n = self.n_slots
-        touched: dict[int, np.ndarray] = {}
         for sign, group in ((-1, remove), (1, add)):
             for v in group:
                 m, ph, w = self._pieces(v)
-                counts += sign * m
-                phasor += sign * ph
-                n += sign * w
-                pc = touched.get(v.site_night)
-                if pc is None:
-                    base = self.part_counts.get(v.site_night)
-                    pc = np.zeros(counts.shape, dtype=np.int32) if base is None else base.copy()
-                    touched[v.site_night] = pc
-                pc += sign * m
-        log_surv = self.log_surv.copy() if touched else self.log_surv
-        for p, pc in touched.items():
-            old = self.part_counts.get(p)
-            was = np.zeros(pc.shape, dtype=bool) if old is None else old > 0
-            log_surv += ((pc > 0).astype(float) - was) * model.log_cloudy[p]
-        return counts, phasor, n, touched, log_surv
+                if sign > 0:
+                    self.counts += m
+                else:
+                    self.counts -= m
+                self.phasor += sign * ph
+                self.n_slots += sign * w
+        for p in _touched(remove, add):
+            was, now = self._part_change(p, remove, add)
+            self.log_surv += (now.astype(float) - was) * model.log_cloudy[p]
+        for v in remove:
+            self.visits.remove(v)
+            self._by_part[v.site_night].remove(v)
+        self.visits.extend(add)
+        for v in add:
+            self._by_part.setdefault(v.site_night, []).append(v)
+        self.visits.sort(key=lambda v: (v.start, v.site_night))
+
+    def _refresh(self) -> None:
+        """Sums over every cell and the visits' per-visit numbers, from scratch; then ``current``."""
+        model = self.model
+        covered = (self.counts > 0) | model.done_cells
+        self._covered_n = int(np.count_nonzero(covered))
+        self._expected_sum = float(np.where(model.done_cells, 1.0, -np.expm1(self.log_surv)).sum())
+        v = self.visits
+        self._lengths = np.array([x.length for x in v], dtype=np.int64)
+        parts = np.array([x.site_night for x in v], dtype=np.int64)
+        starts = np.array([x.start for x in v], dtype=np.int64)
+        i0, i1 = model.science_flat(parts, starts, self._lengths) if v else (np.zeros(0, int), np.zeros(0, int))
+        self._quality = model._quality_cum[i1] - model._quality_cum[i0]
+        t0, t1 = model.science_h(starts, self._lengths)
+        self._intervals = np.column_stack([t0, t1]) if v else np.zeros((0, 2))
+        self._index = {x: i for i, x in enumerate(v)}
+        self.current = self.score([], [])
 
     def score(self, remove: list[Visit], add: list[Visit]) -> Terms:
+        """The objective's terms if ``remove`` left the schedule and ``add`` joined it (nothing is changed)."""
         model = self.model
-        counts, phasor, n, _, log_surv = self._updated(remove, add)
-        covered = (counts > 0) | model.done_cells
-        expected = np.where(model.done_cells, 1.0, -np.expm1(log_surv)).mean()
+        n_cells = max(model.n_cells, 1)
+        covered_n, expected_sum = self._covered_n, self._expected_sum
+        phasor, n = self.phasor, self.n_slots
+        if remove or add:
+            delta = np.zeros(self.counts.shape, dtype=np.int8)
+            phasor = phasor.copy()
+            for sign, group in ((-1, remove), (1, add)):
+                for v in group:
+                    m, ph, w = self._pieces(v)
+                    delta += m.view(np.int8) if sign > 0 else -m.view(np.int8)
+                    phasor += sign * ph
+                    n += sign * w
+            # Cells whose count changes: only there can a cell become covered or uncovered.
+            idx = np.flatnonzero((delta != 0).ravel() & self._not_done.ravel())
+            if idx.size:
+                old = np.take(self.counts.ravel(), idx)
+                new = old + np.take(delta.ravel(), idx)
+                covered_n += int(np.count_nonzero(new > 0)) - int(np.count_nonzero(old > 0))
+            # Weather-expected coverage changes only where a touched site-night's cells change.
+            changed = None
+            shift = {}
+            for p in _touched(remove, add):
+                was, now = self._part_change(p, remove, add)
+                diff = was != now
+                if diff.any():
+                    shift[p] = (was, now)
+                    changed = diff if changed is None else changed | diff
+            if changed is not None:
+                jdx = np.flatnonzero((changed & self._not_done).ravel())
+                old_ls = np.take(self.log_surv.ravel(), jdx)
+                new_ls = old_ls.copy()
+                for p, (was, now) in shift.items():
+                    new_ls += (np.take(now.ravel(), jdx).astype(float) - np.take(was.ravel(), jdx)) * model.log_cloudy[
+                        p
+                    ]
+                expected_sum += float(np.sum(np.expm1(old_ls) - np.expm1(new_ls)))
         alias = float(np.abs(phasor).max() / n) if n > 0 and phasor.size else 0.0
-        visits = [v for v in self.visits if v not in remove] + list(add)
-        gap = excess_gap_h(model.intervals_h(visits), model.span_h, model.max_gap_h)
+        if remove:
+            keep = np.ones(len(self.visits), dtype=bool)
+            keep[[self._index[v] for v in remove]] = False
+            lengths, quality, iv = self._lengths[keep], self._quality[keep], self._intervals[keep]
+        else:
+            lengths, quality, iv = self._lengths, self._quality, self._intervals
+        if add:
+            starts = np.array([v.start for v in add], dtype=np.int64)
+            add_len = np.array([v.length for v in add], dtype=np.int64)
+            i0, i1 = model.science_flat(np.array([v.site_night for v in add], dtype=np.int64), starts, add_len)
+            t0, t1 = model.science_h(starts, add_len)
+            lengths = np.concatenate([lengths, add_len])
+            quality = np.concatenate([quality, model._quality_cum[i1] - model._quality_cum[i0]])
+            iv = np.concatenate([iv, np.column_stack([t0, t1])])
+        done_iv = np.asarray(model.done.intervals_h, dtype=float).reshape(-1, 2)
+        gap = excess_gap_h(np.concatenate([iv, done_iv]), model.span_h, model.max_gap_h)
         return model.combine(
-            float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits), model.quality_sum(visits)
+            covered_n / n_cells,
+            expected_sum / n_cells,
+            alias,
+            gap,
+            int(lengths.sum()),
+            float(np.sum(quality)) if quality.size else 0.0,
         )
 
     def apply(self, remove: list[Visit], add: list[Visit]) -> None:
-        counts, phasor, n, touched, log_surv = self._updated(remove, add)
-        self.counts, self.phasor, self.n_slots, self.log_surv = counts, phasor, n, log_surv
-        for p, pc in touched.items():
-            self.part_counts[p] = pc
-        for v in remove:
-            self.visits.remove(v)
-        self.visits.extend(add)
-        self.visits.sort(key=lambda v: (v.start, v.site_night))
-        self.current = self.score([], [])
+        self._apply_arrays(remove, add)
+        self._refresh()
 
-    def covered_packed(self) -> np.ndarray:
-        return pack_cells((self.counts > 0) | self.model.done_cells)
+    def part_visits(self, part: int) -> list[Visit]:
+        """The schedule's visits in site-night ``part``."""
+        return list(self._by_part.get(part, []))
+
+    def covered_mask(self) -> np.ndarray:
+        """Cells covered by the schedule or already observed: bool (periods, bins)."""
+        return (self.counts > 0) | self.model.done_cells
