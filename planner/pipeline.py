@@ -176,6 +176,8 @@ def diagnose_points(
         double_peaked=rot.double_peaked,
         phase_bins=rot.phase_bins,
         oversample=rot.oversample,
+        workers=campaign.compute.workers,
+        dask_address=campaign.compute.dask_address,
     )
 
 

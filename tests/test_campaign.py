@@ -100,3 +100,10 @@ def test_cli_bad_campaign_exits_2_with_one_line(tmp_path, root, capsys):
     assert e.value.code == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and err[0].startswith(f"error: {p}: nigths: unknown field")
+
+
+def test_a_season_of_nights_loads_and_more_than_a_year_is_refused(tmp_path, root):
+    # 90-night campaigns (a comet's season) are planned; the limit is one year of nights.
+    assert load_campaign(_write(tmp_path, root, **{"nights = 2": "nights = 90"})).nights == 90
+    with pytest.raises(InputError, match="nights"):
+        load_campaign(_write(tmp_path, root, **{"nights = 2": "nights = 367"}))

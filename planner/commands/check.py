@@ -220,6 +220,14 @@ def register(app: typer.Typer) -> None:
             bool | None,
             typer.Option("--progress/--no-progress", help="progress bar on stderr (default: on a terminal)"),
         ] = None,
+        dask: Annotated[
+            str | None,
+            typer.Option(
+                "--dask",
+                metavar="ADDRESS",
+                help="run the injected light curves on this Dask scheduler (optional extra 'dask'); same results",
+            ),
+        ] = None,
     ) -> None:
         """Coverage, alias and trend diagnostics for a list of observation times."""
         from planner.core.fileio import write_text_atomic
@@ -276,6 +284,8 @@ def register(app: typer.Typer) -> None:
                 double_peaked=not single_peaked,
                 extra_fading_mag_per_day=extra_fading,
                 progress=bar,
+                workers=None,
+                dask_address=dask,
             )
         finally:
             if bar is not None:

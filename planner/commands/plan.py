@@ -34,6 +34,15 @@ def register(app: typer.Typer) -> None:
             ),
         ] = False,
         fmt: Annotated[str, typer.Option("--format", help="table, csv or json (printed output)")] = "table",
+        dask: Annotated[
+            str | None,
+            typer.Option(
+                "--dask",
+                metavar="ADDRESS",
+                help="run the weather and injection trials on this Dask scheduler (optional extra 'dask'); "
+                "same results",
+            ),
+        ] = None,
     ) -> None:
         """Optimise a multi-site campaign: when each site observes, night by night."""
         from planner.inputs.campaign import load_campaign
@@ -48,6 +57,12 @@ def register(app: typer.Typer) -> None:
         if out is not None and out.is_dir() and any(out.iterdir()) and not force:
             raise InputError(str(out), "--out", "folder is not empty (use --force to replace it)")
         camp = load_campaign(campaign)
+        if dask:
+            import dataclasses
+
+            from planner.inputs.settings import Compute
+
+            camp = dataclasses.replace(camp, compute=Compute(dask_address=dask))
         target = camp.load_target()
         done_log = read_done_log(done, camp.sites) if done is not None else None
         result = plan_campaign(camp, target, done_log, exact=exact)

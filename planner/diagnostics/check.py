@@ -81,6 +81,8 @@ def check_times(
     n_candidates: int = 16,
     n_bands: int = 10,
     progress: Callable[[float], None] | None = None,
+    workers: int | None = 1,
+    dask_address: str | None = None,
 ) -> CheckResult:
     """Coverage, alias, recovery and sensitivity diagnostics for a list of observation times.
 
@@ -93,7 +95,8 @@ def check_times(
     With geometry, times within the Sun caution margin of the default Sun limit (planner.core.safety) raise a
     caution note.
     The period range is cut into ``n_bands`` log-spaced bands, each with a verdict; injected
-    periods are shared out evenly over the same bands.
+    periods are shared out evenly over the same bands. ``workers`` and ``dask_address`` say where the
+    injection trials run (planner.diagnostics.recovery); the results depend on ``seed`` only.
     """
     if not (0 < min_period_h <= max_period_h):
         raise ValueError("need 0 < min_period_h <= max_period_h")
@@ -205,6 +208,8 @@ def check_times(
                 oversample=oversample,
                 n_bands=n_bands,
                 progress=progress,
+                workers=workers,
+                dask_address=dask_address,
             )
         else:
             notes.append(f"injection–recovery skipped: {n} times are too few for the model")

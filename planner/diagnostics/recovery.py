@@ -10,7 +10,8 @@ VanderPlas 2018, ApJS 236, 16, §7.1) of the true rotation frequency — or, for
 light curve of an elongated body, of twice it: an observer finds the dominant photometric period
 P/2 and doubles it (common practice), so the search covers rotation frequencies up to 2/P_min.
 
-Everything is seeded through one ``numpy.random.Generator``: the same seed gives the same trials.
+Trials are drawn in blocks, each from its own child of ``numpy.random.SeedSequence(seed)``: the same
+seed gives the same trials wherever and in whatever grouping the blocks run.
 """
 
 from __future__ import annotations
@@ -20,6 +21,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from planner.core.parallel import FLOPS_PER_S, TrialBlock, run_blocks, trial_blocks, workers_for
 from planner.diagnostics.coverage import period_grid_h
 from planner.diagnostics.periodogram import best_frequencies
 
@@ -38,18 +40,29 @@ def search_frequencies_per_day(
     return np.sort(24.0 / period_grid_h(low, max_period_h, span_h, oversample))
 
 
+def band_of_trial(trials: int, n_bands: int) -> np.ndarray:
+    """Band index of every trial: trials shared out evenly over the bands, in band order."""
+    counts = np.full(n_bands, trials // n_bands)
+    counts[: trials % n_bands] += 1
+    return np.repeat(np.arange(n_bands), counts)
+
+
 def stratified_periods_h(
-    rng: np.random.Generator, min_period_h: float, max_period_h: float, trials: int, n_bands: int
+    rng: np.random.Generator,
+    min_period_h: float,
+    max_period_h: float,
+    trials: int,
+    n_bands: int,
+    which: np.ndarray | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Trial periods log-uniform within ``n_bands`` log-spaced bins, trials shared out evenly.
 
-    Returns ``(periods_h, bin_edges_h)``; periods are in bin order.
+    Returns ``(periods_h, bin_edges_h)``; periods are in bin order. ``which`` draws only the trials of
+    those bands (a block of a longer run: a slice of :func:`band_of_trial`).
     """
     edges = np.geomspace(min_period_h, max_period_h, n_bands + 1)
-    counts = np.full(n_bands, trials // n_bands)
-    counts[: trials % n_bands] += 1
-    which = np.repeat(np.arange(n_bands), counts)
-    u = rng.uniform(size=trials)
+    which = band_of_trial(trials, n_bands) if which is None else np.asarray(which)
+    u = rng.uniform(size=which.size)
     log_p = np.log(edges[which]) + u * (np.log(edges[which + 1]) - np.log(edges[which]))
     return np.exp(log_p), edges
 
@@ -170,6 +183,63 @@ def _confusions(
     return out[:top]
 
 
+@dataclass(frozen=True)
+class _RecoveryTask:
+    """What a block of injection trials needs (times, noise, trend, the search grid and the trials' bands)."""
+
+    t: np.ndarray
+    freqs: np.ndarray
+    period_range_h: tuple[float, float]
+    n_bands: int
+    which: np.ndarray
+    amplitude_range_mag: tuple[float, float]
+    sigma_mag: np.ndarray | float
+    double_peaked: bool
+    n_harmonics: int
+    nterms: int
+    trend_mag: np.ndarray | None
+    fading_mag_per_day: float
+
+
+#: Bytes of one periodogram's (frequencies × trials) power held at once within a block.
+_POWER_BYTES = 64_000_000
+
+
+def _recovery_block(block: TrialBlock, progress=None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """True periods, amplitudes and best frequencies of the block's trials, from the block's own stream."""
+    task: _RecoveryTask = block.data
+    rng = block.rng()
+    lo, hi = task.period_range_h
+    periods, _ = stratified_periods_h(rng, lo, hi, block.size, task.n_bands, task.which[block.start : block.stop])
+    amps = rng.uniform(task.amplitude_range_mag[0], task.amplitude_range_mag[1], block.size)
+    mags = synthetic_light_curves(
+        task.t,
+        periods,
+        amps,
+        rng,
+        sigma_mag=task.sigma_mag,
+        double_peaked=task.double_peaked,
+        n_harmonics=task.n_harmonics,
+        trend_mag=task.trend_mag,
+        fading_mag_per_day=task.fading_mag_per_day,
+    )
+    step = max(1, _POWER_BYTES // max(8 * task.freqs.size, 1))
+    best = np.empty(block.size)
+    for a in range(0, block.size, step):
+        sub = None if progress is None else (lambda f, a=a: progress((a + f * min(step, block.size - a)) / block.size))
+        best[a : a + step], _ = best_frequencies(
+            task.t,
+            mags[:, a : a + step],
+            task.freqs,
+            nterms=task.nterms,
+            sigma=task.sigma_mag,
+            trend_degree=1,
+            trend_columns=task.trend_mag,
+            progress=sub,
+        )
+    return periods, amps, best
+
+
 def injection_recovery(
     times_jd: np.ndarray,
     *,
@@ -187,6 +257,8 @@ def injection_recovery(
     n_bands: int | None = None,
     oversample: float = 10.0,
     progress=None,
+    workers: int | None = 1,
+    dask_address: str | None = None,
 ) -> RecoveryResult:
     """Inject ``trials`` synthetic light curves at ``times_jd`` and search each one.
 
@@ -194,33 +266,48 @@ def injection_recovery(
     [4, 20]); amplitudes are uniform in ``amplitude_range_mag``. The search fits an
     ``nterms``-harmonic series with a linear trend, plus ``trend_mag`` as a free column when
     given, on the rotation-frequency grid of :func:`search_frequencies_per_day`.
+
+    Trials run in blocks with independent random streams (``numpy.random.SeedSequence.spawn``,
+    planner.core.parallel): the same seed gives the same trials whether they run here, over
+    ``workers`` local processes (None: every core) or on the Dask cluster at ``dask_address``, and
+    memory stays bounded however many trials are asked for.
     """
     t = np.asarray(times_jd, dtype=float).ravel()
     if t.size < 2 * nterms + 3:
         raise ValueError(f"injection–recovery needs at least {2 * nterms + 3} times")
-    rng = np.random.default_rng(seed)
     if n_bands is None:
         n_bands = int(min(20, max(4, trials // 20)))
     n_bands = max(1, min(n_bands, trials))
     baseline_d = float(t.max() - t.min())
     span_h = baseline_d * 24.0
     freqs = search_frequencies_per_day(min_period_h, max_period_h, span_h, double_peaked, oversample)
-    periods, edges = stratified_periods_h(rng, min_period_h, max_period_h, trials, n_bands)
-    amps = rng.uniform(amplitude_range_mag[0], amplitude_range_mag[1], trials)
-    mags = synthetic_light_curves(
-        t,
-        periods,
-        amps,
-        rng,
+    edges = np.geomspace(min_period_h, max_period_h, n_bands + 1)
+    task = _RecoveryTask(
+        t=t,
+        freqs=freqs,
+        period_range_h=(float(min_period_h), float(max_period_h)),
+        n_bands=n_bands,
+        which=band_of_trial(trials, n_bands),
+        amplitude_range_mag=(float(amplitude_range_mag[0]), float(amplitude_range_mag[1])),
         sigma_mag=sigma_mag,
         double_peaked=double_peaked,
         n_harmonics=n_harmonics,
+        nterms=nterms,
         trend_mag=trend_mag,
         fading_mag_per_day=fading_mag_per_day,
     )
-    best_f, _ = best_frequencies(
-        t, mags, freqs, nterms=nterms, sigma=sigma_mag, trend_degree=1, trend_columns=trend_mag, progress=progress
-    )
+    blocks = trial_blocks(trials, seed, task)
+    cost_s = 8.0 * nterms * t.size * freqs.size * trials / FLOPS_PER_S
+    if progress is not None and not dask_address and workers_for(workers, len(blocks), cost_s) == 1:
+        # In this process: the progress callback follows every block of frequencies.
+        results = [_recovery_block(b, lambda f, b=b: progress((b.start + f * b.size) / max(trials, 1))) for b in blocks]
+    else:
+        results = run_blocks(_recovery_block, blocks, workers=workers, dask_address=dask_address, cost_s=cost_s)
+        if progress is not None:
+            progress(1.0)
+    periods = np.concatenate([r[0] for r in results]) if results else np.zeros(0)
+    amps = np.concatenate([r[1] for r in results]) if results else np.zeros(0)
+    best_f = np.concatenate([r[2] for r in results]) if results else np.zeros(0)
     tol = 0.5 / max(baseline_d, max_period_h / 24.0)
     true_f = 24.0 / periods
     match = classify_matches(true_f, best_f, tol, double_peaked)

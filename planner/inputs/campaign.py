@@ -17,7 +17,7 @@ from pathlib import Path
 from planner.core.errors import InputError
 from planner.core.timegrid import parse_date
 from planner.core.tomlfile import Fields, read_toml
-from planner.inputs.settings import BlockRules, ExposureRules, Rotation, Weights
+from planner.inputs.settings import BlockRules, Compute, ExposureRules, Rotation, Weights
 from planner.inputs.sites import Site, allocation_from, load_site
 from planner.inputs.targets import Target, load_target
 
@@ -72,6 +72,8 @@ class Campaign:
     total_hours: dict[str, float] = field(default_factory=dict)
     #: Which line of a multi-line MPC target file (``--object`` of the other commands).
     target_object: str | None = None
+    #: Where Monte Carlo trials run (not a file key: ``plan --dask ADDRESS``).
+    compute: Compute = field(default_factory=Compute)
 
     def load_target(self) -> Target:
         """The target file named by the campaign."""
@@ -220,7 +222,7 @@ def load_campaign(path: str | Path) -> Campaign:
         site_paths=site_paths,
         sites=tuple(sites),
         first_night=_first_night(f),
-        nights=f.int("nights", required=True, lo=1, hi=60),
+        nights=f.int("nights", required=True, lo=1, hi=366),
         seed=f.int("seed", _default("seed"), lo=0, hi=2**63 - 1),
         rotation=rotation,
         block_rules=blocks,

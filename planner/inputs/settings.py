@@ -55,6 +55,20 @@ class Weights:
 
 
 @dataclass(frozen=True)
+class Compute:
+    """Where the Monte Carlo trials run (weather trials of ``plan``, injection–recovery of ``plan`` and
+    ``check``): in blocks with their own random streams, so the results depend on the seed only.
+
+    ``workers``: local processes (None: every available core, used when the trials are many enough to
+    pay for starting them; 1: in this process). ``dask_address``: a Dask scheduler (``tcp://host:8786``)
+    to send the blocks to instead (the optional ``dask`` extra).
+    """
+
+    workers: int | None = None
+    dask_address: str | None = None
+
+
+@dataclass(frozen=True)
 class ExposureRules:
     """How light-curve frames are exposed and how precise a point is (campaign table ``[photometry]``).
 

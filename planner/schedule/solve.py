@@ -260,9 +260,10 @@ def schedule_core(
         ex = exact_coverage(model, time_limit_s=exact_time_limit_s, greedy_cells=cov_greedy.covered_cells)
         objective.exact = ExactComparison(ex, cov_greedy.covered_cells)
     trials = campaign.weather_trials
+    where = dict(workers=campaign.compute.workers, dask_address=campaign.compute.dask_address)
     robustness = {
-        "plan": weather_monte_carlo(model, opt.visits, trials, campaign.seed),
-        "baseline": weather_monte_carlo(model, base, trials, campaign.seed),
+        "plan": weather_monte_carlo(model, opt.visits, trials, campaign.seed, **where),
+        "baseline": weather_monte_carlo(model, base, trials, campaign.seed, **where),
     }
     nights = night_notes(
         campaign,
