@@ -75,6 +75,12 @@ class Browser:
         self.session = self.send("Target.attachToTarget", {"targetId": target, "flatten": True})["sessionId"]
         for domain in ("Page", "Runtime", "Log", "Network"):
             self.send(f"{domain}.enable", session=True)
+        # Headless windows have a minimum width (~500 px): the viewport is set exactly instead.
+        self.send(
+            "Emulation.setDeviceMetricsOverride",
+            {"width": width, "height": height, "deviceScaleFactor": 1, "mobile": False},
+            session=True,
+        )
 
     def _read_message(self, deadline: float) -> dict:
         while b"\0" not in self._buf:

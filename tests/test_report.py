@@ -19,6 +19,7 @@ from html.parser import HTMLParser
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 import pytest
 from browser import Browser, find_chromium
 from matplotlib.image import imread
@@ -33,6 +34,7 @@ from planner.outputs.report import render_check_report, render_report, write_rep
 
 FIGURE_IDS = [
     "fig-geometry",
+    "fig-network",
     "fig-site-0",
     "fig-site-1",
     "fig-timeline",
@@ -142,6 +144,53 @@ def test_report_renders_in_headless_chromium(plan_dir):
     grey = image[..., :3].mean(axis=2)
     assert grey.std() > 0.05, grey.std()
     assert (grey < 0.5).mean() > 0.005  # some dark ink: headings and text
+
+
+_LAYOUT = """(() => {
+  const doc = document.documentElement;
+  const wide = document.querySelector('#table .wide');
+  const heads = Array.from(document.querySelectorAll('thead tr'));
+  const blocks = document.querySelector('table.blocks');
+  const last = blocks ? Array.from(blocks.querySelectorAll('tbody tr:first-child td')).slice(-3) : [];
+  return {
+    page: [doc.scrollWidth, doc.clientWidth],
+    table: wide ? [wide.scrollWidth, wide.clientWidth] : null,
+    emptyHeads: heads.filter(r => r.textContent.trim() === '').length,
+    images: Array.from(document.images).map(i => [i.complete, i.naturalWidth, i.naturalHeight]),
+    lastCells: last.map(td => { const r = td.getBoundingClientRect(); return [r.left, r.right]; }),
+    cards: blocks ? getComputedStyle(blocks.querySelector('td')).display : null,
+  };
+})()"""
+
+
+@pytest.mark.parametrize("width", [1400, 400])
+def test_report_fits_desktop_and_phone_widths(plan_dir, width):
+    # Readable on any screen: no part of the page hides behind a horizontal scroll, the night-by-night
+    # table shows its last columns (Moon, mag, S/N) on a desktop and reflows as cards on a phone, every
+    # figure decodes, and no table carries an empty header row.
+    exe = _chromium()
+    with Browser(exe, width=width, height=900) as b:
+        b.open(plan_dir / "report.html")
+        b.evaluate("Promise.all(Array.from(document.images).map(i => i.decode()))")
+        got = b.evaluate(_LAYOUT)
+    scroll, client = got["page"]
+    assert scroll <= client, got["page"]
+    assert got["emptyHeads"] == 0
+    assert got["images"] and all(ok and w > 100 and h > 100 for ok, w, h in got["images"]), got["images"]
+    if width >= 1000:
+        assert got["table"][0] <= got["table"][1], got["table"]  # no horizontal scroll in the table
+        assert all(0 <= left and right <= client for left, right in got["lastCells"]), got["lastCells"]
+        assert got["cards"] == "table-cell"
+    else:
+        assert got["cards"] == "block"
+
+
+def test_figures_are_embedded_at_twice_their_css_size(plan_dir):
+    # Sharp on high-density screens: each PNG holds twice the pixels of the size the page gives it.
+    for img in _parse((plan_dir / "report.html").read_text()).images:
+        pixels = imread(io.BytesIO(base64.b64decode(img["src"].split(",", 1)[1])))
+        assert pixels.shape[1] == pytest.approx(2 * int(img["width"]), abs=2)
+        assert pixels.shape[0] == pytest.approx(2 * int(img["height"]), abs=2)
 
 
 def test_every_embedded_figure_is_a_non_blank_png(plan_dir):
@@ -444,3 +493,36 @@ def test_replanned_folder_names_its_log_as_text(plan_dir, tmp_path):
     assert "logs/&lt;night 1&gt;.csv" in text and "Gum Flat 2034-03-16" in text
     spans = {s["data-src"]: s for s in _parse(text).spans if "data-src" in s}
     assert spans["diagnostics.json:replan.n_done_times"]["text"] == "42"
+
+
+def test_network_overview_holds_one_cell_per_site_and_night():
+    # Sixteen sites over a month: one figure, one row per site and one column per night, crossed cells
+    # exactly where a site has no window.
+    rng = np.random.default_rng(1)
+    sites = [f"Site {i:02d}" for i in range(16)]
+    nights = [f"2034-04-{d:02d}" for d in range(1, 31)]
+    window = np.where(rng.random((16, 30)) < 0.2, 0.0, rng.uniform(2, 9, (16, 30)))
+    planned = np.where(window > 0, np.minimum(window, rng.uniform(0, 5, (16, 30))), 0.0)
+    fig = figures_sky.network_nights_figure(sites, nights, planned, window)
+    ax = fig.axes[0]
+    assert ax.images[0].get_array().shape == (16, 30)
+    assert [t.get_text() for t in ax.get_yticklabels()] == sites
+    assert len(ax.collections[0].get_paths()) == int((window <= 0).sum())
+
+
+def test_a_month_of_nights_is_one_panel():
+    # The per-site chart draws every night in one axes (rows), however many nights there are.
+    t = np.arange(np.datetime64("2034-04-01T00:00"), np.datetime64("2034-05-02T00:00"), np.timedelta64(10, "m"))
+    hours = (t - t[0]) / np.timedelta64(1, "h")
+    geo = pd.DataFrame(
+        {
+            "time_utc": t.astype(str),
+            "alt_deg": 50 * np.sin(2 * np.pi * hours / 23.93),
+            "sun_alt_deg": -40 * np.sin(2 * np.pi * hours / 24),
+        }
+    )
+    empty = pd.DataFrame(columns=["site", "night", "start_utc", "end_utc", "reason"])
+    nights = [f"2034-04-{d:02d}" for d in range(1, 31)]
+    fig = figures_sky.site_nights_figure("A", geo, empty, empty, nights, 0.0, 25.0)
+    assert len(fig.axes) == 1
+    assert fig.axes[0].images[0].get_array().shape[0] == 30

@@ -2,14 +2,15 @@
 
 from __future__ import annotations
 
-import textwrap
 from collections.abc import Sequence
 
 import matplotlib.dates as mdates
 import numpy as np
 import pandas as pd
+from matplotlib.collections import LineCollection, PolyCollection
 from matplotlib.colors import ListedColormap
 from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
 from planner.outputs.figstyle import (
@@ -79,6 +80,25 @@ def _darkness_index(sun_alt_deg: np.ndarray) -> np.ndarray:
     return np.searchsorted(-np.asarray(DARKNESS_LEVELS_DEG), -np.asarray(sun_alt_deg, dtype=float), side="left")
 
 
+def _row_geometry(x_all_h: np.ndarray, values: np.ndarray, n_rows: int, xs_h: np.ndarray) -> np.ndarray:
+    """``values`` sampled at hours ``x_all_h`` (after the first night's local noon), resampled on each
+    night's grid ``24·k + xs_h``: (nights, len(xs_h)); NaN outside the samples."""
+    grid = 24.0 * np.arange(n_rows)[:, None] + xs_h[None, :]
+    out = np.interp(grid.ravel(), x_all_h, values, left=np.nan, right=np.nan).reshape(grid.shape)
+    # A gap in the samples (more than two steps) is not bridged.
+    step = np.median(np.diff(x_all_h)) if x_all_h.size > 1 else 1.0
+    pos = np.clip(np.searchsorted(x_all_h, grid.ravel()), 1, max(x_all_h.size - 1, 1))
+    far = (x_all_h[pos] - x_all_h[pos - 1]).reshape(grid.shape) > 2.5 * step if x_all_h.size > 1 else True
+    return np.where(far, np.nan, out)
+
+
+def _rects(rows: np.ndarray, a: np.ndarray, b: np.ndarray, y0: float, y1: float) -> list[np.ndarray]:
+    """Rectangles [a, b] × [row + y0, row + y1] as polygons (one collection draws them all)."""
+    return [
+        np.array([[x0, r + y0], [x1, r + y0], [x1, r + y1], [x0, r + y1]]) for r, x0, x1 in zip(rows, a, b, strict=True)
+    ]
+
+
 def site_nights_figure(
     site: str,
     geometry: pd.DataFrame,
@@ -88,108 +108,184 @@ def site_nights_figure(
     utc_offset_h: float,
     min_alt_deg: float | None = None,
 ) -> Figure:
-    """One panel per night: target altitude against local time, darkness shaded, window and blocks marked.
+    """Every night of one site in one panel: a row per night, local clock time across, darkness shaded,
+    the target's altitude as a curve inside its row, the observable window as a hatched strip at the
+    row's foot and the planned blocks filled.
 
     ``geometry`` (time_utc, alt_deg, sun_alt_deg), ``windows`` and ``blocks`` (night, start_utc, end_utc)
-    are this site's rows. The x axis is local clock time (UTC + ``utc_offset_h``) in hours from the
-    night's local noon, so every panel shows one evening-to-morning.
+    are this site's rows. The x axis is local clock time (UTC + ``utc_offset_h``); each row runs from
+    the evening of its date to the next morning. One axes and a handful of collections whatever the
+    number of nights, so a month of nights draws as fast as one.
     """
     n = max(len(nights), 1)
-    ncols = min(n, 4)
-    nrows = int(np.ceil(n / ncols))
-    fig = new_figure(2.3 * ncols + 0.6, 2.1 * nrows + 0.7)
-    axes = np.atleast_1d(fig.subplots(nrows, ncols, sharey=True, squeeze=False)).ravel()
-    t = datetimes(geometry["time_utc"])
-    alt = geometry["alt_deg"].to_numpy(dtype=float)
-    sun = geometry["sun_alt_deg"].to_numpy(dtype=float)
-    dark = sun < 0.0
-    # Hours after local noon of the first night; each panel then subtracts 24 h per night.
+    row_h = 0.34 if n <= 10 else 0.24 if n <= 31 else max(0.1, 8.0 / n)
+    fig = new_figure(8.6, 1.5 + row_h * n)
+    ax = fig.subplots()
+    night0 = np.datetime64(f"{nights[0]}T12:00") if len(nights) else np.datetime64("2000-01-01T12:00")
     offset = np.timedelta64(int(round(utc_offset_h * 3600)), "s")
-    local = t + offset
-    span_h = []
-    for night in nights:
-        x = (local - np.datetime64(f"{night}T12:00")) / np.timedelta64(1, "h")
-        m = (x >= 0) & (x <= 24) & dark
-        if m.any():
-            span_h += [x[m].min(), x[m].max()]
-    x0, x1 = (min(span_h) - 0.75, max(span_h) + 0.75) if span_h else (4.0, 20.0)
-    cmap = ListedColormap(DARKNESS_GREYS)
-    for i, ax in enumerate(axes):
-        if i >= len(nights):
-            ax.set_visible(False)
-            continue
-        night = nights[i]
-        noon = np.datetime64(f"{night}T12:00")
-        x = (local - noon) / np.timedelta64(1, "h")
-        m = (x >= x0 - 0.2) & (x <= x1 + 0.2)
-        if m.sum() >= 2:
-            ax.imshow(
-                _darkness_index(sun[m])[None, :],
-                cmap=cmap,
-                vmin=-0.5,
-                vmax=4.5,
-                aspect="auto",
-                extent=(x[m][0], x[m][-1], 0, 90),
-                interpolation="nearest",
-                zorder=0,
-            )
-            ax.plot(x[m], np.where(alt[m] > 0, alt[m], np.nan), color=INK, lw=1.8, zorder=3)
-        if min_alt_deg is not None:
-            ax.axhline(min_alt_deg, color=SLATE, ls=":", lw=1.2, zorder=2)
+    t = datetimes(geometry["time_utc"])
+    x_all = (t + offset - night0) / np.timedelta64(1, "h")
+    order = np.argsort(x_all, kind="stable")
+    x_all = x_all[order]
+    alt = geometry["alt_deg"].to_numpy(dtype=float)[order]
+    sun = geometry["sun_alt_deg"].to_numpy(dtype=float)[order]
+    # Night of each sample and hours after that night's local noon: the dark part sets the x range.
+    x_in = x_all - 24.0 * np.floor(x_all / 24.0)
+    dark = (sun < 0.0) & (x_all >= 0) & (x_all <= 24.0 * n)
+    x0, x1 = (float(x_in[dark].min()) - 0.75, float(x_in[dark].max()) + 0.75) if dark.any() else (4.0, 20.0)
+    step_h = float(np.median(np.diff(x_all))) if x_all.size > 1 else 1.0 / 6.0
+    xs = np.arange(x0, x1 + step_h / 2, max(step_h, 1.0 / 60.0))
+    if x_all.size >= 2:
+        sun_rows = _row_geometry(x_all, sun, n, xs)
+        shade = np.where(np.isnan(sun_rows), 0, _darkness_index(np.nan_to_num(sun_rows, nan=90.0)))
+        ax.imshow(
+            shade,
+            cmap=ListedColormap(DARKNESS_GREYS),
+            vmin=-0.5,
+            vmax=4.5,
+            aspect="auto",
+            extent=(xs[0], xs[-1], n, 0),
+            interpolation="nearest",
+            zorder=0,
+        )
+        alt_rows = _row_geometry(x_all, alt, n, xs)
+        y = np.arange(n)[:, None] + 0.92 - 0.84 * np.where(alt_rows > 0, alt_rows, np.nan) / 90.0
+        xx = np.broadcast_to(xs, y.shape)
+        # One line for every night: rows joined by NaN breaks.
+        ax.plot(
+            np.column_stack([xx, np.full(n, np.nan)]).ravel(),
+            np.column_stack([y, np.full(n, np.nan)]).ravel(),
+            color=INK,
+            lw=1.4,
+            zorder=4,
+        )
+    if min_alt_deg is not None:
+        yl = np.arange(n) + 0.92 - 0.84 * float(min_alt_deg) / 90.0
+        ax.add_collection(
+            LineCollection([[(x0, v), (x1, v)] for v in yl], colors=SLATE, linestyles=":", linewidths=1.0, zorder=3)
+        )
+    row_of = {str(night): k for k, night in enumerate(nights)}
 
-        def hours(v, noon=noon):
-            return (datetimes(v) + offset - noon) / np.timedelta64(1, "h")
+    def spans(df: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        d = df[df["start_utc"].notna() & (df["start_utc"].astype(str) != "")]
+        d = d[d["night"].astype(str).isin(row_of)]
+        rows = np.array([row_of[str(v)] for v in d["night"]], dtype=float)
+        a = (datetimes(d["start_utc"]) + offset - night0) / np.timedelta64(1, "h") - 24.0 * rows
+        b = (datetimes(d["end_utc"]) + offset - night0) / np.timedelta64(1, "h") - 24.0 * rows
+        return rows, a, b
 
-        w = windows[
-            (windows["night"].astype(str) == night)
-            & windows["start_utc"].notna()
-            & (windows["start_utc"].astype(str) != "")
-        ]
-        for a, b in zip(hours(w["start_utc"]), hours(w["end_utc"]), strict=True):
-            # The window: a hatched strip along the foot of the panel, its edges as thin lines.
-            ax.axvspan(a, b, ymin=0, ymax=0.1, facecolor="white", edgecolor=TEAL, hatch="///", lw=1.0, zorder=3)
-            ax.axvline(a, color=TEAL, lw=1.0, zorder=3)
-            ax.axvline(b, color=TEAL, lw=1.0, zorder=3)
-        bl = blocks[blocks["night"].astype(str) == night]
-        for a, b in zip(hours(bl["start_utc"]), hours(bl["end_utc"]), strict=True):
-            ax.axvspan(a, b, ymin=0.0, ymax=1.0, facecolor=AMBER, alpha=0.55, edgecolor=INK, lw=1.2, zorder=2)
-            ax.plot([a, b], [86, 86], color=INK, lw=5, solid_capstyle="butt", zorder=4)
-        if w.empty:
-            reason = windows.loc[windows["night"].astype(str) == night, "reason"] if "reason" in windows else []
-            text = "no window" + (
-                f":\n{textwrap.fill(str(reason.iloc[0]), 30)}" if len(reason) and str(reason.iloc[0]) != "nan" else ""
+    rows, a, b = spans(windows)
+    if rows.size:
+        ax.add_collection(
+            PolyCollection(
+                _rects(rows, a, b, 0.80, 0.97), facecolors="white", edgecolors=TEAL, hatch="////", lw=0.8, zorder=2
             )
-            # Kept out of the layout: a long reason must not squeeze the panels to nothing.
-            ax.text(
-                0.5,
-                0.5,
-                text,
-                transform=ax.transAxes,
-                ha="center",
-                va="center",
-                fontsize=8,
-                bbox=dict(facecolor="white", edgecolor=SLATE),
-                in_layout=False,
-                clip_on=True,
+        )
+    rows_b, a, b = spans(blocks)
+    if rows_b.size:
+        ax.add_collection(
+            PolyCollection(
+                _rects(rows_b, a, b, 0.06, 0.80), facecolors=AMBER, alpha=0.6, edgecolors=INK, lw=1.0, zorder=3
             )
-        ax.set_xlim(x0, x1)
-        ax.set_ylim(0, 90)
-        ticks = np.arange(np.ceil(x0 / 3) * 3, x1 + 0.01, 3)
-        ax.set_xticks(ticks, [f"{int((h + 12) % 24):02d}" for h in ticks], fontsize=8)
-        ax.set_title(pd.Timestamp(night).strftime("%a %d %b"), fontsize=9)
-        if i % ncols == 0:
-            ax.set_ylabel("altitude (°)")
+        )
+    empty = sorted(set(range(len(nights))) - {int(r) for r in rows})
+    for k in empty:
+        ax.text(x1 - 0.1, k + 0.5, "no window", ha="right", va="center", fontsize=7, color=INK, zorder=5)
+    ax.set_xlim(x0, x1)
+    ax.set_ylim(n, 0)
+    ticks = np.arange(np.ceil(x0 / 2) * 2, x1 + 0.01, 2)
+    ax.set_xticks(ticks, [f"{int((h + 12) % 24):02d}" for h in ticks], fontsize=8)
+    every = 1 if n <= 35 else int(np.ceil(n / 35))
+    ax.set_yticks(
+        np.arange(0, n, every) + 0.5,
+        [pd.Timestamp(night).strftime("%a %d %b") for night in list(nights)[::every]] if len(nights) else [],
+        fontsize=8 if n <= 31 else 7,
+    )
+    ax.tick_params(axis="y", length=0)
+    ax.set_yticks(np.arange(n + 1), minor=True)
+    ax.grid(True, which="minor", axis="y", color="white", lw=1.0)
     sign = "+" if utc_offset_h >= 0 else "−"
-    fig.supxlabel(f"local time at {site} (UTC{sign}{abs(utc_offset_h):g} h), evening of the date shown", fontsize=9)
+    ax.set_xlabel(
+        f"local time at {site} (UTC{sign}{abs(utc_offset_h):g} h); each row: the evening of its date to morning"
+    )
     handles = [
         Patch(facecolor=g, edgecolor="#999999", label=nm)
         for g, nm in zip(DARKNESS_GREYS[1:], DARKNESS_NAMES[1:], strict=True)
     ]
     handles += [
-        Patch(facecolor="white", edgecolor=TEAL, hatch="///", label="observable window (strip at foot)"),
-        Patch(facecolor=AMBER, alpha=0.55, edgecolor=INK, label="planned block"),
+        Line2D([], [], color=INK, lw=1.4, label="target altitude (row foot 0°, top 90°)"),
+        Patch(facecolor="white", edgecolor=TEAL, hatch="////", label="observable window (strip at row foot)"),
+        Patch(facecolor=AMBER, alpha=0.6, edgecolor=INK, label="planned block"),
     ]
+    if min_alt_deg is not None:
+        handles.append(Line2D([], [], color=SLATE, ls=":", lw=1.0, label=f"altitude limit {min_alt_deg:g}°"))
     fig.legend(handles=handles, loc="outside upper center", ncols=3, fontsize=8, frameon=False)
+    return fig
+
+
+def network_nights_figure(
+    sites: Sequence[str], nights: Sequence[str], planned_h: np.ndarray, window_h: np.ndarray
+) -> Figure:
+    """The whole network at a glance: a row per site, a column per night; shade = hours planned,
+    a hatched cell = no observable window that night, a dot = a window left unused.
+
+    ``planned_h`` and ``window_h`` are (sites, nights) arrays of hours.
+    """
+    n_s, n_n = max(len(sites), 1), max(len(nights), 1)
+    fig = new_figure(min(max(6.0, 2.2 + 0.26 * n_n), 11.0), 1.6 + 0.32 * n_s)
+    ax = fig.subplots()
+    planned = np.asarray(planned_h, dtype=float).reshape(len(sites), len(nights))
+    window = np.asarray(window_h, dtype=float).reshape(len(sites), len(nights))
+    top = max(float(np.nanmax(planned)) if planned.size else 0.0, 1e-9)
+    im = ax.imshow(
+        np.where(planned > 0, planned, np.nan),
+        cmap=ListedColormap(["#f2e3c4", "#e6c27a", "#d98e04", "#8a5a02", INK]),
+        vmin=0.0,
+        vmax=top,
+        aspect="auto",
+        interpolation="nearest",
+        extent=(-0.5, n_n - 0.5, n_s - 0.5, -0.5),
+    )
+    none = np.argwhere(window <= 0)
+    if none.size:
+        ax.add_collection(
+            PolyCollection(
+                [
+                    np.array([[c - 0.5, r - 0.5], [c + 0.5, r - 0.5], [c + 0.5, r + 0.5], [c - 0.5, r + 0.5]])
+                    for r, c in none
+                ],
+                facecolors="white",
+                edgecolors=SLATE,
+                hatch="xxx",
+                lw=0.0,
+            )
+        )
+    idle = np.argwhere((window > 0) & (planned <= 0))
+    if idle.size:
+        ax.plot(idle[:, 1], idle[:, 0], ls="none", marker="o", ms=3.5, mfc="white", mec=INK, mew=1.0)
+    ax.set_xlim(-0.5, n_n - 0.5)
+    ax.set_ylim(n_s - 0.5, -0.5)
+    every = 1 if n_n <= 16 else int(np.ceil(n_n / 16))
+    ax.set_xticks(
+        np.arange(0, len(nights), every),
+        [pd.Timestamp(x).strftime("%d %b") for x in list(nights)[::every]],
+        fontsize=8,
+        rotation=0 if len(nights) <= 8 else 45,
+        ha="center" if len(nights) <= 8 else "right",
+    )
+    ax.set_yticks(range(len(sites)), list(sites), fontsize=8)
+    ax.set_xticks(np.arange(n_n + 1) - 0.5, minor=True)
+    ax.set_yticks(np.arange(n_s + 1) - 0.5, minor=True)
+    ax.grid(True, which="minor", color="white", lw=1.2)
+    ax.tick_params(which="minor", length=0)
+    ax.set_xlabel("night (local evening date)")
+    bar = fig.colorbar(im, ax=ax, shrink=0.9, pad=0.01)
+    bar.set_label("hours planned", fontsize=8)
+    handles = [
+        Patch(facecolor="white", edgecolor=SLATE, hatch="xxx", label="no observable window"),
+        Line2D([], [], ls="none", marker="o", ms=4, mfc="white", mec=INK, label="window, nothing planned"),
+    ]
+    fig.legend(handles=handles, loc="outside upper center", ncols=2, fontsize=8, frameon=False)
     return fig
 
 

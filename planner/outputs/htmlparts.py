@@ -11,6 +11,7 @@ from __future__ import annotations
 import base64
 import html
 import json
+import re
 from collections.abc import Sequence
 
 import numpy as np
@@ -54,27 +55,55 @@ def json_num(diag: dict, path: str, digits: int = 3, unit: str = "") -> str:
     return num(value, f"diagnostics.json:{path}", digits, unit)
 
 
+#: Figures are drawn at 100 dots per inch of CSS size and encoded at twice that, for sharp high-density screens.
+FIGURE_SCALE = 2
+
+
 def figure_html(fig, fig_id: str, caption: str, alt: str) -> str:
-    """Embed a Figure as a base64 PNG inside <figure>; the figure is cleared afterwards."""
-    data = base64.b64encode(png_bytes(fig)).decode("ascii")
+    """Embed a Figure as a base64 PNG inside <figure>, at twice its CSS size (width and height say the CSS
+    size); the figure is cleared afterwards."""
+    width_in, height_in = fig.get_size_inches()
+    data = base64.b64encode(png_bytes(fig, dpi=100 * FIGURE_SCALE)).decode("ascii")
     fig.clear()
     return (
-        f'<figure id="{fig_id}"><img src="data:image/png;base64,{data}" alt="{html.escape(alt)}">'
+        f'<figure id="{fig_id}"><img src="data:image/png;base64,{data}" alt="{html.escape(alt)}" '
+        f'width="{round(width_in * 100)}" height="{round(height_in * 100)}">'
         f"<figcaption>{caption}</figcaption></figure>"
     )
 
 
+def _label(header: str) -> str:
+    """A header's text for a cell's data-label (shown beside the value when a table reflows as cards)."""
+    return html.escape(html.unescape(re.sub(r"<[^>]*>", "", header)), quote=True)
+
+
 def table(header: Sequence[str], rows: Sequence[Sequence[str]], cls: str = "") -> str:
-    head = "".join(f"<th>{h}</th>" for h in header)
-    body = "".join("<tr>" + "".join(f"<td>{c}</td>" for c in row) + "</tr>" for row in rows)
-    return f'<table class="{cls}"><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>'
+    """A table; a header row of only empty cells is left out (key–value tables). Each cell carries its
+    column's header as ``data-label`` so narrow screens can show rows as labelled cards."""
+    labels = [_label(h) for h in header]
+    head = (
+        "<thead><tr>" + "".join(f"<th>{h}</th>" for h in header) + "</tr></thead>"
+        if any(str(h).strip() for h in header)
+        else ""
+    )
+    body = "".join(
+        "<tr>"
+        + "".join(
+            f'<td data-label="{labels[i]}">{c}</td>' if i < len(labels) and labels[i] else f"<td>{c}</td>"
+            for i, c in enumerate(row)
+        )
+        + "</tr>"
+        for row in rows
+    )
+    return f'<table class="{cls}">{head}<tbody>{body}</tbody></table>'
 
 
 CSS = """
 :root { --ink:#1b2a41; --rule:#c9ced6; --soft:#f3f4f6; --warn:#8a3f72; }
 * { box-sizing: border-box; }
 body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif;
-       color: var(--ink); max-width: 1100px; margin: 0 auto; padding: 1.2rem 1.4rem 3rem; line-height: 1.45; }
+       color: var(--ink); max-width: 1240px; margin: 0 auto; padding: 1.2rem 1.4rem 3rem; line-height: 1.45;
+       overflow-wrap: break-word; }
 h1 { font-size: 1.6rem; margin-bottom: .2rem; }
 h2 { border-bottom: 2px solid var(--ink); padding-bottom: .2rem;
      margin-top: 2.2rem; } h3 { margin-bottom: .3rem; }
@@ -84,17 +113,34 @@ table { border-collapse: collapse; margin: .6rem 0 1rem; font-size: .88rem; }
 th, td { border: 1px solid var(--rule); padding: .25rem .5rem; text-align: left; vertical-align: top; }
 th { background: var(--soft); } tbody tr:nth-child(even) { background: #fafafa; }
 td .num, td.numcol { font-variant-numeric: tabular-nums; }
-table.blocks { font-size: .8rem; } table.blocks td { white-space: nowrap; }
+.wide { max-width: 100%; overflow-x: auto; }
+table.blocks { font-size: .78rem; } table.blocks th, table.blocks td { padding: .2rem .35rem; }
+table.blocks .num, table.blocks td:first-child { white-space: nowrap; }
 tr.nightstart td { border-top: 2px solid var(--ink); }
 figure { margin: 1rem 0; } figure img { max-width: 100%; height: auto; border: 1px solid var(--rule); }
 figcaption { font-size: .88rem; color: #3d4757; margin-top: .3rem; }
+details.site { border: 1px solid var(--rule); border-radius: 4px; margin: .5rem 0; padding: .3rem .7rem; }
+details.site > summary { cursor: pointer; font-weight: 600; padding: .2rem 0; }
 .caution { border: 2px solid var(--warn); border-left-width: 8px; padding: .6rem .9rem; margin: 1rem 0;
            background: #fbf5f9; }
 .caution strong { color: var(--warn); }
 .verdict-secure { font-weight: 600; } .verdict-alias-prone { font-style: italic; }
 .verdict-under-covered { text-decoration: underline; }
 .missing { color: #888; }
-@media print { nav { display: none; } h2 { break-before: page; } figure { break-inside: avoid; } }
+@media (max-width: 760px) {
+  body { padding: .6rem .7rem 2rem; }
+  nav ol { columns: 1; }
+  table, thead, tbody, tr, th, td { display: block; width: 100%; }
+  thead { position: absolute; width: 1px; height: 1px; overflow: hidden; clip: rect(0 0 0 0); }
+  tbody tr { border: 1px solid var(--rule); margin: 0 0 .6rem; }
+  td { border: 0; border-bottom: 1px solid #eceef1; overflow-wrap: anywhere; }
+  td[data-label]::before { content: attr(data-label) ": "; font-weight: 600; }
+  table.kv td:first-child { font-weight: 600; border-bottom: 0; padding-bottom: 0; }
+  tr.nightstart td { border-top: 0; } tr.nightstart { border-top: 3px solid var(--ink); }
+  .wide { overflow-x: visible; }
+}
+@media print { nav { display: none; } h2 { break-before: page; } figure { break-inside: avoid; }
+               details.site { border: 0; } }
 """
 
 
