@@ -190,6 +190,66 @@ def _discrimination(rng):
     return (expected_min_delta_chi2(t, 0.02, models, r), expected_min_delta_chi2_slow(t, 0.02, models, r))
 
 
+class _gridded:
+    """Force the Gaussian-gridding route of the trig sums on a test-sized problem (thresholds to zero)."""
+
+    def __enter__(self):
+        from planner.diagnostics import harmonic_lsq, trigsums
+
+        self.saved = [
+            (trigsums, "_DIRECT_BELOW", 0),
+            (harmonic_lsq, "_SUMS_FROM", 0),
+            (specwindow, "_GRIDDED_FROM", 0),
+            (sensitivity, "_GRIDDED_FROM", 0),
+        ]
+        self.saved = [(m, k, getattr(m, k), v) for m, k, v in self.saved]
+        for m, k, _, v in self.saved:
+            setattr(m, k, v)
+
+    def __exit__(self, *exc):
+        for m, k, old, _ in self.saved:
+            setattr(m, k, old)
+
+
+def _trig_sums(rng):
+    from planner.diagnostics import trigsums
+
+    t = rng.uniform(-4.0, 4.0, 150)
+    c = rng.normal(size=(150, 3)) + 1j * rng.normal(size=(150, 3))
+    with _gridded():
+        fast = trigsums.trig_sums(t, c, 0.7, 0.013, 300)
+    return fast, trigsums.trig_sums_slow(t, c, 0.7, 0.013, 300)
+
+
+def _harmonic_chi2_gridded(rng):
+    from planner.diagnostics import harmonic_lsq
+
+    t = np.sort(rng.uniform(0.0, 6.0, 80))
+    y = 0.3 * np.cos(2 * np.pi * t * 3.1)[:, None] + rng.normal(0, 0.03, (80, 2))
+    fixed = np.column_stack([np.ones(80), t])
+    f = np.linspace(0.5, 8.0, 120)
+    w = rng.uniform(500, 3000, 80)
+    with _gridded():
+        fast = harmonic_lsq.harmonic_chi2(t, y, w, f, 2, fixed=fixed).chi2
+    return fast, harmonic_lsq.harmonic_chi2_slow(t, y, w, f, 2, fixed=fixed).chi2
+
+
+def _window_gridded(rng):
+    t, w = _times(rng), rng.uniform(0.5, 2.0, 120)
+    f = np.linspace(0.0, 5.0, 200)
+    with _gridded():
+        fast = specwindow.spectral_window(t, f, w)
+    return fast, specwindow.spectral_window_slow(t, f, w)
+
+
+def _fading_gridded(rng):
+    t, s = _times(rng, 60), rng.uniform(0.005, 0.05, 60)
+    p = 1.0 / np.linspace(1 / 2.0, 1 / 30.0, 150)
+    with _gridded():
+        fast = sensitivity.fading_rate_sigma(t, p, s, 2)
+    return fast, sensitivity.fading_rate_sigma_slow(t, p, s, 2)
+
+
 def _greedy(rng):
     model, _, _ = model_for(n_sites=2, n_nights=2, n_periods=24, n_bins=10, seed=int(rng.integers(100)))
     cells, start = model.element_cells(), model.done_cells
@@ -215,6 +275,10 @@ TWINS = [
     Twin("objective.excess_gap_h", _excess_gap, rtol=1e-12),
     Twin("state.PlanModel.visit_phasors", _visit_phasors, rtol=1e-9, atol=1e-9),
     Twin("greedy.greedy_lazy", _greedy),
+    Twin("trigsums.trig_sums (gridded)", _trig_sums, rtol=0.0, atol=1e-11),
+    Twin("harmonic_lsq.harmonic_chi2 (gridded sums)", _harmonic_chi2_gridded, rtol=1e-8, atol=1e-8),
+    Twin("specwindow.spectral_window (gridded)", _window_gridded, rtol=1e-9, atol=1e-12),
+    Twin("sensitivity.fading_rate_sigma (gridded)", _fading_gridded, rtol=1e-6),
     Twin("harmonic_lsq.harmonic_chi2", _harmonic_chi2, rtol=1e-8, atol=1e-8),
     Twin("discriminate.expected_min_delta_chi2", _discrimination, rtol=1e-9),
 ]

@@ -78,7 +78,8 @@ def workers_for(workers: int | None, n_blocks: int, cost_s: float | None = None)
 
 @contextlib.contextmanager
 def _one_blas_thread() -> Iterator[None]:
-    """Worker processes started inside run one BLAS thread each (workers × threads stays at the cores)."""
+    """Worker processes started fresh inside run one BLAS thread each (workers × threads stays at the
+    cores); forked workers keep the BLAS threads this process set up."""
     old = {k: os.environ.get(k) for k in _BLAS_VARS}
     os.environ.update({k: "1" for k in _BLAS_VARS})
     try:
@@ -119,10 +120,14 @@ def run_blocks(
     n = workers_for(workers, len(blocks), cost_s)
     if n == 1:
         return [fn(b) for b in blocks]
+    with _one_blas_thread(), ProcessPoolExecutor(max_workers=n, mp_context=_context()) as pool:
+        return list(pool.map(fn, blocks))
+
+
+def _context():
+    """Fork where the system has it: a forked worker starts at once and never re-runs the caller's script
+    (spawn and forkserver import ``__main__`` again, which re-runs a script without a main guard)."""
     import multiprocessing
 
-    with (
-        _one_blas_thread(),
-        ProcessPoolExecutor(max_workers=n, mp_context=multiprocessing.get_context("spawn")) as pool,
-    ):
-        return list(pool.map(fn, blocks))
+    methods = multiprocessing.get_all_start_methods()
+    return multiprocessing.get_context("fork" if "fork" in methods and os.name == "posix" else methods[0])

@@ -40,10 +40,16 @@ from typing import NamedTuple
 
 import numpy as np
 
+from planner.diagnostics.trigsums import HarmonicSums
+
 #: Bytes of harmonics (complex and real copies) per block of frequencies: stays in the cache.
 _BLOCK_BYTES = 1_000_000
 #: Frequencies whose small (2K × 2K) systems are reduced together.
 _OUTER_FREQS = 1024
+#: (points × frequencies) from which a uniform grid's sums come from planner.diagnostics.trigsums,
+#: and the frequencies per block there.
+_SUMS_FROM = 2_000_000
+_SUMS_OUTER = 4096
 #: A Schur pivot below this fraction of its column's weighted norm² is recomputed by QR.
 _STABLE_PIVOT = 1e-4
 #: QR diagonal below this fraction of the column norm: the column is already explained (dropped).
@@ -248,7 +254,7 @@ def _block_products(
     return prod, high
 
 
-def _normal_matrix(sums: np.ndarray, nterms: int) -> np.ndarray:
+def harmonic_gram(sums: np.ndarray, nterms: int) -> np.ndarray:
     """D = HᵀWH (Fb, 2K, 2K) from Σw e^{imθ}, m = 0..2K (``sums`` (Fb, 2K+1) complex)."""
     c, s = sums.real, sums.imag
     nf = sums.shape[0]
@@ -312,16 +318,22 @@ def harmonic_chi2(
         left = np.hstack([sw[:, None] * basis_top, sw[:, None] * fit.resid[:n], w[:, None]])
         nb = basis_top.shape[1]
         block = max(2, _BLOCK_BYTES // (32 * n * nterms))
-        outer = max(block, _OUTER_FREQS)
         phasors = _Phasors(tc, f, nterms, block)
+        # A uniform grid with many frequencies takes its sums from Gaussian gridding (trigsums).
+        gridded = phasors.uniform and f.size * n >= _SUMS_FROM
+        outer = min(f.size, _SUMS_OUTER) if gridded else max(block, _OUTER_FREQS)
+        plan = HarmonicSums(tc, (f[-1] - f[0]) / (f.size - 1), outer, nterms) if gridded else None
         for start in range(0, f.size, outer):
             stop = min(start + outer, f.size)
-            prod, high = _block_products(phasors, left, w, start, stop, block)
+            if plan is not None:
+                prod, high = plan(left, w, f[start], stop - start)
+            else:
+                prod, high = _block_products(phasors, left, w, start, stop, block)
             c = prod[:, :, :nb]  # (Fb, 2K, r): basisᵀ √W H
             r = prod[:, :, nb : nb + m]  # (Fb, 2K, M): HᵀW(y − Xβ̂)
             low = prod[:, 0::2, -1] + 1j * prod[:, 1::2, -1]  # Σw e^{ikθ}, k = 1..K
             sums = np.concatenate([np.full((stop - start, 1), w.sum(), dtype=complex), low, high], axis=1)
-            d = _normal_matrix(sums, nterms)
+            d = harmonic_gram(sums, nterms)
             s = d - c @ np.swapaxes(c, 1, 2)
             rb, worst = _schur_reduction(np.diagonal(d, axis1=1, axis2=2), s, r)
             weak = worst < _STABLE_PIVOT

@@ -19,9 +19,13 @@ import math
 
 import numpy as np
 
+from planner.diagnostics.harmonic_lsq import harmonic_gram
 from planner.diagnostics.periodogram import harmonic_design
+from planner.diagnostics.trigsums import TrigSums, uniform_grid
 
 _CHUNK_ELEMENTS = 3_000_000
+#: (times × periods) from which a uniform frequency grid's Gram matrices come from trig sums.
+_GRIDDED_FROM = 2_000_000
 
 
 def _inputs(times_jd, periods_h, sigma_mag):
@@ -71,10 +75,35 @@ def fading_rate_sigma(
     out = np.full(f.size, np.inf)
     if tc.size < 2 + 2 * nterms:
         return out
+    grid = uniform_grid(f)
+    if grid is not None and f.size * tc.size >= _GRIDDED_FROM:
+        # Every Gram element is a trig sum (Σw e^{imθ}, Σwt e^{ikθ}): by Gaussian gridding on a uniform grid.
+        return np.sqrt(_safe_inv(_gram_from_sums(tc, w, grid, f.size, nterms))[:, 1, 1])
     for sl in _chunks(f.size, tc.size * (2 + 2 * nterms)):
         cov = _safe_inv(_gram(_nuisance(tc, f[sl], nterms), w))
         out[sl] = np.sqrt(cov[:, 1, 1])
     return out
+
+
+def _gram_from_sums(tc: np.ndarray, w: np.ndarray, grid: tuple[float, float], n_freq: int, nterms: int) -> np.ndarray:
+    """XᵀWX of the nuisance design [1, t, harmonics] at every frequency f0 + j·step from trig sums:
+    (F, 2 + 2K, 2 + 2K), the same matrix :func:`_gram` builds from the explicit design."""
+    f0, step = grid
+    cols = np.column_stack([w, w * tc])
+    sums = {m: TrigSums(tc, m * step, n_freq)(cols if m <= nterms else w, m * f0) for m in range(1, 2 * nterms + 1)}
+    g = np.zeros((n_freq, 2 + 2 * nterms, 2 + 2 * nterms))
+    g[:, 0, 0], g[:, 1, 1] = w.sum(), (w * tc * tc).sum()
+    g[:, 0, 1] = g[:, 1, 0] = (w * tc).sum()
+    low = np.concatenate(
+        [np.full((n_freq, 1), w.sum(), dtype=complex), *[sums[m][:, :1] for m in range(1, 2 * nterms + 1)]], axis=1
+    )
+    g[:, 2:, 2:] = harmonic_gram(low, nterms)
+    for k in range(1, nterms + 1):
+        for row in (0, 1):
+            s = sums[k][:, row]
+            g[:, row, 2 * k], g[:, row, 2 * k + 1] = s.real, s.imag
+            g[:, 2 * k, row], g[:, 2 * k + 1, row] = s.real, s.imag
+    return g
 
 
 def _design_slow(tc: np.ndarray, freq_per_day: float, nterms: int) -> np.ndarray:
