@@ -404,7 +404,7 @@ def test_check_report_of_three_points(tmp_path, capsys):
         warnings.simplefilter("error", UserWarning)
         code, _, err = call(capsys, "check", str(log), "--trials", "0", "--report", str(tmp_path / "r.html"))
     assert code == 0, err
-    assert (tmp_path / "r.html").read_text().count("data:image/png;base64") >= 3
+    assert (tmp_path / "r.html").read_text().count("data:image/svg+xml;base64") >= 3
 
 
 def test_log_ending_after_the_campaign_says_so(tmp_path):

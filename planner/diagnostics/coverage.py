@@ -53,7 +53,9 @@ def rotational_phase(times_jd: np.ndarray, periods_h: np.ndarray) -> np.ndarray:
     """Phase in [0, 1) of every time (columns) on every period (rows), zero at the first time."""
     t_h = _centred_days(times_jd) * 24.0
     p = np.atleast_1d(np.asarray(periods_h, dtype=float))
-    return np.mod(t_h[None, :] / p[:, None], 1.0)
+    cycles = t_h[None, :] / p[:, None]
+    # x − floor(x) is the exact fractional part (the same value as np.mod(x, 1.0) for x ≥ 0), and faster.
+    return np.subtract(cycles, np.floor(cycles), out=cycles)
 
 
 def phase_bin_index(times_jd: np.ndarray, periods_h: np.ndarray, n_bins: int = 20) -> np.ndarray:
@@ -62,8 +64,10 @@ def phase_bin_index(times_jd: np.ndarray, periods_h: np.ndarray, n_bins: int = 2
     Bins are equal arcs of rotational phase with phase zero at the first observation. The
     scheduler can use this to compute coverage gains of candidate slots with set operations.
     """
-    idx = np.floor(rotational_phase(times_jd, periods_h) * n_bins).astype(np.int64)
-    return np.minimum(idx, n_bins - 1)  # guard against phase rounding to exactly 1.0
+    phase = rotational_phase(times_jd, periods_h)
+    phase *= n_bins
+    idx = np.floor(phase, out=phase).astype(np.int64)
+    return np.minimum(idx, n_bins - 1, out=idx)  # guard against phase rounding to exactly 1.0
 
 
 def _chunks(n_periods: int, n_times: int):
@@ -89,8 +93,8 @@ def phase_coverage(times_jd: np.ndarray, periods_h: np.ndarray, n_bins: int = 20
     for sl in _chunks(p.shape[0], t.size):
         phase = rotational_phase(t, p[sl])
         idx = np.minimum(np.floor(phase * n_bins).astype(np.int64), n_bins - 1)
-        occupied = np.zeros((phase.shape[0], n_bins), dtype=bool)
-        occupied[np.arange(phase.shape[0])[:, None], idx] = True
+        idx += (np.arange(phase.shape[0]) * n_bins)[:, None]
+        occupied = np.bincount(idx.ravel(), minlength=phase.shape[0] * n_bins).reshape(-1, n_bins) > 0
         frac[sl] = occupied.sum(axis=1) / n_bins
         phase.sort(axis=1)
         inner = np.diff(phase, axis=1).max(axis=1, initial=0.0)

@@ -13,6 +13,7 @@ from __future__ import annotations
 import io
 from dataclasses import dataclass, field
 
+import matplotlib
 import matplotlib.dates as mdates
 import numpy as np
 import pandas as pd
@@ -84,8 +85,10 @@ def log_series(label: str = "observations", **kw) -> Series:
     return Series(label=label, color=PLUM, linestyle=":", marker="D", filled=True, **kw)
 
 
-def new_figure(width_in: float, height_in: float) -> Figure:
-    fig = Figure(figsize=(width_in, height_in), layout="constrained")
+def new_figure(width_in: float, height_in: float, constrained: bool = True) -> Figure:
+    """A figure on its own Agg canvas; ``constrained=False`` leaves the layout to the caller (fixed
+    margins: much cheaper to draw than constrained layout's measuring of every label)."""
+    fig = Figure(figsize=(width_in, height_in), layout="constrained" if constrained else None)
     FigureCanvasAgg(fig)
     return fig
 
@@ -124,6 +127,15 @@ def png_bytes(fig: Figure, dpi: int = 100) -> bytes:
     return buf.getvalue()
 
 
+def svg_bytes(fig: Figure) -> bytes:
+    """The figure as SVG (text as paths: no fonts needed; no date and a fixed id salt, so equal figures give
+    equal files); rasterised parts (large meshes) at 200 dpi."""
+    buf = io.BytesIO()
+    with matplotlib.rc_context({"svg.hashsalt": "phasewise", "svg.fonttype": "path"}):
+        fig.savefig(buf, format="svg", dpi=200, metadata={"Date": None})
+    return buf.getvalue()
+
+
 def check_times_utc(check: dict, fallback: np.ndarray) -> np.ndarray:
     """The observation times a check result was computed from (its ``input.times_utc``), else ``fallback``."""
     listed = (check.get("input") or {}).get("times_utc")
@@ -146,7 +158,10 @@ def phase_occupancy(times_utc: np.ndarray, periods_h: np.ndarray, n_bins: int) -
     step = max(1, 2_000_000 // t_jd.size)
     for a in range(0, periods.size, step):
         idx = phase_bin_index(t_jd, periods[a : a + step], n_bins)
-        occupied[np.arange(a, a + idx.shape[0])[:, None], idx] = True
+        idx += (np.arange(idx.shape[0]) * n_bins)[:, None]
+        occupied[a : a + idx.shape[0]] = (
+            np.bincount(idx.ravel(), minlength=idx.shape[0] * n_bins).reshape(-1, n_bins) > 0
+        )
     return occupied
 
 

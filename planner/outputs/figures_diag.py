@@ -34,13 +34,17 @@ from planner.outputs.figstyle import (
     png_bytes,
 )
 
+#: Trial periods folded for the coverage map at most (rows of the picture).
+MAP_ROWS = 600
+
 
 def coverage_figure(series: Sequence[Series]) -> Figure:
     """Coverage map (period × rotational phase) per schedule, and the coverage fraction per period.
 
-    Each schedule is drawn on its own check's period grid (``periods_h``). The map bins the check's
-    own observation times exactly as the check does (its ``phase_bins``); the fraction curve is the
-    check's ``coverage`` number for each period, drawn as given.
+    Each schedule is drawn on its own check's period grid (``periods_h``; at most MAP_ROWS of them,
+    evenly spread, in the map). The map bins the check's own observation times exactly as the check
+    does (its ``phase_bins``); the fraction curve is the check's ``coverage`` number for every period,
+    drawn as given.
     """
     fig = new_figure(3.0 * len(series) + 3.2, 4.6)
     axes = fig.subplots(1, len(series) + 1, sharey=True, gridspec_kw=dict(width_ratios=[3] * len(series) + [2.2]))
@@ -52,10 +56,13 @@ def coverage_figure(series: Sequence[Series]) -> Figure:
             continue
         order = np.argsort(periods)
         periods = periods[order]
-        edges = period_edges(periods)
+        # The map has a few hundred pixel rows: it folds on at most MAP_ROWS of the trial periods, evenly
+        # spread (the fraction curve beside it keeps every period).
+        rows = np.unique(np.linspace(0, periods.size - 1, min(periods.size, MAP_ROWS)).round().astype(int))
+        edges = period_edges(periods[rows])
         lo, hi = min(lo, edges[0]), max(hi, edges[-1])
         n_bins = int((s.check.get("settings") or {}).get("phase_bins", 20))
-        occupied = phase_occupancy(check_times_utc(s.check, s.times_utc), periods, n_bins)
+        occupied = phase_occupancy(check_times_utc(s.check, s.times_utc), periods[rows], n_bins)
         ax.pcolormesh(
             np.linspace(0, 1, n_bins + 1),
             edges,

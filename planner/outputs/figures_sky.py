@@ -92,6 +92,27 @@ def _row_geometry(x_all_h: np.ndarray, values: np.ndarray, n_rows: int, xs_h: np
     return np.where(far, np.nan, out)
 
 
+def _darkness_bands(shade: np.ndarray, xs: np.ndarray) -> PolyCollection:
+    """Each night's runs of one darkness level as grey rectangles (a few per night, not a pixel image)."""
+    n, m = shade.shape
+    bounds = np.concatenate([[xs[0]], 0.5 * (xs[1:] + xs[:-1]), [xs[-1]]])
+    start = np.ones((n, m), dtype=bool)
+    start[:, 1:] = shade[:, 1:] != shade[:, :-1]
+    rows, first = np.nonzero(start)
+    last = np.empty_like(first)
+    last[:-1] = np.where(rows[1:] == rows[:-1], first[1:], m)
+    last[-1:] = m
+    level = shade[rows, first]
+    keep = level > 0  # daylight stays white
+    rows, first, last, level = rows[keep], first[keep], last[keep], level[keep]
+    return PolyCollection(
+        _rects(rows, bounds[first], bounds[last], 0.0, 1.0),
+        facecolors=[DARKNESS_GREYS[k] for k in level],
+        edgecolors="none",
+        zorder=0,
+    )
+
+
 def _rects(rows: np.ndarray, a: np.ndarray, b: np.ndarray, y0: float, y1: float) -> list[np.ndarray]:
     """Rectangles [a, b] × [row + y0, row + y1] as polygons (one collection draws them all)."""
     return [
@@ -107,6 +128,7 @@ def site_nights_figure(
     nights: Sequence[str],
     utc_offset_h: float,
     min_alt_deg: float | None = None,
+    legend: bool = True,
 ) -> Figure:
     """Every night of one site in one panel: a row per night, local clock time across, darkness shaded,
     the target's altitude as a curve inside its row, the observable window as a hatched strip at the
@@ -115,11 +137,17 @@ def site_nights_figure(
     ``geometry`` (time_utc, alt_deg, sun_alt_deg), ``windows`` and ``blocks`` (night, start_utc, end_utc)
     are this site's rows. The x axis is local clock time (UTC + ``utc_offset_h``); each row runs from
     the evening of its date to the next morning. One axes and a handful of collections whatever the
-    number of nights, so a month of nights draws as fast as one.
+    number of nights, so a month of nights draws as fast as one. ``legend=False`` leaves the key out
+    (a page with many of these charts shows one key for all, :data:`NIGHT_KEY`); margins are fixed.
     """
     n = max(len(nights), 1)
     row_h = 0.34 if n <= 10 else 0.24 if n <= 31 else max(0.1, 8.0 / n)
-    fig = new_figure(8.6, 1.5 + row_h * n)
+    top_in, bottom_in, left_in, right_in = (0.75 if legend else 0.12), 0.5, 1.0, 0.15
+    width_in, height_in = 8.6, top_in + bottom_in + row_h * n
+    fig = new_figure(width_in, height_in, constrained=False)
+    fig.subplots_adjust(
+        left=left_in / width_in, right=1 - right_in / width_in, bottom=bottom_in / height_in, top=1 - top_in / height_in
+    )
     ax = fig.subplots()
     night0 = np.datetime64(f"{nights[0]}T12:00") if len(nights) else np.datetime64("2000-01-01T12:00")
     offset = np.timedelta64(int(round(utc_offset_h * 3600)), "s")
@@ -138,16 +166,7 @@ def site_nights_figure(
     if x_all.size >= 2:
         sun_rows = _row_geometry(x_all, sun, n, xs)
         shade = np.where(np.isnan(sun_rows), 0, _darkness_index(np.nan_to_num(sun_rows, nan=90.0)))
-        ax.imshow(
-            shade,
-            cmap=ListedColormap(DARKNESS_GREYS),
-            vmin=-0.5,
-            vmax=4.5,
-            aspect="auto",
-            extent=(xs[0], xs[-1], n, 0),
-            interpolation="nearest",
-            zorder=0,
-        )
+        ax.add_collection(_darkness_bands(shade, xs))
         alt_rows = _row_geometry(x_all, alt, n, xs)
         y = np.arange(n)[:, None] + 0.92 - 0.84 * np.where(alt_rows > 0, alt_rows, np.nan) / 90.0
         xx = np.broadcast_to(xs, y.shape)
@@ -202,25 +221,43 @@ def site_nights_figure(
         fontsize=8 if n <= 31 else 7,
     )
     ax.tick_params(axis="y", length=0)
-    ax.set_yticks(np.arange(n + 1), minor=True)
-    ax.grid(True, which="minor", axis="y", color="white", lw=1.0)
+    # White rules between the nights (a collection: minor ticks would cost a tick object per night).
+    ax.add_collection(LineCollection([[(x0, v), (x1, v)] for v in range(1, n)], colors="white", linewidths=1.0))
     sign = "+" if utc_offset_h >= 0 else "−"
     ax.set_xlabel(
-        f"local time at {site} (UTC{sign}{abs(utc_offset_h):g} h); each row: the evening of its date to morning"
+        f"local time at {site} (UTC{sign}{abs(utc_offset_h):g} h); each row: the evening of its date to morning",
+        fontsize=9,
     )
-    handles = [
-        Patch(facecolor=g, edgecolor="#999999", label=nm)
-        for g, nm in zip(DARKNESS_GREYS[1:], DARKNESS_NAMES[1:], strict=True)
-    ]
-    handles += [
-        Line2D([], [], color=INK, lw=1.4, label="target altitude (row foot 0°, top 90°)"),
-        Patch(facecolor="white", edgecolor=TEAL, hatch="////", label="observable window (strip at row foot)"),
-        Patch(facecolor=AMBER, alpha=0.6, edgecolor=INK, label="planned block"),
-    ]
-    if min_alt_deg is not None:
-        handles.append(Line2D([], [], color=SLATE, ls=":", lw=1.0, label=f"altitude limit {min_alt_deg:g}°"))
-    fig.legend(handles=handles, loc="outside upper center", ncols=3, fontsize=8, frameon=False)
+    if legend:
+        handles = [
+            Patch(facecolor=g, edgecolor="#999999", label=nm)
+            for g, nm in zip(DARKNESS_GREYS[1:], DARKNESS_NAMES[1:], strict=True)
+        ]
+        handles += [
+            Line2D([], [], color=INK, lw=1.4, label="target altitude (row foot 0°, top 90°)"),
+            Patch(facecolor="white", edgecolor=TEAL, hatch="////", label="observable window (strip at row foot)"),
+            Patch(facecolor=AMBER, alpha=0.6, edgecolor=INK, label="planned block"),
+        ]
+        if min_alt_deg is not None:
+            handles.append(Line2D([], [], color=SLATE, ls=":", lw=1.0, label=f"altitude limit {min_alt_deg:g}°"))
+        fig.legend(handles=handles, loc="upper center", ncols=3, fontsize=8, frameon=False)
     return fig
+
+
+#: The night charts' key as (swatch CSS, words), for a page that shows it once above many charts.
+NIGHT_KEY = (
+    *[
+        (f"background:{g};border:1px solid #999", nm)
+        for g, nm in zip(DARKNESS_GREYS[1:], DARKNESS_NAMES[1:], strict=True)
+    ],
+    (f"border-top:2px solid {INK};height:0", "target altitude (row foot 0°, top 90°)"),
+    (
+        f"background:repeating-linear-gradient(45deg,#fff 0 2px,{TEAL} 2px 3px);border:1px solid {TEAL}",
+        "observable window (strip at the row's foot)",
+    ),
+    (f"background:{AMBER};opacity:.6;border:1px solid {INK}", "planned block"),
+    (f"border-top:2px dotted {SLATE};height:0", "the site's altitude limit"),
+)
 
 
 def network_nights_figure(

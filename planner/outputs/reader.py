@@ -62,7 +62,7 @@ class PlanFolder:
         names: dict[str, None] = dict.fromkeys(self.site_info)
         for df in (self.windows, self.plan, self.baseline, self.geometry):
             if df is not None and "site" in df:
-                names.update(dict.fromkeys(df["site"].astype(str)))
+                names.update(dict.fromkeys(df["site"].astype(str).unique()))
         return list(names)
 
     @property
@@ -70,7 +70,7 @@ class PlanFolder:
         nights: set[str] = set()
         for df in (self.windows, self.plan, self.baseline):
             if df is not None and "night" in df:
-                nights |= {str(n) for n in df["night"] if str(n)}
+                nights |= {n for n in df["night"].astype(str).unique() if n}
         return sorted(nights)
 
     def min_solar_elong_deg(self, site: str | None = None) -> float:

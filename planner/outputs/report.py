@@ -21,10 +21,10 @@ from planner.outputs.figstyle import baseline_series, check_times_utc, log_serie
 from planner.outputs.htmlparts import json_num, num, page, table
 from planner.outputs.reader import PlanFolder, load_plan_folder
 from planner.outputs.report_diag import DIAG_TOC, diagnostics_sections
+from planner.outputs.report_nights import nights_section
 from planner.outputs.report_sections import (
     blocks_section,
     geometry_section,
-    nights_section,
     short_time,
     summary_section,
     timeline_section,

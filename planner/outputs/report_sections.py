@@ -12,7 +12,7 @@ import pandas as pd
 from planner.core.safety import sun_caution_limit_deg
 from planner.outputs import figures_sky
 from planner.outputs.htmlparts import figure_html, fmt, json_num, num, table
-from planner.outputs.reader import PlanFolder, cell_float, utc_offset_h, utc_times
+from planner.outputs.reader import PlanFolder, cell_float, utc_times
 
 _BLOCK_COLUMNS = ("site", "night", "start_utc", "end_utc")
 
@@ -244,110 +244,6 @@ def geometry_section(pf: PlanFolder) -> str:
 
         rows.append([label, cell(i0), cell(i1), cell(imin), cell(imax)])
     out.append(table(["", "start", "end", "minimum", "maximum"], rows, "geo"))
-    out.append("</section>")
-    return "\n".join(out)
-
-
-def _night_hours(pf: PlanFolder) -> tuple[np.ndarray, np.ndarray, dict[tuple[str, str], str]]:
-    """Window hours and planned hours per (site, night), (sites × nights) arrays, and each site-night's
-    reasons from windows.csv."""
-    sites, nights = pf.sites, pf.nights
-    s_of = {s: i for i, s in enumerate(sites)}
-    n_of = {n: j for j, n in enumerate(nights)}
-    window = np.zeros((len(sites), len(nights)))
-    planned = np.zeros((len(sites), len(nights)))
-    reasons: dict[tuple[str, str], str] = {}
-    if pf.windows is not None and len(pf.windows):
-        w = pf.windows
-        hours = np.array([cell_float(h) for h in w["hours"]]) if "hours" in w else np.zeros(len(w))
-        for site, night, h in zip(w["site"], w["night"].astype(str), hours, strict=True):
-            if site in s_of and night in n_of and not math.isnan(h):
-                window[s_of[site], n_of[night]] += h
-        if "reason" in w:
-            for site, night, r in zip(w["site"], w["night"].astype(str), w["reason"], strict=True):
-                if r and str(r) != "nan":
-                    key = (str(site), night)
-                    reasons[key] = f"{reasons[key]}; {r}" if key in reasons else str(r)
-    if len(pf.plan):
-        hours = (utc_times(pf.plan["end_utc"]) - utc_times(pf.plan["start_utc"])) / np.timedelta64(1, "h")
-        for site, night, h in zip(pf.plan["site"], pf.plan["night"].astype(str), hours, strict=True):
-            if site in s_of and night in n_of:
-                planned[s_of[site], n_of[night]] += h
-    return window, planned, reasons
-
-
-def nights_section(pf: PlanFolder) -> str:
-    out = [
-        '<section id="nights"><h2>Nights at every site</h2>',
-        "<p>The network at a glance: one row per site, one column per night; the shade gives the hours "
-        "planned, a crossed cell a night without an observable window, an open dot a window left unused. "
-        "Below, each site's nights in detail.</p>",
-    ]
-    window, planned, reasons = _night_hours(pf)
-    if pf.sites and pf.nights:
-        fig = figures_sky.network_nights_figure(pf.sites, pf.nights, planned, window)
-        out.append(
-            figure_html(
-                fig,
-                "fig-network",
-                "Hours planned per site and night (darker: more); crossed: no observable window; open dot: a "
-                "window with nothing planned.",
-                "Sites against nights: hours planned",
-            )
-        )
-    g = pf.geometry
-    charts = g is not None and "alt_deg" in g and "sun_alt_deg" in g
-    if not charts:
-        out.append('<p class="missing">geometry.csv lacks alt_deg / sun_alt_deg: no night charts.</p>')
-    windows = pf.windows if pf.windows is not None else pd.DataFrame(columns=[*_BLOCK_COLUMNS, "reason"])
-    for i, site in enumerate(pf.sites):
-        n_blocks = int((pf.plan["site"] == site).sum()) if len(pf.plan) else 0
-        dark = int((window[i] <= 0).sum())
-        summary = (
-            f"{html.escape(site)}: {n_blocks} block{'s' if n_blocks != 1 else ''}, "
-            f"{planned[i].sum():.1f} h planned of {window[i].sum():.1f} h of windows"
-            + (f", {dark} night{'s' if dark != 1 else ''} without a window" if dark else "")
-        )
-        body = []
-        gs = g[g["site"] == site] if charts else None
-        if gs is not None and not gs.empty:
-            ws = windows[windows["site"] == site]
-            bs = pf.plan[pf.plan["site"] == site]
-            off = pf.utc_offset_h(site, pf.nights[0] if pf.nights else None)
-            if off is None:  # a folder without the site in its manifest: the tables' local times tell
-                off = utc_offset_h(ws) if utc_offset_h(ws) is not None else utc_offset_h(bs)
-            min_alt = (pf.site_info.get(site) or {}).get("min_alt_deg")
-            fig = figures_sky.site_nights_figure(
-                site, gs, ws, bs, pf.nights, off or 0.0, None if min_alt is None else float(min_alt)
-            )
-            body.append(
-                figure_html(
-                    fig,
-                    f"fig-site-{i}",
-                    f"Nights at {html.escape(site)}: one row per night, local clock time across; grey shades "
-                    "deepen from civil twilight to full night; the curve is the target's altitude within the "
-                    "row; hatched strip: the observable window; filled: the planned blocks; dotted: the "
-                    "site's altitude limit.",
-                    f"Altitude charts for {site}",
-                )
-            )
-        if pf.windows is not None:
-            rows = []
-            for j, night in enumerate(pf.nights):
-                why = reasons.get((site, night), "")
-                rows.append(
-                    [
-                        html.escape(night),
-                        f"{window[i, j]:.1f}" if window[i, j] > 0 else "none",
-                        f"{planned[i, j]:.1f}",
-                        html.escape(why) or "—",
-                    ]
-                )
-            body.append(table(["night", "window (h)", "planned (h)", "reason"], rows, "windows"))
-        is_open = " open" if len(pf.sites) <= 4 else ""
-        out.append(
-            f'<details class="site" id="site-{i}"{is_open}><summary>{summary}</summary>{"".join(body)}</details>'
-        )
     out.append("</section>")
     return "\n".join(out)
 
