@@ -185,3 +185,17 @@ def test_replanning_never_schedules_before_the_log_or_over_done_time():
         assert model.grid.slot_time(v.start) >= cut
     # The already-observed cells count as covered from the start.
     assert model.terms([]).coverage > 0
+
+
+def test_search_budget_grows_with_the_schedule_and_says_why_it_stopped():
+    from planner.schedule.localsearch import MIN_EVALUATIONS, search_budget
+
+    assert search_budget(10) == MIN_EVALUATIONS
+    assert search_budget(2000) == 15 * 2000  # a month at sixteen sites gets its moves per visit too
+    model, _, _ = model_for(n_sites=2, n_nights=2, blocks=BLOCKS, n_periods=30, n_bins=12)
+    free = optimise(model, seed=3)
+    assert free.search.budget == search_budget(len(free.greedy_visits))
+    assert free.search.stopped_by in ("local optimum", "small gain", "budget", "passes")
+    assert free.search.gain == pytest.approx(free.terms.total - free.greedy_terms.total, abs=1e-12)
+    tight = optimise(model, seed=3, max_evaluations=5)
+    assert (tight.search.evaluations, tight.search.stopped_by) == (5, "budget")

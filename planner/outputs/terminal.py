@@ -10,6 +10,7 @@ from planner.core.safety import CAUTION_TEXT, SUN_SAFETY_TEXT
 from planner.core.textfmt import clock_hm, fixed
 from planner.outputs.tablefiles import table_for_files
 from planner.pipeline import PlanResult
+from planner.schedule.localsearch import EVALUATIONS_PER_VISIT, MIN_EVALUATIONS
 
 #: Units of the printed night-by-night table (under it).
 TABLE_LEGEND = (
@@ -138,6 +139,12 @@ def comparison_text(result: PlanResult) -> str:
                 f"{obj.exact.coverage_greedy_cells} (ratio {ratio:.3f}; {ex.status})"
             )
     out.append(line)
+    ls = obj.search
+    out.append(
+        f"local search: {ls.evaluations} of {ls.budget} moves scored (budget: {EVALUATIONS_PER_VISIT} per visit of "
+        f"the greedy's schedule, at least {MIN_EVALUATIONS}), {ls.accepted} kept in {ls.passes} passes, objective "
+        f"+{ls.gain:.4f}; stopped by {ls.stopped_by}"
+    )
     bands = rp.single_site_bands_h
     if bands:
         out.append(

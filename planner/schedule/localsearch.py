@@ -3,9 +3,11 @@
 Starting from the greedy's visits, try — in an order drawn from the campaign's seed — to move a
 visit (shift it along the night), grow or shrink it at either end, swap it for a visit in another
 site-night, or add a visit where a site-night still has time; keep the first change that raises
-the objective, and repeat until a full pass changes nothing (a local optimum for these moves) or
-the evaluation budget runs out. Every accepted change strictly raises the objective, so the result
-is never worse than the greedy's schedule on the full objective. Deterministic for a fixed seed.
+the objective, and repeat until a full pass changes nothing (a local optimum for these moves), a
+full pass gains less than MIN_PASS_GAIN, or the evaluation budget runs out. The budget scales with
+the instance (:func:`search_budget`: so many moves per visit); the statistics say which rule
+stopped the search. Every accepted change strictly raises the objective, so the result is never
+worse than the greedy's schedule on the full objective. Deterministic for a fixed seed.
 """
 
 from __future__ import annotations
@@ -26,12 +28,31 @@ _RANDOM_K = 4
 _IMPROVE = 1e-9
 
 
+#: The move budget: at least MIN_EVALUATIONS, else EVALUATIONS_PER_VISIT for each visit of the greedy's
+#: schedule (every visit gets about as many tries in a large network as in a small one).
+MIN_EVALUATIONS = 6000
+EVALUATIONS_PER_VISIT = 15
+#: A full pass that raises the objective by less than this stops the search (J is of order 1).
+MIN_PASS_GAIN = 1e-6
+
+
+def search_budget(n_visits: int) -> int:
+    """Moves the local search may score for a schedule of ``n_visits`` visits."""
+    return max(MIN_EVALUATIONS, EVALUATIONS_PER_VISIT * int(n_visits))
+
+
 @dataclass
 class SearchStats:
     passes: int = 0
     evaluations: int = 0
     accepted: int = 0
     stopped_by_budget: bool = False
+    #: The move budget it ran with, and why it stopped: "local optimum" (a pass changed nothing),
+    #: "budget", "small gain" (a pass gained less than MIN_PASS_GAIN) or "passes" (the pass limit).
+    budget: int = 0
+    stopped_by: str = ""
+    #: Objective after the search minus before it.
+    gain: float = 0.0
 
 
 def fits(grid: SlotGrid, visits: list[Visit], new: Visit, ignore: Visit | None = None) -> bool:
@@ -150,13 +171,17 @@ def _relevant(state: PlanState, part: int) -> list[Visit]:
 
 
 def local_search(
-    state: PlanState, cells: ElementCells, seed: int, max_evaluations: int = 6000, max_passes: int = 30
+    state: PlanState, cells: ElementCells, seed: int, max_evaluations: int | None = None, max_passes: int = 30
 ) -> SearchStats:
-    """Improve ``state`` in place by first-improvement moves; see the module docstring."""
+    """Improve ``state`` in place by first-improvement moves; see the module docstring. ``max_evaluations``
+    None: :func:`search_budget` of the starting schedule."""
     grid = state.model.grid
     rng = np.random.default_rng(seed)
-    stats = SearchStats()
+    if max_evaluations is None:
+        max_evaluations = search_budget(len(state.visits))
+    stats = SearchStats(budget=int(max_evaluations))
     credit = element_credit(state)
+    start_total = state.current.total
 
     def try_moves(remove: list[Visit], options: list[Visit]) -> bool:
         for new in options:
@@ -174,13 +199,14 @@ def local_search(
     while stats.passes < max_passes and not stats.stopped_by_budget:
         stats.passes += 1
         improved = False
+        pass_start = state.current.total
         # Add where time is left.
         while try_moves([], _candidates(state, cells, rng, None, credit)):
             improved = True
         visits = list(state.visits)
         for i in rng.permutation(len(visits)):
             v = visits[i]
-            if v not in state.visits:
+            if not state.holds(v):
                 continue
             near = _relevant(state, v.site_night)
             options = [n for n in _neighbours(v) if fits(grid, near, n, ignore=v)]
@@ -190,6 +216,15 @@ def local_search(
                 continue
             if try_moves([v], _candidates(state, cells, rng, v, credit)):
                 improved = True
-        if not improved:
+        if stats.stopped_by_budget:
             break
+        if not improved:
+            stats.stopped_by = "local optimum"
+            break
+        if state.current.total - pass_start < MIN_PASS_GAIN:
+            stats.stopped_by = "small gain"
+            break
+    if not stats.stopped_by:
+        stats.stopped_by = "budget" if stats.stopped_by_budget else "passes"
+    stats.gain = float(state.current.total - start_total)
     return stats

@@ -30,9 +30,10 @@ class Optimised:
     seconds: dict[str, float] = field(default_factory=dict)
 
 
-def optimise(model: PlanModel, seed: int, max_evaluations: int = 6000) -> Optimised:
+def optimise(model: PlanModel, seed: int, max_evaluations: int | None = None) -> Optimised:
     """Greedy (lazy gains) on coverage plus the slots' quality and hours credit, then local search on the
-    full objective."""
+    full objective (``max_evaluations`` None: a budget that scales with the greedy's schedule,
+    planner.schedule.localsearch.search_budget)."""
     t0 = time.perf_counter()
     cells = model.element_cells()
     t1 = time.perf_counter()

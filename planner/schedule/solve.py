@@ -184,7 +184,7 @@ def schedule_core(
     *,
     exact: bool = False,
     exact_time_limit_s: float = 60.0,
-    max_evaluations: int = 6000,
+    max_evaluations: int | None = None,
     precision_fn: Callable[[SlotGrid], tuple[list[np.ndarray], list[np.ndarray]]] | None = None,
 ) -> PlanCore:
     """Optimise on a windows table: slots, greedy + local search, baseline, robustness, and the exact

@@ -439,6 +439,10 @@ class PlanState:
         self._apply_arrays(remove, add)
         self._refresh()
 
+    def holds(self, v: Visit) -> bool:
+        """Whether ``v`` is in the schedule."""
+        return v in self._index
+
     def part_visits(self, part: int) -> list[Visit]:
         """The schedule's visits in site-night ``part``."""
         return list(self._by_part.get(part, []))
