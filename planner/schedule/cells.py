@@ -17,8 +17,8 @@ import numpy as np
 
 from planner.schedule.objective import arc_bins, arc_mask, arc_mask_slow, coverage_gains_slow
 
-#: Elements counted per chunk (chunk × periods int64 temporaries: ~30 MB at 3000 periods).
-_CHUNK = 1024
+#: (elements × periods) pairs counted per chunk: each int64 temporary stays near 16 MB.
+_CHUNK_PAIRS = 2_000_000
 
 
 def run_prefix(covered: np.ndarray) -> np.ndarray:
@@ -58,11 +58,12 @@ def arc_gains_prefix(
     row = (np.arange(n_p, dtype=np.int64) * prefix.shape[1])[None, :]
     flat = prefix.ravel()
     out = np.empty(t0.size, dtype=np.int64)
-    for a in range(0, t0.size, _CHUNK):
-        first, n_cov = arc_bins(t0[a : a + _CHUNK], t1[a : a + _CHUNK], periods_h, n_bins)
+    chunk = max(1, _CHUNK_PAIRS // max(n_p, 1))
+    for a in range(0, t0.size, chunk):
+        first, n_cov = arc_bins(t0[a : a + chunk], t1[a : a + chunk], periods_h, n_bins)
         lo = first + row
         seen = np.take(flat, lo + n_cov) - np.take(flat, lo)
-        out[a : a + _CHUNK] = n_cov.sum(axis=1) - seen.sum(axis=1)
+        out[a : a + chunk] = n_cov.sum(axis=1) - seen.sum(axis=1)
     return out
 
 
