@@ -31,9 +31,11 @@ import numpy as np  # noqa: E402
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
+from benchutil import kernel_flops, matmul_gflops, qr_projection_power, spread  # noqa: E402
+
 from planner.diagnostics.coverage import period_grid_h  # noqa: E402
 from planner.diagnostics.harmonic_lsq import _BLOCK_BYTES, harmonic_chi2, harmonic_columns  # noqa: E402
-from planner.diagnostics.periodogram import _prepare, multiharmonic_power  # noqa: E402
+from planner.diagnostics.periodogram import multiharmonic_power  # noqa: E402
 
 
 def sample(n: int = 10_000, groups: int = 8, seed: int = 0):
@@ -62,50 +64,6 @@ def peer_chi2(t, y, w, x, freq, nterms=2):
     return out
 
 
-def kernel_flops(n: int, n_freq: int, nterms: int, left_cols: int) -> float:
-    """Floating-point operations the kernel does per call (small per-frequency systems left out):
-    the block product 2·N·2K·R, the trig recurrence and harmonics (one complex product, 6 flops,
-    per harmonic and point), the high trig sums (a complex product and a real-by-complex
-    matrix-vector step, 6 + 4 flops, per harmonic and point); R = fixed basis + trials + 1."""
-    per_point = 2 * 2 * nterms * left_cols + 6 * nterms + 10 * nterms
-    return float(n) * n_freq * per_point
-
-
-def matmul_gflops(size: int = 2000, reps: int = 3) -> float:
-    a = np.random.default_rng(1).normal(size=(size, size))
-    times = []
-    for _ in range(reps):
-        t0 = time.perf_counter()
-        a @ a
-        times.append(time.perf_counter() - t0)
-    return 2 * size**3 / np.median(times) / 1e9
-
-
-def qr_projection_power(times_jd, y, freq, *, nterms, sigma, trend_degree, trend_columns, block=2_000_000):
-    """The previous multiharmonic_power route: per frequency block, harmonic columns projected off
-    the trend (SVD basis) and QR-factorised; every trial projected by one matrix product."""
-    t, yy, _, s, basis = _prepare(times_jd, y, sigma, trend_degree, trend_columns)
-    n, m = yy.shape
-    u, sv, _ = np.linalg.svd(s[:, None] * basis, full_matrices=False)
-    q_b = u[:, sv > 1e-10 * sv[0]]
-    y_w = s[:, None] * yy
-    y_r = y_w - q_b @ (q_b.T @ y_w)
-    chi0 = np.einsum("nm,nm->m", y_r, y_r)
-    power = np.zeros((freq.size, m))
-    step = max(1, block // (n * 2 * nterms))
-    for start in range(0, freq.size, step):
-        fb = freq[start : start + step]
-        h = harmonic_columns(t, fb, nterms) * s[None, :, None]
-        h -= np.einsum("nq,fqj->fnj", q_b, np.einsum("nq,fnj->fqj", q_b, h))
-        q_h, r_h = np.linalg.qr(h)
-        diag = np.abs(np.diagonal(r_h, axis1=1, axis2=2))
-        colnorm = np.sqrt(np.einsum("fnj,fnj->fj", h, h)) + np.finfo(float).tiny
-        keep = diag > 1e-9 * np.maximum(colnorm, diag.max(axis=1, keepdims=True))
-        z = (np.swapaxes(q_h, 1, 2).reshape(-1, n) @ y_r).reshape(fb.size, 2 * nterms, m) * keep[:, :, None]
-        power[start : start + fb.size] = np.einsum("fjm,fjm->fm", z, z) / chi0
-    return power
-
-
 def check_sample(per_night: int, trials: int, seed: int = 0):
     """Four sites a quarter-day apart, 7 nights of 8 h, the rotation grid of `check` for 2–30 h."""
     rng = np.random.default_rng(seed)
@@ -120,11 +78,6 @@ def check_sample(per_night: int, trials: int, seed: int = 0):
     sigma = rng.uniform(0.01, 0.03, t.size)
     geo = np.log10(1.5 - 0.01 * (t - t[0]))
     return t, y, sigma, geo, freq
-
-
-def spread(values) -> str:
-    v = np.asarray(values)
-    return f"median {np.median(v):8.3f} s  (min {v.min():.3f}, max {v.max():.3f})"
 
 
 def main() -> None:

@@ -11,20 +11,30 @@ Both routes start from the same two-body target (planner.sky.kepler.propagate) a
   and alt/az are computed on this side.
 
 To compare like with like, astropy is given skyfield's UT1−UTC for these future dates (IERS tables
-do not reach 2034). Run: ``python benchmarks/bench_geometry.py``.
+do not reach 2034). BLAS threads are pinned (set before numpy loads; the ratio swung from 6× to 39×
+with OpenBLAS threading unpinned) and both routes run in interleaved repetitions after a warm-up;
+medians and spread are printed. Run: ``python benchmarks/bench_geometry.py [--reps 5]``.
 """
 
 from __future__ import annotations
 
-import sys
-import time
-import warnings
-from pathlib import Path
+import os
 
-import numpy as np
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS", "VECLIB_MAXIMUM_THREADS"):
+    os.environ.setdefault(_var, "1")
+
+import argparse  # noqa: E402
+import sys  # noqa: E402
+import time  # noqa: E402
+import warnings  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+import numpy as np  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+
+from benchutil import spread  # noqa: E402
 
 from planner.core.constants import C_AU_PER_DAY  # noqa: E402
 from planner.core.timegrid import parse_utc, time_grid  # noqa: E402
@@ -86,6 +96,12 @@ def astropy_route(target, times_utc, sites, dut1_s):
 
 
 def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--reps", type=int, default=5, help="interleaved repetitions of each route")
+    ap.add_argument("--quick", action="store_true", help="3 repetitions")
+    ap.add_argument("--full", action="store_true", help="9 repetitions")
+    args = ap.parse_args()
+    reps = 3 if args.quick else 9 if args.full else args.reps
     warnings.filterwarnings("ignore", message="The file finals2000A.all has expired")
     no_iers_download()
     target = load_target(ROOT / "demo_targets" / "c2034-b3-quillfeather.toml")
@@ -95,13 +111,15 @@ def main() -> None:
     geometry(target, times[:2], sites)  # warm imports
     dut1 = np.atleast_1d(utc_times(times).dut1)
 
-    t0 = time.perf_counter()
-    ours = geometry(target, times, sites)
-    t_ours = time.perf_counter() - t0
     astropy_route(target, times[:2], sites, dut1[:2])  # warm astropy imports
-    t0 = time.perf_counter()
-    theirs = astropy_route(target, times, sites, dut1)
-    t_astropy = time.perf_counter() - t0
+    t_ours, t_astropy = [], []
+    for _ in range(reps):
+        t0 = time.perf_counter()
+        ours = geometry(target, times, sites)
+        t_ours.append(time.perf_counter() - t0)
+        t0 = time.perf_counter()
+        theirs = astropy_route(target, times, sites, dut1)
+        t_astropy.append(time.perf_counter() - t0)
 
     worst = {"radec": 0.0, "alt": 0.0, "az": 0.0}
     for name, (ra, dec, alt, az) in theirs.items():
@@ -113,10 +131,13 @@ def main() -> None:
         worst["az"] = max(worst["az"], np.abs(d_az).max() * 3600)
 
     n = len(times)
-    print(f"geometry, {len(sites)} sites x {n} epochs (7 days at 5 min), demo comet")
-    print(f"  phasewise geometry() (all columns):      {t_ours:8.3f} s")
-    print(f"  astropy frames (RA/Dec + alt/az only):   {t_astropy:8.3f} s")
-    print(f"  ratio astropy / phasewise:               {t_astropy / t_ours:8.1f} x   (target >= 10)")
+    print(
+        f"geometry, {len(sites)} sites x {n} epochs (7 days at 5 min), demo comet; BLAS threads "
+        f"{os.environ['OPENBLAS_NUM_THREADS']}; {reps} interleaved repetitions"
+    )
+    print(f"  phasewise geometry() (all columns):      {spread(t_ours)}")
+    print(f"  astropy frames (RA/Dec + alt/az only):   {spread(t_astropy)}")
+    print(f"  ratio of medians astropy / phasewise:    {np.median(t_astropy) / np.median(t_ours):8.1f} x")
     print(
         f'  largest disagreement: RA/Dec {worst["radec"]:.3f}", alt {worst["alt"]:.3f}", '
         f'az*cos(alt) {worst["az"]:.3f}"   (target <= 0.5")'
