@@ -133,7 +133,8 @@ def run(label: str, sites: int, nights: int, reps: int, astropy_trials: int) -> 
         print(f"  {k:34s} {spread(v)}   x{np.median(v) / base:6.1f}")
     a, b, c = results.values()
     print(
-        f"  max |power difference|: gridded vs dense {np.max(np.abs(a - b)):.1e}, vs the QR peer {np.max(np.abs(a - c)):.1e}"
+        f"  max |power difference|: gridded vs dense {np.max(np.abs(a - b)):.1e}, "
+        f"vs the QR peer {np.max(np.abs(a - c)):.1e}"
     )
     n_ref = min(astropy_trials, TRIALS)
     ref_s, ref_best = astropy_best(t, y, sigma, freq, n_ref)
