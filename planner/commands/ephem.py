@@ -115,7 +115,9 @@ def _long_frame(frames: dict[str, pd.DataFrame]) -> pd.DataFrame:
 
 
 def render_csv(frames: dict[str, pd.DataFrame]) -> str:
-    return _long_frame(frames).to_csv(index=False, float_format="%.10g", lineterminator="\n")
+    from planner.outputs.tablefiles import csv_text
+
+    return csv_text(_long_frame(frames), "%.10g")
 
 
 def render_json(frames: dict[str, pd.DataFrame], caution: str | None) -> str:

@@ -20,7 +20,7 @@ from planner.core.version import __version__
 from planner.outputs import layout
 from planner.outputs.report import write_report
 from planner.outputs.sheets import site_sheet
-from planner.outputs.tablefiles import PLAN_CSV_FLOAT_FORMAT, records, table_for_files
+from planner.outputs.tablefiles import PLAN_CSV_FLOAT_FORMAT, csv_text, records, table_for_files
 from planner.pipeline import PlanResult
 from planner.sky.brightness import law_name, law_params
 
@@ -106,7 +106,7 @@ def _write_folder(result: PlanResult, folder: Path) -> None:
     )
     _write_json(folder / layout.DIAGNOSTICS_JSON, diagnostics_json(result))
     table_for_files(result.windows).to_csv(folder / layout.WINDOWS_CSV, index=False)
-    table_for_files(result.geometry).to_csv(folder / layout.GEOMETRY_CSV, index=False, float_format="%.6g")
+    (folder / layout.GEOMETRY_CSV).write_text(csv_text(table_for_files(result.geometry), "%.6g"))
     result.nights.to_csv(folder / layout.NIGHTS_CSV, index=False, float_format="%.4g")
     shutil.copyfile(result.campaign.path, folder / layout.CAMPAIGN_COPY)
     if result.campaign.target_path.suffix.lower() == ".toml":
