@@ -71,6 +71,7 @@ def test_demo_plan_folder_has_the_agreed_files(demo, demo_folder, tmp_path, monk
             "target.toml",
             "sheets",
             "report.html",
+            ".figures",
         ]
     )
     plan = pd.read_csv(out / "plan.csv")

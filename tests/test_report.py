@@ -536,3 +536,19 @@ def test_a_month_of_nights_is_one_panel():
     shaded = fig.axes[0].collections[0]  # darkness: a few grey bands per night, rows 0 … 29
     ys = np.concatenate([p.vertices[:, 1] for p in shaded.get_paths()])
     assert ys.min() == 0 and ys.max() == 30
+
+
+def test_figure_cache_reuses_only_what_is_unchanged(plan_dir, tmp_path):
+    from planner.outputs.figcache import FigureCache
+
+    d = _copy_folder(plan_dir, tmp_path / "cached")
+    assert (d / ".figures").is_dir() and any((d / ".figures").iterdir())
+    first = render_report(d)
+    shutil.rmtree(d / ".figures")
+    assert render_report(d) == first  # drawn afresh: the same page
+    cache = FigureCache(d)
+    a = pd.DataFrame({"site": ["A", "B"], "hours": ["1.0", "2.0"]})
+    b = a.assign(hours=["1.0", "2.5"])  # one cell changed
+    assert cache.key("fig-site", a) == cache.key("fig-site", a.copy())
+    assert cache.key("fig-site", a) != cache.key("fig-site", b)
+    assert cache.key("fig-site", a) != cache.key("fig-timeline", a)

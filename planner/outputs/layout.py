@@ -19,6 +19,8 @@ CAMPAIGN_COPY = "campaign.toml"
 TARGET_COPY = "target.toml"
 SHEETS_DIR = "sheets"
 REPORT_HTML = "report.html"
+#: The report's drawn figures, kept by content so a re-render reuses them (planner.outputs.figcache).
+FIGURE_CACHE_DIR = ".figures"
 
 #: Every file of a plan folder, in the order docs/formats.md lists them.
 PLAN_FILES = (
@@ -33,6 +35,7 @@ PLAN_FILES = (
     TARGET_COPY,
     SHEETS_DIR + "/",
     REPORT_HTML,
+    FIGURE_CACHE_DIR + "/",
 )
 #: Version of the manifest's and diagnostics.json's layout; raised when a key changes meaning.
 SCHEMA_VERSION = 2

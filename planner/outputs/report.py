@@ -17,6 +17,7 @@ import pandas as pd
 from planner.core.fileio import write_text_atomic
 from planner.core.safety import CAUTION_TEXT, SUN_SAFETY_TEXT, sun_caution_limit_deg
 from planner.outputs import layout
+from planner.outputs.figcache import FigureCache
 from planner.outputs.figstyle import baseline_series, check_times_utc, log_series, plan_series
 from planner.outputs.htmlparts import json_num, num, page, table
 from planner.outputs.reader import PlanFolder, load_plan_folder
@@ -98,6 +99,7 @@ def cautions_section(pf: PlanFolder) -> str:
 def render_report(plan_dir: str | Path) -> str:
     """The campaign report of a plan folder, as one self-contained HTML page."""
     pf = load_plan_folder(plan_dir)
+    cache = FigureCache(plan_dir)
     diag = pf.diagnostics
     series = [plan_series(check=diag["plan"])]
     keys = ["plan"]
@@ -108,10 +110,10 @@ def render_report(plan_dir: str | Path) -> str:
     body = "\n".join(
         [
             summary_section(pf),
-            geometry_section(pf),
-            nights_section(pf),
-            timeline_section(pf),
-            diagnostics_sections(series, keys, rot.get("min_period_h"), rot.get("max_period_h")),
+            geometry_section(pf, cache),
+            nights_section(pf, cache),
+            timeline_section(pf, cache),
+            diagnostics_sections(series, keys, rot.get("min_period_h"), rot.get("max_period_h"), cache),
             blocks_section(pf),
             cautions_section(pf),
         ]

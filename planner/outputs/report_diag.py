@@ -7,6 +7,7 @@ import html
 from collections.abc import Sequence
 
 from planner.outputs import figures_diag
+from planner.outputs.figcache import FigureCache, drawn
 from planner.outputs.figstyle import Series
 from planner.outputs.htmlparts import figure_html, json_num, table
 
@@ -19,17 +20,24 @@ DIAG_TOC = [
 ]
 
 
+def _figure(cache: FigureCache | None, inputs: tuple, build, fig_id: str, caption: str, alt: str) -> str:
+    return drawn(cache, fig_id, (*inputs, caption, alt), lambda: figure_html(build(), fig_id, caption, alt))
+
+
 def diagnostics_sections(
     series: Sequence[Series],
     keys: Sequence[str],
     min_period_h: float | None = None,
     max_period_h: float | None = None,
+    cache: FigureCache | None = None,
 ) -> str:
     """The coverage, spectral-window, recovery and sensitivity sections for one or more schedules.
 
     ``keys`` name each schedule's check result inside diagnostics.json (``plan``, ``baseline``; for a
-    stand-alone check, ``""``), used in the data-src of every number.
+    stand-alone check, ``""``), used in the data-src of every number. ``cache`` keeps the drawn figures
+    (planner.outputs.figcache).
     """
+    inputs = tuple((s.label, s.check, s.times_utc) for s in series)
 
     def src(key: str, path: str) -> str:
         return f"{key}.{path}" if key else path
@@ -39,11 +47,12 @@ def diagnostics_sections(
 
     out = []
     if any(s.check.get("periods_h") for s in series):
-        fig = figures_diag.coverage_figure(series)
         out.append(
             '<section id="coverage"><h2>Rotational-phase coverage</h2>'
-            + figure_html(
-                fig,
+            + _figure(
+                cache,
+                inputs,
+                lambda: figures_diag.coverage_figure(series),
                 "fig-coverage",
                 "Left: the observation times folded on every trial period, in the check's phase bins (dark = "
                 "that phase is observed; phase zero at the first time). Right: fraction of phase covered per "
@@ -52,7 +61,6 @@ def diagnostics_sections(
             )
             + "</section>"
         )
-    fig = figures_diag.spectral_window_figure(series)
     peak_rows = []
     for key, s in zip(keys, series, strict=True):
         for i, _p in enumerate(s.check.get("window_peaks", [])):
@@ -65,8 +73,10 @@ def diagnostics_sections(
             )
     out.append(
         '<section id="window"><h2>Spectral window and aliases</h2>'
-        + figure_html(
-            fig,
+        + _figure(
+            cache,
+            inputs,
+            lambda: figures_diag.spectral_window_figure(series),
             "fig-window",
             "Spectral window |W(f)| of the exposure times (Deeming 1975). A tall peak at f_w means a period "
             "P is confused with 1/(1/P ± f_w): one site alone gives 1 cycle/day; sites at other longitudes "
@@ -76,7 +86,6 @@ def diagnostics_sections(
         + table(["schedule", "frequency (c/d)", "height"], peak_rows, "peaks")
         + "</section>"
     )
-    fig = figures_diag.recovery_figure(series, min_period_h, max_period_h)
     band_rows = []
     for key, s in zip(keys, series, strict=True):
         for i, b in enumerate(s.check.get("bands", [])):
@@ -95,8 +104,10 @@ def diagnostics_sections(
             )
     out.append(
         '<section id="recovery"><h2>Recovery of injected periods</h2>'
-        + figure_html(
-            fig,
+        + _figure(
+            cache,
+            (*inputs, min_period_h, max_period_h),
+            lambda: figures_diag.recovery_figure(series, min_period_h, max_period_h),
             "fig-recovery",
             "Fraction of synthetic light curves whose period is recovered, against period; strips below: the "
             "verdict per period band (blank: secure; hatched grey: alias-prone; dark crossed: "
@@ -106,7 +117,6 @@ def diagnostics_sections(
         + table(["schedule", "periods (h)", "verdict", "confusable with (h)"], band_rows, "bands")
         + "</section>"
     )
-    fig = figures_diag.sensitivity_figure(series)
     trow = []
     for name, path, d in (
         ("rate uncertainty, 1σ (mag/day)", "trend.rate_sigma_mag_per_day", 4),
@@ -116,8 +126,10 @@ def diagnostics_sections(
         trow.append([name] + [jnum(k, s.check, path, d) for k, s in zip(keys, series, strict=True)])
     out.append(
         '<section id="sensitivity"><h2>Trend and period-change sensitivity</h2>'
-        + figure_html(
-            fig,
+        + _figure(
+            cache,
+            inputs,
+            lambda: figures_diag.sensitivity_figure(series),
             "fig-sensitivity",
             "Left: the smallest change of period between the first and second half of the span detectable at "
             "3σ. Right: the smallest extra fading detectable at 3σ (with rotation fitted at the same time) "

@@ -10,6 +10,7 @@ import pandas as pd
 
 from planner.core.parallel import map_local
 from planner.outputs import figures_sky
+from planner.outputs.figcache import FigureCache, drawn
 from planner.outputs.htmlparts import figure_html, table
 from planner.outputs.reader import PlanFolder, cell_float, utc_offset_h, utc_times
 
@@ -83,7 +84,20 @@ def _site_chart(job: tuple | None) -> str:
     )
 
 
-def nights_section(pf: PlanFolder) -> str:
+def _charts(pf: PlanFolder, windows: pd.DataFrame, cache: FigureCache | None) -> dict[int, str]:
+    """Every site's chart: from the cache where drawn before, the rest drawn over local processes."""
+    jobs = _chart_jobs(pf, windows)
+    keys = [None if j is None or cache is None else cache.key("fig-site", j) for j in jobs]
+    out = {i: (cache.get(k) if k is not None else None) for i, k in enumerate(keys)}
+    todo = [i for i, j in enumerate(jobs) if j is not None and out[i] is None]
+    for i, text in zip(todo, map_local(_site_chart, [jobs[i] for i in todo]), strict=True):
+        out[i] = text
+        if keys[i] is not None:
+            cache.put(keys[i], text)
+    return {i: t for i, t in out.items() if t}
+
+
+def nights_section(pf: PlanFolder, cache: FigureCache | None = None) -> str:
     out = [
         '<section id="nights"><h2>Nights at every site</h2>',
         "<p>The network at a glance: one row per site, one column per night; the shade gives the hours "
@@ -92,14 +106,18 @@ def nights_section(pf: PlanFolder) -> str:
     ]
     window, planned, reasons = _night_hours(pf)
     if pf.sites and pf.nights:
-        fig = figures_sky.network_nights_figure(pf.sites, pf.nights, planned, window)
         out.append(
-            figure_html(
-                fig,
+            drawn(
+                cache,
                 "fig-network",
-                "Hours planned per site and night (darker: more); crossed: no observable window; open dot: a "
-                "window with nothing planned.",
-                "Sites against nights: hours planned",
+                (pf.sites, pf.nights, planned, window),
+                lambda: figure_html(
+                    figures_sky.network_nights_figure(pf.sites, pf.nights, planned, window),
+                    "fig-network",
+                    "Hours planned per site and night (darker: more); crossed: no observable window; open dot: "
+                    "a window with nothing planned.",
+                    "Sites against nights: hours planned",
+                ),
             )
         )
     g = pf.geometry
@@ -113,9 +131,7 @@ def nights_section(pf: PlanFolder) -> str:
         )
         out.append(f'<p>Key to the night charts below:</p><ul class="key">{key}</ul>')
     windows = pf.windows if pf.windows is not None else pd.DataFrame(columns=[*_BLOCK_COLUMNS, "reason"])
-    charts = (
-        dict(zip(range(len(pf.sites)), map_local(_site_chart, _chart_jobs(pf, windows)), strict=True)) if charts else {}
-    )
+    charts = _charts(pf, windows, cache) if charts else {}
     for i, site in enumerate(pf.sites):
         n_blocks = int((pf.plan["site"] == site).sum()) if len(pf.plan) else 0
         dark = int((window[i] <= 0).sum())

@@ -11,6 +11,7 @@ import pandas as pd
 
 from planner.core.safety import sun_caution_limit_deg
 from planner.outputs import figures_sky
+from planner.outputs.figcache import FigureCache, drawn
 from planner.outputs.htmlparts import figure_html, fmt, json_num, num, table
 from planner.outputs.reader import PlanFolder, cell_float, utc_times
 
@@ -206,7 +207,7 @@ def _optimiser_tables(diag: dict) -> list[str]:
     return out
 
 
-def geometry_section(pf: PlanFolder) -> str:
+def geometry_section(pf: PlanFolder, cache: FigureCache | None = None) -> str:
     out = ['<section id="geometry"><h2>Geometry over the span</h2>']
     g = pf.geometry
     need = ["helio_dist_au", "obs_dist_au", "phase_angle_deg", "solar_elong_deg", "mag_pred"]
@@ -219,16 +220,20 @@ def geometry_section(pf: PlanFolder) -> str:
     for c in need:
         gs[c] = pd.to_numeric(gs[c], errors="coerce")
     caution_deg = float(sun_caution_limit_deg(pf.min_solar_elong_deg()))
-    fig = figures_sky.geometry_figure(gs, seen, caution_deg)
     out.append(
-        figure_html(
-            fig,
+        drawn(
+            cache,
             "fig-geometry",
-            f"Sun–target distance r and observer–target distance Δ (au), phase angle, solar elongation and "
-            f"predicted magnitude, as seen from {html.escape(seen)} (UTC). Hatched: solar elongation below "
-            f"{caution_deg:g}° (the sites' Sun limit plus the caution margin), where Sun safety needs "
-            "particular care.",
-            "Geometry of the target over the campaign",
+            (gs[["time_utc", *need]], seen, caution_deg),
+            lambda: figure_html(
+                figures_sky.geometry_figure(gs, seen, caution_deg),
+                "fig-geometry",
+                f"Sun–target distance r and observer–target distance Δ (au), phase angle, solar elongation and "
+                f"predicted magnitude, as seen from {html.escape(seen)} (UTC). Hatched: solar elongation below "
+                f"{caution_deg:g}° (the sites' Sun limit plus the caution margin), where Sun safety needs "
+                "particular care.",
+                "Geometry of the target over the campaign",
+            ),
         )
     )
     rows = []
@@ -248,18 +253,26 @@ def geometry_section(pf: PlanFolder) -> str:
     return "\n".join(out)
 
 
-def timeline_section(pf: PlanFolder) -> str:
+def timeline_section(pf: PlanFolder, cache: FigureCache | None = None) -> str:
     windows = pf.windows if pf.windows is not None else pd.DataFrame(columns=list(_BLOCK_COLUMNS))
-    fig = figures_sky.network_timeline_figure(pf.sites, windows, pf.plan, pf.baseline)
+    cols = list(_BLOCK_COLUMNS)
+    parts = (
+        pf.sites,
+        *[d[cols] if d is not None and set(cols) <= set(d) else d for d in (windows, pf.plan, pf.baseline)],
+    )
     return (
         '<section id="timeline"><h2>Network timeline</h2>'
-        + figure_html(
-            fig,
+        + drawn(
+            cache,
             "fig-timeline",
-            "Every site on one UTC axis. Hatched outline: observable window; upper half: the optimised "
-            "plan's "
-            "blocks; lower dashed half: the baseline's blocks.",
-            "Timeline of all sites' blocks",
+            parts,
+            lambda: figure_html(
+                figures_sky.network_timeline_figure(pf.sites, windows, pf.plan, pf.baseline),
+                "fig-timeline",
+                "Every site on one UTC axis. Hatched outline: observable window; upper half: the optimised "
+                "plan's blocks; lower dashed half: the baseline's blocks.",
+                "Timeline of all sites' blocks",
+            ),
         )
         + "</section>"
     )

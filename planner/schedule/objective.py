@@ -148,6 +148,38 @@ def window_sum_slow(t0_h: np.ndarray, n_slots: np.ndarray, slot_h: float, freq_p
     return out
 
 
+def slot_powers(n: int, slot_h: float, freq_per_day: np.ndarray) -> np.ndarray:
+    """z^k for k < n with z = e^{2πiν·slot}: complex (n, F), each power computed directly."""
+    k = np.arange(n, dtype=float)[:, None]
+    return np.exp(2j * np.pi * k * (slot_h / 24.0) * np.asarray(freq_per_day, dtype=float)[None, :])
+
+
+def run_window_sums(
+    slot_weight: np.ndarray,
+    slot_centre_h: np.ndarray,
+    i0: np.ndarray,
+    i1: np.ndarray,
+    powers: np.ndarray,
+    freq_per_day: np.ndarray,
+) -> np.ndarray:
+    """Σ w_s e^{2πiν t_s} over runs of evenly spaced slots ``[i0, i1)`` of a flat slot layout: complex (N, F).
+
+    The slots of a run are one slot apart, so the sum is e^{2πiν t₀} times a polynomial in
+    z = e^{2πiν·slot} with the slots' weights as coefficients: one (runs × slots) @ (slots × frequencies)
+    product against ``powers`` (:func:`slot_powers`, at least as many rows as the longest run), whatever
+    the number of slots in the layout.
+    """
+    n = np.maximum(i1 - i0, 0)
+    longest = int(n.max()) if n.size else 0
+    k = np.arange(longest)
+    inside = k[None, :] < n[:, None]
+    idx = np.where(inside, i0[:, None] + k[None, :], 0)
+    w = np.where(inside, slot_weight[idx] if idx.size else 0.0, 0.0)
+    t0 = slot_centre_h[np.minimum(i0, max(slot_centre_h.size - 1, 0))] if i0.size else np.zeros(0)
+    lead = np.exp(2j * np.pi * np.outer(t0 / 24.0, freq_per_day))
+    return lead * (w @ powers[:longest])
+
+
 def point_window_sum(times_h: np.ndarray, freq_per_day: np.ndarray) -> np.ndarray:
     """Σ exp(2πiν t) over instants (already-observed times): complex (F,)."""
     t = np.asarray(times_h, dtype=float).ravel() / 24.0

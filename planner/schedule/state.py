@@ -21,6 +21,8 @@ from planner.schedule.objective import (
     excess_gap_h,
     point_mask,
     point_window_sum,
+    run_window_sums,
+    slot_powers,
 )
 from planner.schedule.slots import SlotGrid
 
@@ -107,8 +109,7 @@ class PlanModel:
         )
         #: Centre of every flat slot, hours from t_ref.
         self.slot_centre_h = (slots + 0.5) * grid.slot_h
-        # Slots are evenly spaced, so a visit's window sum is e^{2πiνt₀} Σ_k w_k z^k with z = e^{2πiν·slot}: one
-        # table of z^k (longest visit × frequencies) serves every visit, whatever the number of nights.
+        # z^k, z = e^{2πiν·slot}, for k up to the longest visit so far (objective.run_window_sums).
         self._zpow = np.zeros((0, self.freq_per_day.size), dtype=complex)
         self._weight_cum = np.concatenate([[0.0], np.cumsum(self.slot_weight)])
         clear = np.array([p.clear_fraction for p in grid.site_nights], dtype=float)
@@ -144,26 +145,16 @@ class PlanModel:
     def visit_phasors(
         self, parts: np.ndarray, starts: np.ndarray, lengths: np.ndarray
     ) -> tuple[np.ndarray, np.ndarray]:
-        """Weighted window sums Σ w e^{2πiνt} over each visit's science slots (N, F), and Σ w (N,).
-
-        The slots of a visit are evenly spaced, so the sum is e^{2πiνt₀} times a polynomial in
-        z = e^{2πiν·slot} with the slots' weights as coefficients: one (visits × slots) @ (slots ×
-        frequencies) product."""
+        """Weighted window sums Σ w e^{2πiνt} over each visit's science slots (N, F), and Σ w (N,)
+        (:func:`planner.schedule.objective.run_window_sums`)."""
         i0, i1 = self.science_flat(parts, starts, lengths)
         scalar = np.ndim(i0) == 0
         i0, i1 = np.atleast_1d(i0), np.atleast_1d(i1)
-        n = np.maximum(i1 - i0, 0)
-        longest = int(n.max()) if n.size else 0
+        longest = int(np.max(i1 - i0, initial=0))
         if self._zpow.shape[0] < longest:
-            k = np.arange(longest, dtype=float)[:, None]
-            self._zpow = np.exp(2j * np.pi * k * (self.grid.slot_h / 24.0) * self.freq_per_day[None, :])
-        k = np.arange(longest)
-        inside = k[None, :] < n[:, None]
-        idx = np.where(inside, i0[:, None] + k[None, :], 0)
-        w = np.where(inside, self.slot_weight[idx] if idx.size else 0.0, 0.0)
-        t0 = self.slot_centre_h[np.minimum(i0, max(self.slot_centre_h.size - 1, 0))] if i0.size else np.zeros(0)
-        lead = np.exp(2j * np.pi * np.outer(t0 / 24.0, self.freq_per_day))
-        phasor, weight = lead * (w @ self._zpow[:longest]), self._weight_cum[i1] - self._weight_cum[i0]
+            self._zpow = slot_powers(longest, self.grid.slot_h, self.freq_per_day)
+        phasor = run_window_sums(self.slot_weight, self.slot_centre_h, i0, i1, self._zpow, self.freq_per_day)
+        weight = self._weight_cum[i1] - self._weight_cum[i0]
         return (phasor[0], weight[0]) if scalar else (phasor, weight)
 
     def visit_phasors_slow(self, part: int, start: int, length: int) -> tuple[np.ndarray, float]:
