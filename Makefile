@@ -18,8 +18,10 @@ demo: $(STAMP)
 test: $(STAMP)
 	$(PY) -m pytest -q
 
+# Every benchmark, each beside its peer (medians of interleaved repetitions, BLAS threads pinned);
+# BENCH_ARGS=--quick for a fast look, --full for more repetitions and the 16-site nights sweep.
 bench: $(STAMP)
-	for b in benchmarks/bench_*.py; do echo "== $$b"; $(PY) $$b || exit 1; done
+	for b in benchmarks/bench_*.py; do echo "== $$b"; $(PY) $$b $(BENCH_ARGS) || exit 1; done
 
 lint: $(STAMP)
 	$(PY) -m ruff format --check planner tests benchmarks scripts conftest.py

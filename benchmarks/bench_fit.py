@@ -84,7 +84,10 @@ def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--reps", type=int, default=3)
     ap.add_argument("--peer-freqs", type=int, default=400, help="frequencies timed with the lstsq loop")
+    ap.add_argument("--quick", action="store_true", help="one repetition")
+    ap.add_argument("--full", action="store_true", help="five repetitions")
     args = ap.parse_args()
+    args.reps = 1 if args.quick else 5 if args.full else args.reps
 
     t, y, w, x = sample()
     freq = np.linspace(0.8, 24.0, 20_000)
