@@ -48,7 +48,7 @@ _BLOCK_BYTES = 1_000_000
 _OUTER_FREQS = 1024
 #: (points × frequencies) from which a uniform grid's sums come from planner.diagnostics.trigsums,
 #: and the frequencies per block there.
-_SUMS_FROM = 2_000_000
+_SUMS_FROM = 500_000
 _SUMS_OUTER = 4096
 #: A Schur pivot below this fraction of its column's weighted norm² is recomputed by QR.
 _STABLE_PIVOT = 1e-4

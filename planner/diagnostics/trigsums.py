@@ -24,7 +24,7 @@ from scipy import sparse
 _SPREAD = 14
 _OVERSAMPLE = 2.0
 #: Below this many (points × frequencies) the direct sum is as fast: no grid is built.
-_DIRECT_BELOW = 400_000
+_DIRECT_BELOW = 50_000
 #: Bytes of (frequencies × points) phases held at once by the direct sum.
 _CHUNK_BYTES = 16_000_000
 
