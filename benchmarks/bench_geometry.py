@@ -23,7 +23,6 @@ import os
 for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS", "VECLIB_MAXIMUM_THREADS"):
     os.environ.setdefault(_var, "1")
 
-import argparse  # noqa: E402
 import sys  # noqa: E402
 import time  # noqa: E402
 import warnings  # noqa: E402
@@ -34,7 +33,7 @@ import numpy as np  # noqa: E402
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from benchutil import spread  # noqa: E402
+from benchutil import repetitions, spread  # noqa: E402
 
 from planner.core.constants import C_AU_PER_DAY  # noqa: E402
 from planner.core.timegrid import parse_utc, time_grid  # noqa: E402
@@ -96,12 +95,7 @@ def astropy_route(target, times_utc, sites, dut1_s):
 
 
 def main() -> None:
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--reps", type=int, default=5, help="interleaved repetitions of each route")
-    ap.add_argument("--quick", action="store_true", help="3 repetitions")
-    ap.add_argument("--full", action="store_true", help="9 repetitions")
-    args = ap.parse_args()
-    reps = 3 if args.quick else 9 if args.full else args.reps
+    reps = repetitions(__doc__.splitlines()[0])
     warnings.filterwarnings("ignore", message="The file finals2000A.all has expired")
     no_iers_download()
     target = load_target(ROOT / "demo_targets" / "c2034-b3-quillfeather.toml")

@@ -7,12 +7,23 @@ both sides; it prints the median of each side with the smallest and largest time
 
 from __future__ import annotations
 
+import argparse
 import time
 
 import numpy as np
 
 from planner.diagnostics.harmonic_lsq import harmonic_columns
 from planner.diagnostics.periodogram import _prepare
+
+
+def repetitions(description: str, default: int = 5) -> int:
+    """Interleaved repetitions from the command line: ``--reps N``, or ``--quick`` (3) / ``--full`` (9)."""
+    ap = argparse.ArgumentParser(description=description)
+    ap.add_argument("--reps", type=int, default=default, help="interleaved repetitions of each route")
+    ap.add_argument("--quick", action="store_true", help="3 repetitions")
+    ap.add_argument("--full", action="store_true", help="9 repetitions")
+    args = ap.parse_args()
+    return 3 if args.quick else 9 if args.full else args.reps
 
 
 def spread(values, unit: str = "s") -> str:
