@@ -92,9 +92,8 @@ def close_approach_report(orbit: Orbit, t_start_tdb: float, t_stop_tdb: float, n
     two_helio, _ = propagate(orbit, t)
     pos, _ = body_states_au(("sun", "earth"), t)
     geo_twobody = two_helio + pos[:, 0] - pos[:, 1]
-    cosang = np.einsum("ij,ij->i", geo_perturbed, geo_twobody) / (
-        np.linalg.norm(geo_perturbed, axis=1) * np.linalg.norm(geo_twobody, axis=1))
-    sep = np.degrees(np.arccos(np.clip(cosang, -1.0, 1.0))) * 3600.0
+    sep = np.degrees(np.arctan2(np.linalg.norm(np.cross(geo_perturbed, geo_twobody), axis=1),
+                                np.einsum("ij,ij->i", geo_perturbed, geo_twobody))) * 3600.0
     k = int(np.argmax(sep))
     err_arcsec, err_t = float(sep[k]), float(t[k])
     days_out = float(max(abs(t_start_tdb - orbit.epoch_tdb_jd), abs(t_stop_tdb - orbit.epoch_tdb_jd)))

@@ -202,14 +202,20 @@ def _new_simulation(orbit: Orbit, perturbers: tuple[str, ...], nongrav: NonGrav 
 
 
 def _reanchor(sim, names: tuple[str, ...], t0_tdb: float) -> None:
-    """Reset the massive bodies to their DE421 states at the simulation's time (the target is untouched)."""
+    """Put the perturbers back on DE421 relative to the simulation's Sun (the Sun and the target untouched).
+
+    Heliocentric resetting keeps every relative vector exactly DE421's while the integrated Sun goes on
+    its own way (13 m from DE421's after 90 days), so no body jumps relative to the target's centre.
+    """
     n = sim.N
     xyz = np.empty(3 * n)
     vxyz = np.empty(3 * n)
     sim.serialize_particle_data(xyz=xyz, vxvyvz=vxyz)
     bpos, bvel = body_states_au(names, np.array([t0_tdb + sim.t]))
-    xyz.reshape(n, 3)[:len(names)] = bpos[0]
-    vxyz.reshape(n, 3)[:len(names)] = bvel[0]
+    x = xyz.reshape(n, 3)
+    v = vxyz.reshape(n, 3)
+    x[1:len(names)] = x[0] + bpos[0, 1:] - bpos[0, 0]
+    v[1:len(names)] = v[0] + bvel[0, 1:] - bvel[0, 0]
     sim.set_serialized_particle_data(xyz=xyz, vxvyvz=vxyz)
 
 
@@ -234,7 +240,8 @@ def _record_leg(sim, names: tuple[str, ...], t0_tdb: float,
             sim.steps(1)
             if abs(sim.t - next_anchor) < 1e-11:
                 sim.t = next_anchor
-                _reanchor(sim, names, t0_tdb)
+                if len(names) > 1:
+                    _reanchor(sim, names, t0_tdb)
                 next_anchor += direction * ANCHOR_D
                 sim.dt = wanted
         else:
@@ -354,7 +361,8 @@ def propagate_perturbed_exact(orbit: Orbit, tdb_jd: np.ndarray, nongrav: NonGrav
             while direction * (t[i] - t0 - next_anchor) > 0.0:
                 sim.integrate(next_anchor, exact_finish_time=1)
                 sim.t = next_anchor
-                _reanchor(sim, names, t0)
+                if len(names) > 1:
+                    _reanchor(sim, names, t0)
                 next_anchor += direction * ANCHOR_D
             sim.integrate(t[i] - t0, exact_finish_time=1)
             ps = sim.particles
