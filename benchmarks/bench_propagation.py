@@ -58,7 +58,7 @@ def geocentric(prop, orbit, tdb):
 
 
 def dense_route(orbit, tdb):
-    nbody._PATHS.clear()
+    nbody.clear_path_cache()
     return geocentric(nbody.propagate_perturbed, orbit, tdb)
 
 

@@ -317,6 +317,11 @@ _PATHS_MAX = 16
 SPAN_MARGIN_D = 1.0
 
 
+def clear_path_cache() -> None:
+    """Forget every cached path (benchmarks; a caller that changed DE421 or the force model)."""
+    _PATHS.clear()
+
+
 def perturbed_path(orbit: Orbit, t_start_tdb: float, t_stop_tdb: float, nongrav: NonGrav | None = None,
                    perturbers: tuple[str, ...] = PERTURBERS) -> PerturbedPath:
     """A cached :class:`PerturbedPath` covering the span: reused while a recent one covers it.
