@@ -28,8 +28,9 @@ states at the osculation epoch and put back on DE421 (relative to the integrated
   the lunar figure) quadratically in time — 6.7 km (Earth), 10 km (Moon), 140 km (Mercury) after 90
   days; after the 5 days between resets it is 0.02 km, 0.1 km and 0.5 km. An Earth 0.02 km off moves an
   asteroid passing 30 000 km away by ~1e-6 of its deflection. The independent check (tests/test_nbody.py,
-  planets forced along DE421 in scipy's DOP853) agrees to 0.005 km / 0.003″ over 60 days of a
-  main-belt orbit and to < 0.01″ on the way in to the 2011 MD passage.
+  planets forced along DE421 in scipy's DOP853) agrees to 0.005 km over 60 days of a main-belt orbit,
+  0.0013 km (0.0004″) on the way in to the 2011 MD passage and 0.0014 km over 45 days around a
+  0.05-au Jupiter encounter.
 
 Heliocentric output is the target minus the integrated Sun (the Sun whose pull it felt); the integrated
 Sun stays within 15 m of DE421's over 90 days.
