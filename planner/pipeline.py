@@ -32,8 +32,9 @@ from planner.schedule.blocktable import binned_points, block_table
 from planner.schedule.quality import point_sigma_mag, slot_precision
 from planner.schedule.robustness import Robustness
 from planner.schedule.slots import SlotGrid
-from planner.schedule.solve import ObjectiveSummary, schedule_core
+from planner.schedule.solve import ObjectiveSummary, schedule_core, t_ref_for
 from planner.sky.geometry import geometry
+from planner.sky.propagation import approach_warnings_utc
 from planner.visibility.windows import observable_windows
 
 #: Geometry sample step for the report's night charts (geometry.csv).
@@ -90,6 +91,8 @@ class PlanResult:
     timings_s: dict[str, float] = field(default_factory=dict)
     #: Every site and campaign night: blocks planned, or why none (planner.schedule.nightnotes.NOTE_COLUMNS).
     nights: pd.DataFrame = field(default_factory=pd.DataFrame)
+    #: Notes on the target's motion over the campaign: close approaches, distance from the elements' epoch.
+    notes: list[str] = field(default_factory=list)
 
     @property
     def target_name(self) -> str:
@@ -213,6 +216,8 @@ def plan_campaign(
     """
     timings: dict[str, float] = {}
     t = time.perf_counter()
+    t_ref = t_ref_for(campaign)
+    notes = approach_warnings_utc(target, t_ref, t_ref + np.timedelta64(campaign.nights + 2, "D"))
     windows = observable_windows(
         target, list(campaign.sites), campaign.first_night, campaign.nights, step_s=campaign.block_rules.slot_s
     )
@@ -268,4 +273,5 @@ def plan_campaign(
         replan=replan,
         timings_s=timings,
         nights=core.nights,
+        notes=notes,
     )

@@ -96,9 +96,11 @@ def _astropy_route(target: Target, times_utc: np.ndarray, site: Site | None):
 
 
 def _target(e: float, q: float, tp: float, name="check") -> Target:
+    # Two-body motion: these checks compare the geometry pipeline (frames, light time, aberration) with
+    # an independent two-body route; the perturbed propagator has its own checks (tests/test_nbody*.py).
     orbit = Orbit(tp, q, e, 33.0, 150.0, 75.0, tp)
     law = Brightness(M1=10.0, K1=10.0, M2=15.0, K2=5.0, phase_coeff_mag_per_deg=0.035)
-    return Target(name, "comet", orbit, law)
+    return Target(name, "comet", orbit, law, propagation="two-body")
 
 
 SITE = Site(name="Test ridge", latitude_deg=-30.2, longitude_deg=-70.7, height_m=2200.0)
@@ -126,7 +128,7 @@ def test_meeus_comet_encke_example():
     # geometric light-time corrected, no aberration); confirmed by the independent astropy route above.
     a, e = 2.2091404, 0.8502196
     orbit = Orbit(2448170.5, a * (1 - e), e, 11.94524, 334.75006, 186.23352, 2448193.04502)
-    target = Target("2P/Encke", "comet", orbit)
+    target = Target("2P/Encke", "comet", orbit, propagation="two-body")  # Meeus computes two-body motion
     # 1990 Oct 6.0 TT = 1990 Oct 5 23:58:63.816 UTC (TT − UTC = 56.184 s in 1990).
     t = np.array(["1990-10-05T23:59:03.816"], dtype="datetime64[ns]")
     frame = geometry(target, t)["geocentre"]

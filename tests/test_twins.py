@@ -51,6 +51,22 @@ def _kepler(rng):
     return kepler.propagate(orbit, t)[0], kepler.propagate_reference(orbit, t)[0]
 
 
+def _perturbed(rng):
+    from planner.sky import nbody
+
+    orbit = Orbit(
+        epoch_tdb_jd=T0_JD,
+        perihelion_dist_au=2.1,
+        eccentricity=0.15,
+        inclination_deg=8.0,
+        ascending_node_deg=80.0,
+        arg_perihelion_deg=140.0,
+        perihelion_tdb_jd=T0_JD - 300.0,
+    )
+    t = T0_JD + np.sort(rng.uniform(1.0, 20.0, 4))
+    return nbody.propagate_perturbed(orbit, t)[0], nbody.propagate_perturbed_exact(orbit, t)[0]
+
+
 def _true_runs(rng):
     mask = rng.random(400) < 0.6
     segment = np.cumsum(rng.random(400) < 0.05)
@@ -197,6 +213,7 @@ def _greedy(rng):
 
 TWINS = [
     Twin("kepler.propagate", _kepler, rtol=1e-10, atol=1e-10),
+    Twin("nbody.propagate_perturbed", _perturbed, rtol=0.0, atol=1e-10),
     Twin("intervals.true_runs", _true_runs),
     Twin("intervals.refine_edges", _refine_edges, atol=1.0),
     Twin("ccd.exposure_for_snr_s", _exposure, rtol=1e-9),

@@ -22,6 +22,7 @@ from planner.inputs.targets import load_target
 from planner.photometry.tables import add_photometry
 from planner.sky.brightness import format_law
 from planner.sky.geometry import MIN_SOLAR_ELONG_DEG, geometry, safety_warning
+from planner.sky.propagation import approach_warnings_utc
 from planner.sky.skydata import utc_times
 
 FORMATS = ("table", "csv", "json")
@@ -182,6 +183,8 @@ def register(app: typer.Typer) -> None:
             rules=ExposureRules(snr_target=snr, min_exposure_s=min_exposure_s),
         )
         caution = safety_warning(frames)
+        for note in approach_warnings_utc(tgt, t0, t1):
+            print(f"note: {note}", file=sys.stderr)
         if fmt == "table":
             text = render_table(frames, caution)
         elif fmt == "csv":

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import sys
 from pathlib import Path
 from typing import Annotated
 
@@ -151,6 +152,7 @@ def register(app: typer.Typer) -> None:
         from planner.inputs.sites import load_site
         from planner.inputs.targets import load_target
         from planner.photometry.tables import window_photometry
+        from planner.sky.propagation import approach_warnings_utc
         from planner.visibility.windows import observable_windows
 
         if fmt not in FORMATS:
@@ -160,6 +162,12 @@ def register(app: typer.Typer) -> None:
         sites = [load_site(p) for p in site]
         tgt = load_target(target, object_name)
         df = observable_windows(tgt, sites, first, nights, step_s=step_s)
+        span = (
+            np.datetime64(first.isoformat(), "ns") - np.timedelta64(12, "h"),
+            np.datetime64(first.isoformat(), "ns") + np.timedelta64(nights + 1, "D"),
+        )
+        for note in approach_warnings_utc(tgt, *span):
+            print(f"note: {note}", file=sys.stderr)
         df = df.join(
             window_photometry(
                 df,

@@ -76,12 +76,33 @@ class Brightness:
 
 
 @dataclass(frozen=True)
+class NonGrav:
+    """Comet non-gravitational parameters (Marsden, Sekanina & Yeomans 1973): radial A1, transverse A2,
+    normal A3, each in au/day² (the Minor Planet Center quotes them in units of 1e-8 au/day²)."""
+
+    a1_au_per_day2: float = 0.0
+    a2_au_per_day2: float = 0.0
+    a3_au_per_day2: float = 0.0
+
+    @property
+    def is_active(self) -> bool:
+        return bool(self.a1_au_per_day2 or self.a2_au_per_day2 or self.a3_au_per_day2)
+
+
+#: How a target's orbit is carried over the span: integrated under the planets and the Moon (default),
+#: or two-body motion about the Sun (fast, and exact enough far from planets and from the epoch).
+PROPAGATIONS = ("perturbed", "two-body")
+
+
+@dataclass(frozen=True)
 class Target:
     name: str
     kind: str  # 'comet' | 'asteroid'
     orbit: Orbit
     brightness: Brightness = field(default_factory=Brightness)
     source: str = ""
+    nongrav: NonGrav | None = None
+    propagation: str = "perturbed"
 
 
 def load_target(path: str | Path, object_name: str | None = None) -> Target:
@@ -100,7 +121,8 @@ def load_target(path: str | Path, object_name: str | None = None) -> Target:
 
 # --------------------------------------------------------------------------------------------- TOML
 
-_TOP_KEYS = {"name", "kind", "orbit", "brightness", "designation", "notes"}
+_TOP_KEYS = {"name", "kind", "orbit", "brightness", "designation", "notes", "nongrav", "propagation"}
+_NONGRAV_KEYS = {"A1_au_per_day2", "A2_au_per_day2", "A3_au_per_day2"}
 _ORBIT_COMMON = {"epoch", "eccentricity", "inclination_deg", "ascending_node_deg", "arg_perihelion_deg"}
 _ORBIT_COMET = _ORBIT_COMMON | {"perihelion_time", "perihelion_dist_au"}
 _ORBIT_ASTEROID = _ORBIT_COMMON | {"semimajor_axis_au", "mean_anomaly_deg"}
@@ -144,7 +166,21 @@ def _load_toml(path: Path) -> Target:
     orbit = Orbit(epoch, q, ecc, incl, node, peri, tp)
     bf = f.sub("brightness")
     brightness = _brightness_toml(bf, kind) if bf is not None else Brightness()
-    return Target(name=name, kind=kind, orbit=orbit, brightness=brightness, source=str(path))
+    nongrav = None
+    nf = f.sub("nongrav")
+    if nf is not None:
+        nf.check_known(_NONGRAV_KEYS)
+        nongrav = NonGrav(*(nf.float(k, 0.0, lo=-1e-5, hi=1e-5) for k in sorted(_NONGRAV_KEYS)))
+    propagation = f.str("propagation", "perturbed", choices=PROPAGATIONS)
+    return Target(
+        name=name,
+        kind=kind,
+        orbit=orbit,
+        brightness=brightness,
+        source=str(path),
+        nongrav=nongrav,
+        propagation=propagation,
+    )
 
 
 def _from_mean_anomaly(

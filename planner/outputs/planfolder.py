@@ -88,6 +88,7 @@ def plan_manifest(result: PlanResult) -> dict:
                 "total_hours": dict(c.total_hours),
             },
             "replan": None if result.replan is None else result.replan.to_dict(),
+            "notes": list(result.notes),
             "blocks": records(result.blocks),
         }
     )

@@ -76,6 +76,8 @@ def cautions_section(pf: PlanFolder) -> str:
                     f"<li><strong>{html.escape(title)}:</strong> {'; '.join(flagged)}; "
                     f"{html.escape(CAUTION_TEXT[kind])}.</li>"
                 )
+    for note in pf.manifest.get("notes") or []:
+        items.append(f"<li><strong>Orbit:</strong> {html.escape(str(note))}.</li>")
     w = pf.windows
     if w is not None and "caution" in w:
         notes: dict[str, list[str]] = {}

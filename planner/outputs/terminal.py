@@ -94,7 +94,8 @@ def caution_lines(blocks: pd.DataFrame) -> list[str]:
 
 def safety_text(result: PlanResult) -> str:
     """The Sun caution printed under every plan, then the blocks that carry a caution (the `!` rows)."""
-    return "\n".join(["SAFETY: " + SUN_SAFETY_TEXT, *caution_lines(result.blocks)]) + "\n"
+    notes = [f"note: {n}" for n in result.notes]
+    return "\n".join(["SAFETY: " + SUN_SAFETY_TEXT, *caution_lines(result.blocks), *notes]) + "\n"
 
 
 def comparison_text(result: PlanResult) -> str:

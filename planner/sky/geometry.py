@@ -5,10 +5,11 @@ Route (Explanatory Supplement to the Astronomical Almanac, 3rd ed., ch. 7):
 1. Sun, Earth and Moon barycentric positions and velocities from DE421 (``skydata.planets()``); site
    positions from skyfield's WGS84 model (ITRS → GCRS with skyfield's Earth-rotation model, no
    polar motion).
-2. The target's heliocentric state from two-body elements (``planner.sky.kepler.propagate``), taken at
-   the retarded time t − τ, with τ the light time solved by fixed-point iteration (one
-   propagation, then a third-order Taylor step back by τ; each site then shifts by its own small
-   τ difference using the target's velocity, exact to far below a milliarcsecond).
+2. The target's heliocentric state (``planner.sky.propagation.target_state``: integrated under the
+   planets and the Moon, or two-body on request), taken at the retarded time t − τ, with τ the light
+   time solved by fixed-point iteration (one propagation, then a third-order Taylor step back by τ;
+   each site then shifts by its own small τ difference using the target's velocity, exact to far
+   below a milliarcsecond).
 3. Astrometric RA/Dec: the ICRF direction from the observer at t to the target at t − τ (no
    aberration, no light deflection), like a star catalogue position.
 4. Altitude and azimuth: the astrometric vector plus aberration by the observer's barycentric
@@ -35,22 +36,15 @@ from planner.core.constants import (
     OBLIQUITY_J2000_DEG,
 )
 from planner.core.errors import InputError
+from planner.core.safety import DEFAULT_MIN_SOLAR_ELONG_DEG, low_elongation_note
 from planner.inputs.sites import Site
 from planner.inputs.targets import Target
 from planner.sky.brightness import law_params, predicted_mag
-from planner.sky.kepler import propagate
+from planner.sky.propagation import target_state
 from planner.sky.skydata import planets, utc_times
 
 GEOCENTRE = "geocentre"
-#: Default solar-elongation safety limit (degrees). Pointing closer to the Sun can destroy equipment
-#: and blind people; the observatory's own rules always decide.
-MIN_SOLAR_ELONG_DEG = 30.0
-
-SAFETY_WARNING = (
-    "CAUTION: solar elongation below {limit:g} deg at {n} of {total} epochs. Pointing a "
-    "telescope near the Sun can destroy equipment and blind people; the observatory's own "
-    "rules decide."
-)
+MIN_SOLAR_ELONG_DEG = DEFAULT_MIN_SOLAR_ELONG_DEG
 
 
 # ------------------------------------------------------------------------------- small kernels
@@ -173,11 +167,12 @@ class _SkyAtTimes:
 def _target_light_time(target: Target, sky: _SkyAtTimes, obs_au: np.ndarray):
     """Heliocentric state at t − τ and τ (days) for an observer at barycentric ``obs_au``.
 
-    One two-body propagation at t; the retarded state comes from the Taylor series of two-body
-    motion to third order in τ (r − τv + τ²a/2 − τ³j/6 with a = −GM r/r³ and its derivative j),
-    whose truncation error stays below 1e-10 au even for a sungrazer at r = 0.05 au seen from 1 au.
+    One propagation at t; the retarded state comes from the Taylor series of two-body motion to third
+    order in τ (r − τv + τ²a/2 − τ³j/6 with a = −GM r/r³ and its derivative j), whose truncation error
+    stays below 1e-10 au even for a sungrazer at r = 0.05 au seen from 1 au. The planets' pull left out
+    of that step is below 1e-13 au even 0.001 au from the Earth (GM⊕/d² · τ²/2).
     """
-    helio, helio_v = propagate(target.orbit, sky.tdb_jd)
+    helio, helio_v = target_state(target, sky.tdb_jd)
     r = _norm(helio)[:, None]
     rv = np.einsum("ij,ij->i", helio, helio_v)[:, None]
     acc = -GM_SUN_AU3_D2 * helio / r**3
@@ -355,5 +350,5 @@ def safety_warning(frames: dict[str, pd.DataFrame]) -> str | None:
             limit = frame.attrs.get("min_solar_elong_deg", MIN_SOLAR_ELONG_DEG)
             total = sum(len(f) for f in frames.values())
             n_all = sum(int(f["low_solar_elong"].sum()) for f in frames.values())
-            return SAFETY_WARNING.format(limit=limit, n=n_all, total=total)
+            return low_elongation_note(n_all, total, limit)
     return None
