@@ -25,7 +25,7 @@ def register(app: typer.Typer) -> None:
         """Plan the bundled demo campaign (invented comet, four invented sites, one week), check it and
         write the plan folder with its HTML report."""
         from planner.demo import run_demo
-        from planner.outputs.terminal import comparison_text, night_table
+        from planner.outputs.terminal import comparison_text, night_table, safety_text
 
         r = run_demo(out)
         c = r.plan.campaign
@@ -34,6 +34,7 @@ def register(app: typer.Typer) -> None:
             f"{c.first_night.isoformat()} ({r.seconds:.0f} s)\n"
         )
         typer.echo(night_table(r.plan.blocks))
+        typer.echo(safety_text(r.plan))
         typer.echo(comparison_text(r.plan))
         typer.echo(f"plan folder: {r.out_dir}")
         typer.echo(f"report:      {r.report_path.resolve()}  (open it in a browser; it works offline)")

@@ -16,7 +16,7 @@ TABLE_LEGEND = (
     "columns: night = local evening date; local, UTC = block start-end (hh:mm, set-up included); "
     "h = hours;\n  exp = exposures x seconds; RA, Dec in deg (mid-block); mot = sky motion arcsec/min "
     "towards PA deg;\n  alt = altitude range deg; X = airmass range; moon = Moon separation deg; "
-    "mag = predicted magnitude; S/N per exposure; ! = a caution below"
+    "mag = predicted magnitude; S/N per exposure"
 )
 
 
@@ -49,7 +49,8 @@ def night_table(blocks: pd.DataFrame) -> str:
             f"{fixed(r.min_airmass, '.2f', 4)}-{fixed(r.max_airmass, '.2f', 4)} {fixed(r.moon_sep_deg, '.0f', 4)} "
             f"{fixed(r.mag_pred, '.1f', 5)} {fixed(r.snr_pred, '.0f', 5)}{flag}"
         )
-    lines.append(TABLE_LEGEND)
+    flagged = "cautions" in t and t["cautions"].fillna("").astype(str).str.strip().ne("").any()
+    lines.append(TABLE_LEGEND + ("; ! = the block has a caution (listed under SAFETY)" if flagged else ""))
     return "\n".join(lines) + "\n"
 
 
