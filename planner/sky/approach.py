@@ -117,7 +117,7 @@ def close_approach_report(
     if d_earth < earth_warn_au:
         warnings.append(f"passes {d_earth:.4f} au from the Earth (JD {t_earth:.3f} TDB); {offset}")
     if d_jup < jupiter_warn_au:
-        warnings.append(f"passes {d_jup:.3f} au from Jupiter (JD {t_jup:.2f} TDB); {offset}")
+        warnings.append(f"passes {d_jup:.2g} au from Jupiter (JD {t_jup:.2f} TDB); {offset}")
     if days_out > epoch_warn_d:
         warnings.append(f"reaches {days_out:.0f} days from the elements' epoch; {offset}")
     return ApproachReport(
