@@ -17,6 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
+from planner.core.bands import COLOUR_KEYS, SOLAR_COLOURS, SUN_MAG_BY_BAND
 from planner.core.constants import GM_SUN_AU3_D2
 from planner.core.errors import InputError
 from planner.core.timegrid import parse_utc, to_jd_utc
@@ -27,6 +28,16 @@ KINDS = ("comet", "asteroid")
 DEFAULT_PHASE_COEFF_MAG_PER_DEG = 0.035
 #: Asteroid slope parameter when none is given (Bowell et al. 1989 adopt G = 0.15 by default).
 DEFAULT_G = 0.15
+#: Colours of a comet without a ``[colour]`` table: the Sun's (its dust scatters sunlight; common practice).
+DEFAULT_COMET_COLOURS = dict(SOLAR_COLOURS)
+#: Colours of an asteroid without a ``[colour]`` table: the mean of the C- and S-type means (C: B−V 0.71,
+#: V−R 0.38, R−I 0.32; S: B−V 0.85, V−R 0.48, R−I 0.36), from memory of the taxonomic colour means of
+#: Dandy, Fitzsimmons & Collander-Brown (2003), Icarus 163, 363, not checked against the paper. Give the
+#: target's own colours when they are known: an S type is ~0.05 mag redder in V−R than this, a C type
+#: ~0.05 mag bluer.
+DEFAULT_ASTEROID_COLOURS = {"B-V": 0.78, "V-R": 0.43, "R-I": 0.34}
+#: Bands a brightness law may be stated in (the Sun's table, planner.core.bands).
+LAW_BANDS = tuple(SUN_MAG_BY_BAND)
 
 
 @dataclass(frozen=True)
@@ -73,6 +84,8 @@ class Brightness:
     phase_coeff_mag_per_deg: float | None = None
     H: float | None = None
     G: float | None = None
+    #: The band the law's magnitudes are in: V for H,G (Bowell et al. 1989); a comet file may say otherwise.
+    law_band: str = "V"
 
 
 @dataclass(frozen=True)
@@ -82,6 +95,19 @@ class Target:
     orbit: Orbit
     brightness: Brightness = field(default_factory=Brightness)
     source: str = ""
+    #: Colour indices ``{"B-V", "V-R", "R-I"}`` given in the target file (Johnson–Cousins, Vega); None for
+    #: none given. :meth:`colours` fills the rest from the kind's defaults.
+    colour: dict[str, float] | None = None
+
+    def colours(self) -> tuple[dict[str, float], str]:
+        """The colour indices used and where they come from: the file's, else the kind's defaults
+        (:data:`DEFAULT_COMET_COLOURS`, :data:`DEFAULT_ASTEROID_COLOURS`), key by key."""
+        default = DEFAULT_COMET_COLOURS if self.kind == "comet" else DEFAULT_ASTEROID_COLOURS
+        given = self.colour or {}
+        source = "solar (comet default)" if self.kind == "comet" else "C/S-type mean (asteroid default)"
+        if given:
+            source = "target file" if set(given) == set(COLOUR_KEYS) else f"target file, the rest {source}"
+        return {k: float(given.get(k, default[k])) for k in COLOUR_KEYS}, source
 
 
 def load_target(path: str | Path, object_name: str | None = None) -> Target:
@@ -100,11 +126,13 @@ def load_target(path: str | Path, object_name: str | None = None) -> Target:
 
 # --------------------------------------------------------------------------------------------- TOML
 
-_TOP_KEYS = {"name", "kind", "orbit", "brightness", "designation", "notes"}
+_TOP_KEYS = {"name", "kind", "orbit", "brightness", "colour", "designation", "notes"}
 _ORBIT_COMMON = {"epoch", "eccentricity", "inclination_deg", "ascending_node_deg", "arg_perihelion_deg"}
 _ORBIT_COMET = _ORBIT_COMMON | {"perihelion_time", "perihelion_dist_au"}
 _ORBIT_ASTEROID = _ORBIT_COMMON | {"semimajor_axis_au", "mean_anomaly_deg"}
-_BRIGHT_COMET = {"M1", "K1", "M2", "K2", "phase_coeff_mag_per_deg"}
+_BRIGHT_COMET = {"M1", "K1", "M2", "K2", "phase_coeff_mag_per_deg", "law_band"}
+#: Plausible ranges of the colour indices (Solar System bodies lie well inside them).
+_COLOUR_RANGE = {"B-V": (-0.5, 2.0), "V-R": (-0.5, 1.5), "R-I": (-0.5, 1.5)}
 _BRIGHT_ASTEROID = {"H", "G"}
 
 
@@ -144,7 +172,16 @@ def _load_toml(path: Path) -> Target:
     orbit = Orbit(epoch, q, ecc, incl, node, peri, tp)
     bf = f.sub("brightness")
     brightness = _brightness_toml(bf, kind) if bf is not None else Brightness()
-    return Target(name=name, kind=kind, orbit=orbit, brightness=brightness, source=str(path))
+    cf = f.sub("colour")
+    colour = _colour_toml(cf) if cf is not None else None
+    return Target(name=name, kind=kind, orbit=orbit, brightness=brightness, source=str(path), colour=colour)
+
+
+def _colour_toml(f: Fields) -> dict[str, float] | None:
+    """``[colour]``: any of B-V, V-R, R-I (Johnson–Cousins, Vega magnitudes)."""
+    f.check_known(COLOUR_KEYS)
+    out = {k: f.float(k, lo=lo, hi=hi) for k, (lo, hi) in _COLOUR_RANGE.items()}
+    return {k: v for k, v in out.items() if v is not None} or None
 
 
 def _from_mean_anomaly(
@@ -180,7 +217,8 @@ def _brightness_toml(f: Fields, kind: str) -> Brightness:
         if m2 is not None:
             k2 = 5.0 if k2 is None else k2  # a bare nucleus fades as r^-2 (K2 = 5), common practice
             beta = DEFAULT_PHASE_COEFF_MAG_PER_DEG if beta is None else beta
-        return Brightness(M1=m1, K1=k1, M2=m2, K2=k2, phase_coeff_mag_per_deg=beta)
+        band = f.str("law_band", "V", choices=LAW_BANDS)
+        return Brightness(M1=m1, K1=k1, M2=m2, K2=k2, phase_coeff_mag_per_deg=beta, law_band=band)
     f.check_known(_BRIGHT_ASTEROID)
     h = f.float("H", lo=-5.0, hi=35.0)
     g = f.float("G", lo=-0.5, hi=1.0)

@@ -201,8 +201,9 @@ def geometry(
 
     Columns: see docs/formats.md "Geometry columns". ``low_solar_elong`` flags epochs closer to the
     Sun than ``min_solar_elong_deg`` (a safety caution, not a permission). Each frame's ``attrs`` hold
-    ``mag_law``, ``mag_params`` (the law's parameters, planner.sky.brightness.law_params), ``target``,
-    ``observer`` and ``min_solar_elong_deg``.
+    ``mag_law``, ``mag_params`` (the law's parameters, planner.sky.brightness.law_params), ``law_band``
+    (the band of ``mag_pred``), ``colour_indices`` and ``colour_source`` (``Target.colours()``, for the
+    magnitude in an instrument's band), ``target``, ``observer`` and ``min_solar_elong_deg``.
     """
     names = [s.name for s in sites]
     for site in sites:
@@ -284,9 +285,13 @@ def _observer_frame(
     if site is not None:
         cols.update(_site_columns(sky, topo, p, tau, obs_au, obs_v))
     frame = pd.DataFrame(cols)
+    colours, colour_source = target.colours()
     frame.attrs.update(
         mag_law=law,
         mag_params=law_params(target.kind, target.brightness),
+        law_band=target.brightness.law_band,
+        colour_indices=colours,
+        colour_source=colour_source,
         target=target.name,
         min_solar_elong_deg=min_solar_elong_deg,
     )
