@@ -1,13 +1,14 @@
 """Observable windows for the 4 demo sites × 7 nights: phasewise beside astroplan's constraints.
 
 phasewise: ``observable_windows`` (5-minute grid over dark time, edges refined by bisection to 10 s).
-astroplan (Morris et al. 2018, AJ 155, 128): the same limits on a 5-minute grid over each whole
-night: AtNightConstraint (site twilight), altitude against the site's horizon mask from
-Observer.altaz, SunSeparationConstraint, MoonSeparationConstraint-style separation from astroplan's
-Moon with the site's illumination rule and Moon-below-horizon rule, hour angle from
-Observer.target_hour_angle, declination range. astroplan has no small-body ephemeris, so the
-comet's RA/Dec on its grid come from phasewise's geometry (geocentric; the parallax of a comet at
-0.6 au, ≤ 15″, moves no edge by a second); that step is timed on astroplan's side.
+astroplan (Morris et al. 2018, AJ 155, 128): the same limits on a 5-minute grid over each whole night:
+AtNightConstraint (site twilight, the Sun's airless altitude), apparent altitude (the Observer given the
+site's air) against the site's horizon mask from Observer.altaz, SunSeparationConstraint,
+MoonSeparationConstraint-style separation from astroplan's Moon with the site's illumination rule and
+Moon-below-horizon rule, hour angle from Observer.target_hour_angle, declination range. astroplan has no
+small-body ephemeris, so the comet's RA/Dec on its grid come from phasewise's geometry (geocentric; the
+parallax of a comet at 0.6 au, ≤ 15″, moves no edge by a second); that step is timed on astroplan's
+side.
 
 Prints both timings, the ratio (target ≥ 20×) and the largest edge difference (target: within one
 5-minute step of astroplan's grid). Run: ``python benchmarks/bench_windows.py``.
@@ -30,6 +31,7 @@ from planner.core.timegrid import time_grid  # noqa: E402
 from planner.inputs.sites import load_site  # noqa: E402
 from planner.inputs.targets import load_target  # noqa: E402
 from planner.sky.geometry import geometry  # noqa: E402
+from planner.sky.refraction import site_air  # noqa: E402
 from planner.sky.skydata import no_iers_download  # noqa: E402
 from planner.visibility.intervals import true_runs  # noqa: E402
 from planner.visibility.limits import in_granted  # noqa: E402
@@ -52,8 +54,12 @@ def astroplan_windows(target, sites):
         grid = time_grid(bounds[0], bounds[-1], STEP_S)
         geo = geometry(target, grid)["geocentre"]
         coords = SkyCoord(geo["ra_deg"].to_numpy() * u.deg, geo["dec_deg"].to_numpy() * u.deg)
+        pressure_hpa, temperature_c = site_air(s)  # apparent altitudes on both sides (ERFA refraction there)
         obs = Observer(
-            location=EarthLocation(lat=s.latitude_deg * u.deg, lon=s.longitude_deg * u.deg, height=s.height_m * u.m)
+            location=EarthLocation(lat=s.latitude_deg * u.deg, lon=s.longitude_deg * u.deg, height=s.height_m * u.m),
+            pressure=pressure_hpa * u.hPa,
+            temperature=temperature_c * u.deg_C,
+            relative_humidity=0.0,
         )
         times = Time(grid, scale="utc")
         ok = np.ravel(AtNightConstraint(max_solar_altitude=s.night_sun_alt_deg * u.deg)(obs, coords, times=times))

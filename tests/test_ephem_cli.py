@@ -48,7 +48,7 @@ def test_table_for_people(root, capsys, monkeypatch):
     )
     assert code == 0
     lines = out.splitlines()
-    assert "Quebrada Alta" in lines[0] and "no refraction" in lines[0]
+    assert "Quebrada Alta" in lines[0] and "alt apparent (refraction at" in lines[0]
     assert "RA (h m s)" in lines[1] and "airm" in lines[1]
     assert "au" in lines[2] and "deg" in lines[2]
     assert len(lines) == 3 + 4

@@ -142,7 +142,8 @@ def test_meeus_comet_encke_example():
 
 
 def test_altaz_and_hour_angle_match_astropy_frames():
-    # Independent route: astropy AltAz (pressure 0 = airless, like ours) and HADec frames, with IERS
+    # Independent route: astropy AltAz (pressure 0 = airless, like our alt_true_deg; the refracted alt_deg
+    # is checked in test_refraction.py) and HADec frames, with IERS
     # tables from astropy-iers-data (a 2024 date they cover). Tolerance 1": we neglect polar motion
     # (<= 0.5"), solar light deflection (<= 0.02" here) and use IAU 2000B nutation (~1 mas).
     from astropy import units as u
@@ -168,7 +169,7 @@ def test_altaz_and_hour_angle_match_astropy_frames():
     bary = (p + obs).T
     coord = SkyCoord(ICRS(CartesianRepresentation(bary * u.au)))
     altaz = coord.transform_to(AltAz(obstime=t, location=loc, pressure=0 * u.hPa))
-    d_alt = (frame["alt_deg"].to_numpy() - altaz.alt.deg) * 3600
+    d_alt = (frame["alt_true_deg"].to_numpy() - altaz.alt.deg) * 3600
     d_az = ((frame["az_deg"].to_numpy() - altaz.az.deg + 180) % 360 - 180) * 3600 * np.cos(altaz.alt.rad)
     assert np.abs(d_alt).max() < 1.0 and np.abs(d_az).max() < 1.0
     hadec = coord.transform_to(HADec(obstime=t, location=loc, pressure=0 * u.hPa))

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from schedule_helpers import model_for
 
-from planner.diagnostics import coverage, periodogram, sensitivity, specwindow
+from planner.diagnostics import coverage, periodogram, recovery, sensitivity, specwindow
 from planner.inputs.targets import Orbit
 from planner.photometry import ccd
 from planner.schedule import greedy, objective, quality
@@ -119,6 +119,16 @@ def _periodogram(rng):
     return periodogram.multiharmonic_power(t, y, f, **kw), periodogram.multiharmonic_power_slow(t, y, f, **kw)
 
 
+def _trial_power(rng):
+    # Each trial at its own frequencies (recovery's P-versus-P/2 step) against the lstsq periodogram.
+    t = _times(rng, 80)
+    y = 0.2 * np.sin(2 * np.pi * t * 24 / 7.3)[:, None] + rng.normal(0, 0.02, (t.size, 3))
+    f = rng.uniform(0.8, 12.0, (3, 5))
+    kw = dict(nterms=2, sigma=0.02, trend_degree=1)
+    slow = np.stack([periodogram.multiharmonic_power_slow(t, y[:, j], f[j], **kw) for j in range(3)])
+    return recovery.trial_power(t, y, f, **kw), slow
+
+
 def _fading(rng):
     t, p, s = _times(rng, 60), rng.uniform(2, 30, 5), rng.uniform(0.005, 0.05, 60)
     return sensitivity.fading_rate_sigma(t, p, s, 2), sensitivity.fading_rate_sigma_slow(t, p, s, 2)
@@ -221,6 +231,7 @@ TWINS = [
     Twin("specwindow.spectral_window", _window, rtol=1e-9, atol=1e-12),
     Twin("specwindow.nyquist_freq_per_day", _nyquist),
     Twin("periodogram.multiharmonic_power", _periodogram, rtol=1e-8, atol=1e-10),
+    Twin("recovery.trial_power", _trial_power, rtol=1e-8, atol=1e-10),
     Twin("sensitivity.fading_rate_sigma", _fading, rtol=1e-6),
     Twin("sensitivity.frequency_sigma", _frequency, rtol=1e-6),
     Twin("quality.slot_quality", _slot_quality),

@@ -226,7 +226,9 @@ def test_edges_are_refined_below_the_grid_step():
 def test_demo_comet_windows_match_astroplan_with_its_ephemeris(root):
     # The library call on the moving demo comet: astroplan's constraints evaluated on a 60 s grid at the
     # comet's per-epoch RA/Dec (from geometry; astroplan has no small-body ephemeris). Same intervals,
-    # edges within one grid step + our 10 s tolerance. Moon rule as above.
+    # edges within one grid step + our 10 s tolerance. Moon rule as above. Altitudes are apparent: the
+    # Observer gets the site's air (standard atmosphere at its height), so astropy refracts them (ERFA's
+    # model) while the night constraint stays on the Sun's airless altitude (force_pressure_zero).
     import astropy.units as u
     from astroplan import AltitudeConstraint, AtNightConstraint, Observer
     from astropy.coordinates import EarthLocation, SkyCoord, get_body
@@ -245,10 +247,16 @@ def test_demo_comet_windows_match_astroplan_with_its_ephemeris(root):
     grid = time_grid(bounds[0], bounds[-1], 60.0)
     geo = geometry(target, grid, [site])[site.name]
     coords = SkyCoord(geo["ra_deg"].to_numpy() * u.deg, geo["dec_deg"].to_numpy() * u.deg)
+    from planner.sky.refraction import site_air
+
+    pressure_hpa, temperature_c = site_air(site)
     obs = Observer(
         location=EarthLocation(
             lat=site.latitude_deg * u.deg, lon=site.longitude_deg * u.deg, height=site.height_m * u.m
-        )
+        ),
+        pressure=pressure_hpa * u.hPa,
+        temperature=temperature_c * u.deg_C,
+        relative_humidity=0.0,
     )
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")

@@ -89,7 +89,10 @@ def render_table(d: dict) -> str:
             if src.get(k)
         ]
         lines.append(f"photometric σ per point: median {inp['median_mag_err']:.4f} mag ({', '.join(parts)})")
-    shape = "double-peaked (rotation = 2 × photometric period)" if s["double_peaked"] else "single-peaked"
+    if inp.get("light_time_corrected"):
+        lines.append("periods computed on light-time corrected times (t − Δ/c, from the target's geometry)")
+    shape = "double-peaked (rotation = 2 × photometric period; found at P/2 is not recovered)"
+    shape = shape if s["double_peaked"] else "single-peaked"
     lines.append(
         f"rotation periods {s['min_period_h']:g}–{s['max_period_h']:g} h, {len(d['periods_h'])} trial "
         f"periods, {s['phase_bins']} phase bins; light curve {shape}, amplitude "
@@ -100,17 +103,18 @@ def render_table(d: dict) -> str:
     lines.append("Verdict by period band")
     lines.append(
         f"  {'band (h)':<13} {'verdict':<14} {'coverage min/med':>16} {'max gap':>8} "
-        f"{'alias':>6} {'recovered':>9}  confusable periods (h)"
+        f"{'alias':>6} {'recovered':>9} {'at P/2':>6}  confusable periods (h)"
     )
     for b in d["bands"]:
         rec = "—" if b["recovery_fraction"] is None else f"{100 * b['recovery_fraction']:.0f} %"
+        half = "—" if b.get("half_period_fraction") is None else f"{100 * b['half_period_fraction']:.0f} %"
         conf = ", ".join(f"{p:g}" for p in b["confusable_periods_h"][:6])
         if len(b["confusable_periods_h"]) > 6:
             conf += ", …"
         lines.append(
             f"  {b['min_period_h']:5.2f}–{b['max_period_h']:<6.2f} {b['verdict']:<14} "
             f"{_f(b['min_coverage'], '.2f')} / {_f(b['median_coverage'], '.2f'):<6} "
-            f"{_f(b['max_phase_gap'], '.2f'):>8} {b['max_alias_height']:6.2f} {rec:>9}  {conf}"
+            f"{_f(b['max_phase_gap'], '.2f'):>8} {b['max_alias_height']:6.2f} {rec:>9} {half:>6}  {conf}"
         )
     lines.append("")
     worst = ", ".join(f"{w['period_h']:.2f} h ({100 * w['coverage']:.0f} %)" for w in d["worst_periods"][:6])

@@ -53,6 +53,7 @@ _SITE_TABLE_COLUMNS = [
 ]
 # Photometry columns, for sites with an [instrument] (docs/formats.md "Photometry columns").
 _PHOT_TABLE_COLUMNS = [
+    ("mag_band_pred", "mag band", "mag", "{:6.2f}"),
     ("sky_mag_arcsec2", "sky", 'mag/"2', "{:5.2f}"),
     ("aperture_arcsec", "aper", '"', "{:5.1f}"),
     ("exposure_s", "exp", "s", "{:6.1f}"),
@@ -92,7 +93,9 @@ def render_table(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
         law = format_law(frame.attrs.get("mag_law", ""), frame.attrs.get("mag_params", {}))
         lines = [
             f"# {frame.attrs.get('target', '')} from {name}; predicted magnitude: "
-            f"{law}; RA/Dec astrometric ICRF; alt/az airless (no refraction)"
+            f"{law} in {frame.attrs.get('law_band', 'V')}; RA/Dec astrometric ICRF"
+            + (f"; {frame.attrs['air']}" if "air" in frame.attrs else "")
+            + (f"; mag band = {_band_words(frame)}" if "band" in frame else "")
         ]
         lines.append("  ".join(h.rjust(w) for h, w in zip(headers, widths, strict=True)).rstrip())
         lines.append("  ".join(u.rjust(w) for u, w in zip(units, widths, strict=True)).rstrip())
@@ -103,6 +106,13 @@ def render_table(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
     if caution:
         text = f"# {caution}\n# '!' = SUN marks epochs below the limit.\n" + text
     return text
+
+
+def _band_words(frame: pd.DataFrame) -> str:
+    """``R, colours solar (comet default)``: the instrument's band and the colours that reach it."""
+    colours = frame.attrs.get("colour_indices") or {}
+    shown = ", ".join(f"{k} {v:.2f}" for k, v in colours.items())
+    return f"{frame['band'].iloc[0]} (colours {shown}: {frame.attrs.get('colour_source', '')})"
 
 
 def _long_frame(frames: dict[str, pd.DataFrame]) -> pd.DataFrame:
@@ -126,6 +136,9 @@ def render_json(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
         "target": first.attrs.get("target"),
         "mag_law": first.attrs.get("mag_law"),
         "mag_params": first.attrs.get("mag_params", {}),
+        "law_band": first.attrs.get("law_band"),
+        "colour_indices": first.attrs.get("colour_indices"),
+        "colour_source": first.attrs.get("colour_source"),
         "min_solar_elong_deg": first.attrs.get("min_solar_elong_deg"),
         "caution": caution,
         "rows": rows,

@@ -6,6 +6,10 @@ spectral window and the aliases it creates (:mod:`planner.diagnostics.specwindow
 (:mod:`planner.diagnostics.recovery`), a verdict per period band, and how well the times pin down the fading
 rate, the period and a change of period (:mod:`planner.diagnostics.sensitivity`), with the synodic–sidereal
 drift when the target's geometry is known.
+
+With the target's geometry every period computation runs on light-time corrected times, t − Δ/c, so
+rotational phase is counted at the body as photometrists count it (Harris et al. 1989, Icarus 77,
+171); the JSON says so (``input.light_time_corrected``).
 """
 
 from __future__ import annotations
@@ -19,7 +23,7 @@ from planner.core.safety import DEFAULT_MIN_SOLAR_ELONG_DEG, SUN_SAFETY_TEXT, ne
 from planner.core.timegrid import iso_utc, to_jd_utc
 from planner.diagnostics.aliases import alias_chance, alias_failures, partners_in_range
 from planner.diagnostics.coverage import period_grid_h, phase_coverage
-from planner.diagnostics.recovery import injection_recovery
+from planner.diagnostics.recovery import DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG, injection_recovery
 from planner.diagnostics.result import CheckResult, CheckSettings
 from planner.diagnostics.sensitivity import (
     fading_rate_sigma,
@@ -39,6 +43,7 @@ from planner.diagnostics.verdicts import (
     band_verdict,
     geometric_trend_mag,
     geometry_arrays,
+    light_time_minutes,
     repeated_times,
     worst_covered,
 )
@@ -80,6 +85,7 @@ def check_times(
     window_max_freq_per_day: float = 5.0,
     n_candidates: int = 16,
     n_bands: int = 10,
+    amplitude_phase_slope_per_deg: float = DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG,
     progress: Callable[[float], None] | None = None,
 ) -> CheckResult:
     """Coverage, alias, recovery and sensitivity diagnostics for a list of observation times.
@@ -91,7 +97,9 @@ def check_times(
     ``planner.sky.geometry.geometry`` (or a DataFrame / mapping with its columns) at the same
     times; with ``target`` instead, it is computed here. ``trials`` = 0 skips injection–recovery.
     With geometry, times within the Sun caution margin of the default Sun limit (planner.core.safety) raise a
-    caution note.
+    caution note, every period computation uses the emission times t − Δ/c (``light_time_minutes``,
+    else ``obs_dist_au``), and injected amplitudes follow each time's phase angle with the slope
+    ``amplitude_phase_slope_per_deg`` (Zappalà et al. 1990; planner.diagnostics.recovery).
     The period range is cut into ``n_bands`` log-spaced bands, each with a verdict; injected
     periods are shared out evenly over the same bands.
     """
@@ -122,6 +130,7 @@ def check_times(
         alias_threshold=alias_threshold,
         recovery_threshold=recovery_threshold,
         window_max_freq_per_day=window_max_freq_per_day,
+        amplitude_phase_slope_per_deg=amplitude_phase_slope_per_deg,
     )
     notes: list[str] = []
     if geometry is None and target is not None:
@@ -134,6 +143,10 @@ def check_times(
             k: np.asarray(v)[order] if np.size(v) == n else np.asarray(v) for k, v in geometry_arrays(geometry).items()
         }
     trend_mag = geometric_trend_mag(geo, k1) if geo else None
+    t_obs = t
+    light_min = light_time_minutes(geo)
+    if light_min is not None:
+        t = t_obs - light_min / 1440.0  # emission times: phase is counted at the body
 
     span_h = float(np.ptp(t) * 24.0) if n else 0.0
     periods = period_grid_h(s.min_period_h, s.max_period_h, span_h, oversample)
@@ -157,7 +170,7 @@ def check_times(
         {"freq_per_day": float(f), "period_h": 24.0 / float(f), "height": float(h)}
         for f, h in zip(pk_f, pk_h, strict=True)
     ]
-    nyq = nyquist_freq_per_day(t)
+    nyq = nyquist_freq_per_day(t_obs)  # a property of the sampling's steps, taken on the clock that made them
     # Below 2/T a peak is a sidelobe of the central lobe (for an unbroken span of length T the first
     # lies near 1.43/T at height 0.22, the sinc sidelobe): every campaign of that span has it and no
     # schedule removes it. The alias that sampling decides is the strongest peak beyond it.
@@ -204,6 +217,8 @@ def check_times(
                 fading_mag_per_day=extra_fading_mag_per_day,
                 oversample=oversample,
                 n_bands=n_bands,
+                phase_angle_deg=geo.get("phase_angle_deg"),
+                amplitude_phase_slope_per_deg=amplitude_phase_slope_per_deg,
                 progress=progress,
             )
         else:
@@ -212,6 +227,7 @@ def check_times(
     rec_trials = []
     if recovery is not None:
         wrong = recovery.match == "wrong"
+        half = recovery.match == "half"
         strong_pk = pk_f[pk_h >= 0.25]
         explained = wrong & alias_failures(
             24.0 / recovery.true_period_h,
@@ -219,6 +235,7 @@ def check_times(
             strong_pk,
             recovery.tolerance_freq_per_day,
             double_peaked,
+            half_apart=True,
         )
         chance = np.zeros(wrong.size)
         chance[wrong] = alias_chance(
@@ -227,6 +244,7 @@ def check_times(
             strong_pk,
             recovery.tolerance_freq_per_day,
             double_peaked,
+            half_apart=True,
         )
         for i, b in enumerate(recovery.bins):
             inside = recovery.bin_index == i
@@ -240,6 +258,7 @@ def check_times(
                     "fraction_at_period": b.fraction_at_period,
                     "fraction_at_half_period": b.fraction_at_half_period,
                     "failures_alias": int(np.sum(inside & explained)),
+                    "failures_half": int(np.sum(inside & half)),
                     "failures_other": int(np.sum(inside & wrong & ~explained)),
                     "failures_alias_expected": float(np.sum(chance[inside])),
                     "confusions": b.confusions,
@@ -325,7 +344,9 @@ def check_times(
                 "max_phase_gap": float(gb.max()) if gb.size else None,
                 "max_alias_height": alias_max,
                 "recovery_fraction": rec["fraction"] if rec else None,
+                "half_period_fraction": rec["fraction_at_half_period"] if rec else None,
                 "failures_alias": rec["failures_alias"] if rec else 0,
+                "failures_half": rec["failures_half"] if rec else 0,
                 "failures_other": rec["failures_other"] if rec else 0,
                 "failures_alias_expected": rec["failures_alias_expected"] if rec else 0.0,
                 "n_trials": rec["n_trials"] if rec else 0,
@@ -358,6 +379,8 @@ def check_times(
         settings=s,
         times_utc=times,
         times_jd=t,
+        light_time_minutes=light_min,
+        amplitude_ref_phase_deg=None if recovery is None else recovery.amplitude_ref_phase_deg,
         sites=site_arr,
         mag_err=err,
         periods_h=periods,

@@ -9,6 +9,7 @@ import numpy as np
 
 from planner.core.jsonsafe import json_safe
 from planner.core.timegrid import iso_utc
+from planner.diagnostics.recovery import DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG
 
 VERDICTS = ("secure", "alias-prone", "under-covered")
 
@@ -32,6 +33,8 @@ class CheckSettings:
     recovery_threshold: float = 0.9
     window_max_freq_per_day: float = 5.0
     n_sigma: float = 3.0
+    #: Zappalà et al. (1990) slope m of A(α) = A(0)(1 + m α), per degree (planner.diagnostics.recovery).
+    amplitude_phase_slope_per_deg: float = DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG
 
 
 @dataclass
@@ -61,6 +64,10 @@ class CheckResult:
     period_change: list[dict]
     synodic: dict | None = None
     notes: list[str] = field(default_factory=list)
+    #: Light time per (sorted) time, minutes, when the periods were computed on t − Δ/c; else None.
+    light_time_minutes: np.ndarray | None = None
+    #: Phase angle at which the injected amplitudes hold (None: no phase angles known).
+    amplitude_ref_phase_deg: float | None = None
 
     @property
     def span_h(self) -> float:
@@ -82,6 +89,8 @@ class CheckResult:
                     "sites": sites,
                     "median_mag_err": float(np.median(self.mag_err)) if self.mag_err.size else None,
                     "times_utc": iso_utc(self.times_utc, seconds=True),
+                    "light_time_corrected": self.light_time_minutes is not None,
+                    "light_time_minutes": self.light_time_minutes,
                 },
                 "settings": {
                     "min_period_h": s.min_period_h,
@@ -98,6 +107,8 @@ class CheckResult:
                     "alias_threshold": s.alias_threshold,
                     "recovery_threshold": s.recovery_threshold,
                     "n_sigma": s.n_sigma,
+                    "amplitude_phase_slope_per_deg": s.amplitude_phase_slope_per_deg,
+                    "amplitude_ref_phase_deg": self.amplitude_ref_phase_deg,
                 },
                 "periods_h": self.periods_h,
                 "coverage": self.coverage,

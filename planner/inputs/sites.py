@@ -75,6 +75,11 @@ class Site:
     clear_fraction: float = 0.7
     allocation: Allocation = field(default_factory=Allocation)
     source: str = ""
+    #: Apparent (refracted) altitudes for pointing limits and airmass; False: airless (true) altitudes.
+    refraction: bool = True
+    #: Air for the refraction; None: the standard atmosphere at ``height_m`` (planner.sky.refraction).
+    pressure_hpa: float | None = None
+    temperature_c: float | None = None
 
     @property
     def night_sun_alt_deg(self) -> float:
@@ -114,6 +119,9 @@ _SITE_KEYS = {
     "clear_fraction",
     "allocation",
     "notes",
+    "refraction",
+    "pressure_hpa",
+    "temperature_c",
 }
 _INSTRUMENT_KEYS = {f for f in Instrument.__dataclass_fields__}
 
@@ -240,4 +248,7 @@ def load_site(path: str | Path) -> Site:
         clear_fraction=f.float("clear_fraction", 0.7, lo=0.0, hi=1.0),
         allocation=(allocation_from(alloc) if alloc else None) or Allocation(),
         source=str(path),
+        refraction=f.bool("refraction", True),
+        pressure_hpa=f.float("pressure_hpa", None, lo=300.0, hi=1100.0),
+        temperature_c=f.float("temperature_c", None, lo=-60.0, hi=50.0),
     )

@@ -17,6 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
+from planner.core.bands import ASTEROID_MEAN_COLOURS, COLOUR_KEYS, SOLAR_COLOURS, SUN_MAG_BY_BAND
 from planner.core.constants import GM_SUN_AU3_D2
 from planner.core.errors import InputError
 from planner.core.timegrid import parse_utc, to_jd_utc
@@ -27,6 +28,12 @@ KINDS = ("comet", "asteroid")
 DEFAULT_PHASE_COEFF_MAG_PER_DEG = 0.035
 #: Asteroid slope parameter when none is given (Bowell et al. 1989 adopt G = 0.15 by default).
 DEFAULT_G = 0.15
+#: Colours of a comet without a ``[colour]`` table: the Sun's (its dust scatters sunlight; common practice).
+DEFAULT_COMET_COLOURS = dict(SOLAR_COLOURS)
+#: Colours of an asteroid without a ``[colour]`` table (planner.core.bands, with its source).
+DEFAULT_ASTEROID_COLOURS = dict(ASTEROID_MEAN_COLOURS)
+#: Bands a brightness law may be stated in (the Sun's table, planner.core.bands).
+LAW_BANDS = tuple(SUN_MAG_BY_BAND)
 
 
 @dataclass(frozen=True)
@@ -73,6 +80,8 @@ class Brightness:
     phase_coeff_mag_per_deg: float | None = None
     H: float | None = None
     G: float | None = None
+    #: The band the law's magnitudes are in: V for H,G (Bowell et al. 1989); a comet file may say otherwise.
+    law_band: str = "V"
 
 
 @dataclass(frozen=True)
@@ -103,6 +112,19 @@ class Target:
     source: str = ""
     nongrav: NonGrav | None = None
     propagation: str = "perturbed"
+    #: Colour indices ``{"B-V", "V-R", "R-I"}`` given in the target file (Johnson–Cousins, Vega); None for
+    #: none given. :meth:`colours` fills the rest from the kind's defaults.
+    colour: dict[str, float] | None = None
+
+    def colours(self) -> tuple[dict[str, float], str]:
+        """The colour indices used and where they come from: the file's, else the kind's defaults
+        (:data:`DEFAULT_COMET_COLOURS`, :data:`DEFAULT_ASTEROID_COLOURS`), key by key."""
+        default = DEFAULT_COMET_COLOURS if self.kind == "comet" else DEFAULT_ASTEROID_COLOURS
+        given = self.colour or {}
+        source = "solar (comet default)" if self.kind == "comet" else "C/S-type mean (asteroid default)"
+        if given:
+            source = "target file" if set(given) == set(COLOUR_KEYS) else f"target file, the rest {source}"
+        return {k: float(given.get(k, default[k])) for k in COLOUR_KEYS}, source
 
 
 def load_target(path: str | Path, object_name: str | None = None) -> Target:
@@ -121,12 +143,14 @@ def load_target(path: str | Path, object_name: str | None = None) -> Target:
 
 # --------------------------------------------------------------------------------------------- TOML
 
-_TOP_KEYS = {"name", "kind", "orbit", "brightness", "designation", "notes", "nongrav", "propagation"}
+_TOP_KEYS = {"name", "kind", "orbit", "brightness", "colour", "designation", "notes", "nongrav", "propagation"}
 _NONGRAV_KEYS = {"A1_au_per_day2", "A2_au_per_day2", "A3_au_per_day2"}
 _ORBIT_COMMON = {"epoch", "eccentricity", "inclination_deg", "ascending_node_deg", "arg_perihelion_deg"}
 _ORBIT_COMET = _ORBIT_COMMON | {"perihelion_time", "perihelion_dist_au"}
 _ORBIT_ASTEROID = _ORBIT_COMMON | {"semimajor_axis_au", "mean_anomaly_deg"}
-_BRIGHT_COMET = {"M1", "K1", "M2", "K2", "phase_coeff_mag_per_deg"}
+_BRIGHT_COMET = {"M1", "K1", "M2", "K2", "phase_coeff_mag_per_deg", "law_band"}
+#: Plausible ranges of the colour indices (Solar System bodies lie well inside them).
+_COLOUR_RANGE = {"B-V": (-0.5, 2.0), "V-R": (-0.5, 1.5), "R-I": (-0.5, 1.5)}
 _BRIGHT_ASTEROID = {"H", "G"}
 
 
@@ -172,6 +196,8 @@ def _load_toml(path: Path) -> Target:
         nf.check_known(_NONGRAV_KEYS)
         nongrav = NonGrav(*(nf.float(k, 0.0, lo=-1e-5, hi=1e-5) for k in sorted(_NONGRAV_KEYS)))
     propagation = f.str("propagation", "perturbed", choices=PROPAGATIONS)
+    cf = f.sub("colour")
+    colour = _colour_toml(cf) if cf is not None else None
     return Target(
         name=name,
         kind=kind,
@@ -180,7 +206,15 @@ def _load_toml(path: Path) -> Target:
         source=str(path),
         nongrav=nongrav,
         propagation=propagation,
+        colour=colour,
     )
+
+
+def _colour_toml(f: Fields) -> dict[str, float] | None:
+    """``[colour]``: any of B-V, V-R, R-I (Johnson–Cousins, Vega magnitudes)."""
+    f.check_known(COLOUR_KEYS)
+    out = {k: f.float(k, lo=lo, hi=hi) for k, (lo, hi) in _COLOUR_RANGE.items()}
+    return {k: v for k, v in out.items() if v is not None} or None
 
 
 def _from_mean_anomaly(
@@ -216,7 +250,8 @@ def _brightness_toml(f: Fields, kind: str) -> Brightness:
         if m2 is not None:
             k2 = 5.0 if k2 is None else k2  # a bare nucleus fades as r^-2 (K2 = 5), common practice
             beta = DEFAULT_PHASE_COEFF_MAG_PER_DEG if beta is None else beta
-        return Brightness(M1=m1, K1=k1, M2=m2, K2=k2, phase_coeff_mag_per_deg=beta)
+        band = f.str("law_band", "V", choices=LAW_BANDS)
+        return Brightness(M1=m1, K1=k1, M2=m2, K2=k2, phase_coeff_mag_per_deg=beta, law_band=band)
     f.check_known(_BRIGHT_ASTEROID)
     h = f.float("H", lo=-5.0, hi=35.0)
     g = f.float("G", lo=-0.5, hi=1.0)

@@ -124,12 +124,21 @@ def png_bytes(fig: Figure, dpi: int = 100) -> bytes:
     return buf.getvalue()
 
 
-def check_times_utc(check: dict, fallback: np.ndarray) -> np.ndarray:
-    """The observation times a check result was computed from (its ``input.times_utc``), else ``fallback``."""
-    listed = (check.get("input") or {}).get("times_utc")
-    if listed:
-        return np.array([str(t).rstrip("Z") for t in listed], dtype="datetime64[ns]")
-    return np.asarray(fallback, dtype="datetime64[ns]")
+def check_times_utc(check: dict, fallback: np.ndarray, *, emission: bool = False) -> np.ndarray:
+    """The observation times a check result was computed from (its ``input.times_utc``), else ``fallback``.
+
+    ``emission``: minus the light time the check subtracted (``input.light_time_minutes``), i.e. the
+    times its periods were computed on.
+    """
+    inp = check.get("input") or {}
+    listed = inp.get("times_utc")
+    if not listed:
+        return np.asarray(fallback, dtype="datetime64[ns]")
+    times = np.array([str(t).rstrip("Z") for t in listed], dtype="datetime64[ns]")
+    light = inp.get("light_time_minutes")
+    if emission and light and len(light) == times.size:
+        times = times - np.round(np.asarray(light, dtype=float) * 60e9).astype("int64").astype("timedelta64[ns]")
+    return times
 
 
 def phase_occupancy(times_utc: np.ndarray, periods_h: np.ndarray, n_bins: int) -> np.ndarray:

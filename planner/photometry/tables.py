@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from planner.core.bands import SUN_MAG_BY_BAND, band_of_filter
+from planner.core.bands import SOLAR_COLOURS, SUN_MAG_BY_BAND, band_of_filter, colour_term_mag
 from planner.inputs.settings import ExposureRules
 from planner.inputs.sites import Instrument, Site
 from planner.inputs.targets import Target
@@ -53,6 +53,8 @@ DEFAULT_RULES = ExposureRules()
 
 #: Columns added by :func:`photometry_columns`, in order.
 PHOTOMETRY_COLUMNS = (
+    "band",
+    "mag_band_pred",
     "sky_mag_arcsec2",
     "aperture_arcsec",
     "aperture_km",
@@ -100,11 +102,25 @@ def _source_kind(geom_df: pd.DataFrame, comet: bool | None, point_source: bool |
     return comet, point_source
 
 
+def band_mag(geom_df: pd.DataFrame, band: str, colours: dict[str, float] | None = None) -> np.ndarray:
+    """The predicted magnitude in ``band``: ``mag_pred`` (in the law's band, ``attrs["law_band"]``, V when
+    absent) plus the target's colour term between the two bands (:func:`planner.core.bands.colour_term_mag`).
+
+    Colours: ``colours`` when given, else ``attrs["colour_indices"]`` (set by ``geometry()`` from the
+    target), else the Sun's.
+    """
+    law_band = geom_df.attrs.get("law_band", "V")
+    if colours is None:
+        colours = geom_df.attrs.get("colour_indices") or SOLAR_COLOURS
+    return geom_df["mag_pred"].to_numpy(dtype=float) + colour_term_mag(law_band, band, colours)
+
+
 def photometry_columns(
     geom_df: pd.DataFrame,
     instrument: Instrument,
     rules: ExposureRules = DEFAULT_RULES,
     *,
+    colours: dict[str, float] | None = None,
     comet: bool | None = None,
     point_source: bool | None = None,
     mag_err_target: float | None = None,
@@ -123,6 +139,10 @@ def photometry_columns(
     ``motion_arcsec_per_min``, ``km_per_arcsec``; ``helio_dist_au`` and ``obs_dist_au`` for comets).
     Returns a new DataFrame with the same index holding :data:`PHOTOMETRY_COLUMNS` (plus
     ``afrho_cm`` when ``comet``); join it to the geometry.
+
+    Every prediction is made in the instrument's band: ``mag_band_pred`` is ``mag_pred`` (in the law's
+    band) plus the target's colour term (:func:`band_mag`; ``colours`` overrides the table's), and S/N,
+    exposure and Afρ use it, with the Sun's magnitude in the same band for Afρ.
 
     ``comet`` and ``point_source`` default from ``geom_df.attrs["mag_law"]`` (set by
     ``planner.sky.geometry.geometry``): a comet's total magnitude (M1, K1) is coma light, counted out
@@ -157,7 +177,8 @@ def photometry_columns(
     band = band_of_filter(inst.filter)
     col = {c: geom_df[c].to_numpy(dtype=float) for c in _GEOMETRY_NEEDS}
 
-    usable = (col["alt_deg"] > 0.0) & (col["sun_alt_deg"] <= max_sun_alt_deg) & np.isfinite(col["mag_pred"])
+    mag_band = band_mag(geom_df, band, colours)
+    usable = (col["alt_deg"] > 0.0) & (col["sun_alt_deg"] <= max_sun_alt_deg) & np.isfinite(mag_band)
     sky = sky_mag_arcsec2(
         inst.sky_mag_per_arcsec2,
         col["alt_deg"],
@@ -178,9 +199,9 @@ def photometry_columns(
     n_pix = aperture_pixels(ap_arcsec, inst.pixel_scale_arcsec)
     # Magnitude of the light inside the aperture.
     if point_source:
-        mag_in_aperture = col["mag_pred"] - 2.5 * np.log10(gaussian_enclosed_fraction(ap_arcsec, inst.seeing_arcsec))
+        mag_in_aperture = mag_band - 2.5 * np.log10(gaussian_enclosed_fraction(ap_arcsec, inst.seeing_arcsec))
     else:
-        mag_in_aperture = coma_aperture_mag(col["mag_pred"], ap_km, coma_radius_km)
+        mag_in_aperture = coma_aperture_mag(mag_band, ap_km, coma_radius_km)
     rate = source_rate_e_per_s(mag_in_aperture, inst.zero_point_mag, inst.extinction_mag_per_airmass, col["airmass"])
     sky_rate = sky_rate_e_per_s_pix(sky, inst.zero_point_mag, inst.pixel_scale_arcsec)
     noise = dict(
@@ -214,6 +235,8 @@ def photometry_columns(
 
     nan = np.nan
     out = pd.DataFrame(index=geom_df.index)
+    out["band"] = band
+    out["mag_band_pred"] = mag_band
     out["sky_mag_arcsec2"] = np.where(usable, sky, nan)
     out["aperture_arcsec"] = ap_arcsec
     out["aperture_km"] = ap_km
