@@ -390,7 +390,9 @@ def test_out_into_a_folder_or_under_a_file_is_one_line(tmp_path, capsys):
     (tmp_path / "afile").write_text("x")
     common = ["ephem", "--target", str(ORBITS), "--object", "qa1", "--start", "2034-06-10", "--stop", "2034-06-10"]
     code, _, err = call(capsys, *common, "--out", str(tmp_path))
-    assert code == 2 and err.strip() == f"error: {tmp_path}: out: is a folder; give a file name (e.g. a name inside it)"
+    assert (
+        code == 2 and err.strip() == f"error: {tmp_path}: --out: is a folder; give a file name (e.g. a name inside it)"
+    )
     code, _, err = call(capsys, *common, "--out", str(tmp_path / "afile" / "e.txt"))
     assert code == 2 and "a file of that name is in the way" in err and "Traceback" not in err
     assert (tmp_path / "afile").read_text() == "x"

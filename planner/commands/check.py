@@ -222,7 +222,7 @@ def register(app: typer.Typer) -> None:
         ] = None,
     ) -> None:
         """Coverage, alias and trend diagnostics for a list of observation times."""
-        from planner.core.fileio import write_text_atomic
+        from planner.core.fileio import check_writable, write_text_atomic
         from planner.diagnostics.check import check_times
         from planner.inputs.obslog import read_observation_log
 
@@ -231,6 +231,9 @@ def register(app: typer.Typer) -> None:
         p_min, p_max = _hours(min_period, "--min-period"), _hours(max_period, "--max-period")
         if p_max < p_min:
             raise InputError("command line", "--max-period", "is shorter than --min-period")
+        for dest, option in ((out, "--out"), (report, "--report"), (plot and plot / "check_coverage.png", "--plot")):
+            if dest is not None:
+                check_writable(dest, field=option)
         log = read_observation_log(times_csv)
         if log.times_utc.size == 0:
             raise InputError(str(times_csv), "status", f"no observed rows to check ({len(log.lost)} lost rows only)")

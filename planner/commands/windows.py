@@ -11,9 +11,9 @@ import pandas as pd
 import typer
 
 from planner.core.errors import InputError
-from planner.core.fileio import write_text_atomic
+from planner.core.fileio import check_writable, write_text_atomic
 from planner.core.safety import SUN_SAFETY_TEXT
-from planner.core.timegrid import iso_utc, parse_date, parse_duration_s
+from planner.core.timegrid import check_nights_in_span, iso_utc, parse_date, parse_duration_s
 from planner.inputs.settings import ExposureRules
 
 FORMATS = ("table", "csv", "json")
@@ -156,7 +156,10 @@ def register(app: typer.Typer) -> None:
         if fmt not in FORMATS:
             raise InputError("command line", "format", f"{fmt!r} is not one of {', '.join(FORMATS)}")
         first = parse_date(start, field="start")
+        check_nights_in_span(first, nights, "command line", "start")
         step_s = parse_duration_s(step, field="step")
+        if out is not None:
+            check_writable(out)
         sites = [load_site(p) for p in site]
         tgt = load_target(target, object_name)
         df = observable_windows(tgt, sites, first, nights, step_s=step_s)
