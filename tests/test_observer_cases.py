@@ -369,14 +369,14 @@ def test_check_notes_repeated_rows(tmp_path, capsys):
 
 
 def test_stacked_points_without_sigma_stay_unknown_quietly():
-    from planner.schedule.blocktable import binned_points
+    from planner.photometry.points import stack_frames
 
     t_ref = np.datetime64("2034-06-12T00:00:00", "ns")
     t = t_ref + (np.tile(np.arange(4), 2) * 60 + 30).astype("timedelta64[s]").astype("timedelta64[ns]")
     frames = pd.DataFrame({"time_utc": t, "site": ["A"] * 4 + ["B"] * 4, "mag_err": [0.02] * 4 + [np.nan] * 4})
     with warnings.catch_warnings():
         warnings.simplefilter("error")  # no divide-by-zero warning on the terminal
-        points = binned_points(frames, t_ref, 300.0)
+        points = stack_frames(frames, 300.0, t_ref)
     by_site = points.set_index("site")
     # Four frames of σ 0.02 mag averaged: σ/√4 = 0.01 mag (standard error of a mean, common practice).
     assert by_site.loc["A", "mag_err"] == pytest.approx(0.01)

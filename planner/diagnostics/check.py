@@ -14,6 +14,7 @@ import math
 from collections.abc import Callable
 
 import numpy as np
+import pandas as pd
 
 from planner.core.safety import DEFAULT_MIN_SOLAR_ELONG_DEG, SUN_SAFETY_TEXT, near_sun, sun_caution_limit_deg
 from planner.core.timegrid import iso_utc, to_jd_utc
@@ -42,6 +43,7 @@ from planner.diagnostics.verdicts import (
     repeated_times,
     worst_covered,
 )
+from planner.photometry.points import SLOT_EPOCH, light_curve_points
 
 
 def _partners(freq_per_day: float, peaks_f: np.ndarray, peaks_h: np.ndarray, s: CheckSettings) -> list[dict]:
@@ -53,6 +55,31 @@ def _partners(freq_per_day: float, peaks_f: np.ndarray, peaks_h: np.ndarray, s: 
         max_period_h=s.max_period_h,
         double_peaked=s.double_peaked,
     )
+
+
+def _stack(
+    times_utc: np.ndarray,
+    mag_err: np.ndarray | float,
+    sites: np.ndarray | None,
+    airmass: np.ndarray | None,
+    stack_s: float,
+    sys_err_mag_per_airmass: float,
+    stack_ref_utc: np.datetime64,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+    """Frames → light-curve points (times, σ, sites) by :func:`planner.photometry.points.light_curve_points`."""
+    times = np.asarray(times_utc, dtype="datetime64[ns]")
+    n = times.size
+    frames = pd.DataFrame(
+        {
+            "time_utc": times,
+            "site": np.full(n, "", dtype=object) if sites is None else np.asarray(sites, dtype=object),
+            "mag_err": np.broadcast_to(np.asarray(mag_err, dtype=float), (n,)),
+            "airmass": np.full(n, np.nan) if airmass is None else np.asarray(airmass, dtype=float),
+        }
+    )
+    points = light_curve_points(frames, stack_s, sys_err_mag_per_airmass, stack_ref_utc)
+    site_out = None if sites is None else points["site"].to_numpy(dtype=object)
+    return points["time_utc"].to_numpy("datetime64[ns]"), points["mag_err"].to_numpy(dtype=float), site_out
 
 
 def check_times(
@@ -81,6 +108,10 @@ def check_times(
     n_candidates: int = 16,
     n_bands: int = 10,
     progress: Callable[[float], None] | None = None,
+    stack_s: float | None = None,
+    sys_err_mag_per_airmass: float = 0.0,
+    airmass: np.ndarray | None = None,
+    stack_ref_utc: np.datetime64 = SLOT_EPOCH,
 ) -> CheckResult:
     """Coverage, alias, recovery and sensitivity diagnostics for a list of observation times.
 
@@ -94,9 +125,23 @@ def check_times(
     caution note.
     The period range is cut into ``n_bands`` log-spaced bands, each with a verdict; injected
     periods are shared out evenly over the same bands.
+
+    With ``stack_s``, the times are frames: the frames of one site inside one ``stack_s`` slot
+    (counted from ``stack_ref_utc``) become one light-curve point, whose σ adds
+    ``sys_err_mag_per_airmass`` × the frames' mean ``airmass`` (where given) in quadrature
+    (:func:`planner.photometry.points.light_curve_points`, the plan's error model); frames with a
+    NaN σ take the median of the points. Give ``target`` rather than ``geometry`` then.
     """
     if not (0 < min_period_h <= max_period_h):
         raise ValueError("need 0 < min_period_h <= max_period_h")
+    n_repeated = repeated_times(np.asarray(times_utc, dtype="datetime64[ns]"), sites)
+    n_frames = int(np.size(times_utc))
+    if stack_s is not None:
+        if geometry is not None:
+            raise ValueError("stacked frames need the target, not a geometry at the frames' times")
+        times_utc, mag_err, sites = _stack(
+            times_utc, mag_err, sites, airmass, stack_s, sys_err_mag_per_airmass, stack_ref_utc
+        )
     order = np.argsort(np.asarray(times_utc, dtype="datetime64[ns]"), kind="stable")
     times = np.asarray(times_utc, dtype="datetime64[ns]")[order]
     t = to_jd_utc(times)
@@ -122,6 +167,8 @@ def check_times(
         alias_threshold=alias_threshold,
         recovery_threshold=recovery_threshold,
         window_max_freq_per_day=window_max_freq_per_day,
+        stack_s=stack_s,
+        sys_err_mag_per_airmass=sys_err_mag_per_airmass if stack_s is not None else 0.0,
     )
     notes: list[str] = []
     if geometry is None and target is not None:
@@ -348,7 +395,6 @@ def check_times(
             )
     if n and span_h < max_period_h:
         notes.append(f"the span ({span_h:.1f} h) is shorter than the longest period searched")
-    n_repeated = repeated_times(times, site_arr)
     if n_repeated:
         notes.append(
             f"{n_repeated} time(s) repeat an earlier row at the same site and instant: each counts as a "
@@ -378,4 +424,5 @@ def check_times(
         period_change=period_change,
         synodic=synodic,
         notes=notes,
+        n_frames=n_frames,
     )

@@ -32,6 +32,10 @@ class CheckSettings:
     recovery_threshold: float = 0.9
     window_max_freq_per_day: float = 5.0
     n_sigma: float = 3.0
+    #: Frames of one site inside one slot of this length are one light-curve point (None: no stacking).
+    stack_s: float | None = None
+    #: Extinction error per airmass added to each point's σ (planner.photometry.points).
+    sys_err_mag_per_airmass: float = 0.0
 
 
 @dataclass
@@ -61,6 +65,8 @@ class CheckResult:
     period_change: list[dict]
     synodic: dict | None = None
     notes: list[str] = field(default_factory=list)
+    #: Frames the points were stacked from (None: the times are the points themselves).
+    n_frames: int | None = None
 
     @property
     def span_h(self) -> float:
@@ -76,6 +82,7 @@ class CheckResult:
             {
                 "input": {
                     "n_times": int(self.times_jd.size),
+                    "n_frames": int(self.times_jd.size) if self.n_frames is None else self.n_frames,
                     "first_utc": iso_utc(self.times_utc[:1], seconds=True)[0] if self.times_jd.size else None,
                     "last_utc": iso_utc(self.times_utc[-1:], seconds=True)[0] if self.times_jd.size else None,
                     "span_h": self.span_h,
@@ -98,6 +105,8 @@ class CheckResult:
                     "alias_threshold": s.alias_threshold,
                     "recovery_threshold": s.recovery_threshold,
                     "n_sigma": s.n_sigma,
+                    "stack_s": s.stack_s,
+                    "sys_err_mag_per_airmass": s.sys_err_mag_per_airmass,
                 },
                 "periods_h": self.periods_h,
                 "coverage": self.coverage,

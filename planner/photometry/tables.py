@@ -4,7 +4,8 @@ Table entry points over the kernels of :mod:`planner.photometry.skybright` (Kris
 1991), :mod:`planner.photometry.ccd` (Merline & Howell 1995) and :mod:`planner.photometry.coma`
 (A'Hearn et al. 1984): :func:`photometry_columns` (one site's geometry table),
 :func:`add_photometry` (a whole ``geometry()`` result), :func:`window_photometry` (observing
-windows), :func:`mag_err_for_times` and :func:`log_mag_err` (per-point σ for the diagnostics).
+windows), :func:`frame_model`, :func:`mag_err_for_times`, :func:`log_frame_model` and
+:func:`log_mag_err` (per-point σ and airmass for the diagnostics).
 Twilight is not modelled: rows with the Sun above ``max_sun_alt_deg`` (default −12°) get no
 prediction.
 """
@@ -302,22 +303,21 @@ def mag_err_from_geometry(
     return table["mag_err_pred"].to_numpy(dtype=float)
 
 
-def mag_err_for_times(
+def frame_model(
     target: Target,
     times_utc: np.ndarray,
     site_names: Sequence[str] | None,
     sites: Sequence[Site],
     *,
     exposure_s: np.ndarray | None = None,
-    fallback_mag_err: float | None = None,
     **kwargs: Any,
-) -> np.ndarray:
-    """Modelled photometric error (mag) of each observation time, for injection–recovery.
+) -> tuple[np.ndarray, np.ndarray]:
+    """Modelled photometric error (mag) and airmass of each observation time (NaN where unknown).
 
     ``site_names[i]`` names the site of ``times_utc[i]`` (None: all at the one site given);
     ``exposure_s`` (optional, per point, NaN where unknown) takes logged exposures instead of the
-    planned ones. Points at a site without an instrument or unknown to ``sites``, or with no
-    prediction (target down, Sun up), get ``fallback_mag_err`` (NaN if None). Geometry from
+    planned ones. The airmass is known at every site of ``sites``; the error only at sites with an
+    instrument, where the target is up and the Sun down. Geometry from
     ``planner.sky.geometry.geometry``; the other keywords go to :func:`photometry_columns`.
     """
     times = np.asarray(times_utc, dtype="datetime64[ns]")
@@ -329,21 +329,79 @@ def mag_err_for_times(
     if names.shape != times.shape:
         raise ValueError(f"{names.size} site names for {times.size} times")
     exp = None if exposure_s is None else np.broadcast_to(np.asarray(exposure_s, dtype=float), times.shape)
-    out = np.full(times.shape, np.nan)
+    err = np.full(times.shape, np.nan)
+    airmass = np.full(times.shape, np.nan)
     by_name = {s.name: s for s in sites}
     for name in dict.fromkeys(names.tolist()):  # loop over sites, never over epochs
         site = by_name.get(name)
-        if site is None or site.instrument is None:
+        if site is None:
             continue
         idx = np.flatnonzero(names == name)
         geom = geometry(target, times[idx], [site])[site.name]
+        airmass[idx] = geom["airmass"].to_numpy(dtype=float)
+        if site.instrument is None:
+            continue
         extra = dict(kwargs)
         if exp is not None:
             extra["exposure_s"] = exp[idx]
-        out[idx] = mag_err_from_geometry(geom, site.instrument, **extra)
+        err[idx] = mag_err_from_geometry(geom, site.instrument, **extra)
+    return err, airmass
+
+
+def mag_err_for_times(
+    target: Target,
+    times_utc: np.ndarray,
+    site_names: Sequence[str] | None,
+    sites: Sequence[Site],
+    *,
+    exposure_s: np.ndarray | None = None,
+    fallback_mag_err: float | None = None,
+    **kwargs: Any,
+) -> np.ndarray:
+    """Modelled photometric error (mag) of each observation time (:func:`frame_model`), for
+    injection–recovery. Points at a site without an instrument or unknown to ``sites``, or with no
+    prediction (target down, Sun up), get ``fallback_mag_err`` (NaN if None).
+    """
+    out = frame_model(target, times_utc, site_names, sites, exposure_s=exposure_s, **kwargs)[0]
     if fallback_mag_err is not None:
         out = np.where(np.isfinite(out), out, float(fallback_mag_err))
     return out
+
+
+def log_frame_model(
+    target: Target | None,
+    times_utc: np.ndarray,
+    site_names: Sequence[str] | None,
+    sites: Sequence[Site],
+    *,
+    logged_mag_err: np.ndarray | None,
+    exposure_s: np.ndarray | None,
+    fallback_mag_err: float,
+    **kwargs: Any,
+) -> tuple[np.ndarray, np.ndarray, dict[str, int]]:
+    """Photometric σ (mag) of each logged point, where each came from, and its airmass (NaN unknown).
+
+    Priority for σ: the log's own ``mag_err``; else the model of the site's instrument (needs the
+    target and an instrumented site, :func:`frame_model`); else ``fallback_mag_err``. Returns the σ
+    array, the airmass array and the counts ``{"log": n, "model": n, "fallback": n}``.
+    """
+    times = np.asarray(times_utc, dtype="datetime64[ns]")
+    err = np.full(times.shape, np.nan)
+    if logged_mag_err is not None:
+        err = np.asarray(logged_mag_err, dtype=float).copy()
+    from_log = np.isfinite(err)
+    model = np.full(times.shape, np.nan)
+    airmass = np.full(times.shape, np.nan)
+    if target is not None and sites:
+        model, airmass = frame_model(target, times, site_names, sites, exposure_s=exposure_s, **kwargs)
+    from_model = ~from_log & np.isfinite(model)
+    err = np.where(from_log, err, np.where(from_model, model, float(fallback_mag_err)))
+    counts = {
+        "log": int(from_log.sum()),
+        "model": int(from_model.sum()),
+        "fallback": int((~from_log & ~from_model).sum()),
+    }
+    return err, airmass, counts
 
 
 def log_mag_err(
@@ -357,25 +415,16 @@ def log_mag_err(
     fallback_mag_err: float,
     **kwargs: Any,
 ) -> tuple[np.ndarray, dict[str, int]]:
-    """Photometric σ (mag) of each logged point and where each came from.
-
-    Priority: the log's own ``mag_err``; else the model of the site's instrument (needs the target
-    and an instrumented site, :func:`mag_err_for_times`); else ``fallback_mag_err``. Returns the
-    σ array and the counts ``{"log": n, "model": n, "fallback": n}``.
-    """
-    times = np.asarray(times_utc, dtype="datetime64[ns]")
-    err = np.full(times.shape, np.nan)
-    if logged_mag_err is not None:
-        err = np.asarray(logged_mag_err, dtype=float).copy()
-    from_log = np.isfinite(err)
-    model = np.full(times.shape, np.nan)
-    if target is not None and sites and not from_log.all():
-        model = mag_err_for_times(target, times, site_names, sites, exposure_s=exposure_s, **kwargs)
-    from_model = ~from_log & np.isfinite(model)
-    err = np.where(from_log, err, np.where(from_model, model, float(fallback_mag_err)))
-    counts = {
-        "log": int(from_log.sum()),
-        "model": int(from_model.sum()),
-        "fallback": int((~from_log & ~from_model).sum()),
-    }
+    """Photometric σ (mag) of each logged point and where each came from (:func:`log_frame_model`
+    without the airmass)."""
+    err, _, counts = log_frame_model(
+        target,
+        times_utc,
+        site_names,
+        sites,
+        logged_mag_err=logged_mag_err,
+        exposure_s=exposure_s,
+        fallback_mag_err=fallback_mag_err,
+        **kwargs,
+    )
     return err, counts

@@ -1,5 +1,6 @@
 """Visits → the observer's block table: times, pointing, tracking rates, altitude/airmass ranges,
-exposure plan and expected S/N; plus the mid-exposure times the diagnostics are run on.
+exposure plan and expected S/N; plus the planned exposures (mid-exposure times, σ and airmass) that
+the diagnostics stack into light-curve points (:mod:`planner.photometry.points`).
 
 Geometry comes from ``planner.sky.geometry.geometry`` sampled at every slot boundary inside each
 visit (one call per site, all its visits together); exposure and S/N from
@@ -193,46 +194,3 @@ def block_table(
     table = table[list(BLOCK_COLUMNS)]
     exp = pd.concat(exposures, ignore_index=True) if exposures else _empty()[1]
     return table, exp.sort_values("time_utc", kind="stable").reset_index(drop=True)
-
-
-def binned_points(exposures: pd.DataFrame, t_ref: np.datetime64, bin_s: float) -> pd.DataFrame:
-    """Consecutive exposures of one site combined per ``bin_s`` slot: mean time, error / √n (and the
-    mean airmass when the exposures carry one). A slot whose frames have no σ (a site without an
-    instrument) gets NaN; the diagnostics give such points the median σ.
-
-    Light-curve points of a slowly rotating body are commonly stacks of consecutive frames
-    (common practice); the diagnostics run on these points, which keeps them fast without
-    changing the sampling pattern at the slot scale.
-    """
-    if exposures.empty:
-        return exposures.copy()
-    t = exposures["time_utc"].to_numpy("datetime64[ns]")
-    ns = (t - np.datetime64(t_ref, "ns")).astype(np.int64)
-    key = ns // np.int64(round(bin_s * 1e9))
-    df = pd.DataFrame(
-        {
-            "site": exposures["site"].to_numpy(),
-            "key": key,
-            "ns": ns,
-            "w": 1.0 / np.square(exposures["mag_err"].to_numpy(dtype=float)),
-        }
-    )
-    if "airmass" in exposures:
-        df["airmass"] = exposures["airmass"].to_numpy(dtype=float)
-    g = df.groupby(["site", "key"], sort=False)
-    mean_ns = g["ns"].mean().round().astype(np.int64)
-    w = g["w"].sum(min_count=1).to_numpy(dtype=float)  # NaN where no frame has a σ (site without instrument)
-    err = np.full(w.shape, np.nan)
-    known = np.isfinite(w) & (w > 0)
-    err[known] = 1.0 / np.sqrt(w[known])
-    out = pd.DataFrame(
-        {
-            "time_utc": np.datetime64(t_ref, "ns") + mean_ns.to_numpy().astype("timedelta64[ns]"),
-            "site": [s for s, _ in mean_ns.index],
-            "mag_err": err,
-            "n_frames": g.size().to_numpy(),
-        }
-    )
-    if "airmass" in df:
-        out["airmass"] = g["airmass"].mean().to_numpy()
-    return out.sort_values("time_utc", kind="stable").reset_index(drop=True)
