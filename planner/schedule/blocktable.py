@@ -1,5 +1,6 @@
 """Visits → the observer's block table: times, pointing, tracking rates, altitude/airmass ranges,
-exposure plan and expected S/N; plus the planned exposures (mid-exposure times, σ and airmass) that
+exposure plan and expected S/N, positions at science start, mid-block and end (astrometric ICRF and
+apparent of date); plus the planned exposures (mid-exposure times, σ and airmass) that
 the diagnostics stack into light-curve points (:mod:`planner.photometry.points`).
 
 Geometry comes from ``planner.sky.geometry.geometry`` sampled at every slot boundary inside each
@@ -39,6 +40,16 @@ BLOCK_COLUMNS = (
     "exposure_limited_by",
     "ra_deg",
     "dec_deg",
+    "ra_app_deg",
+    "dec_app_deg",
+    "start_ra_deg",
+    "start_dec_deg",
+    "start_ra_app_deg",
+    "start_dec_app_deg",
+    "end_ra_deg",
+    "end_dec_deg",
+    "end_ra_app_deg",
+    "end_dec_app_deg",
     "motion_arcsec_per_min",
     "motion_pa_deg",
     "ra_rate_arcsec_per_min",
@@ -66,6 +77,15 @@ def _empty() -> tuple[pd.DataFrame, pd.DataFrame]:
         pd.DataFrame({c: [] for c in BLOCK_COLUMNS}),
         pd.DataFrame({"time_utc": np.array([], dtype="datetime64[ns]"), "site": [], "mag_err": [], "airmass": []}),
     )
+
+
+def _positions(mid: pd.Series, sci: pd.Series, end: pd.Series) -> dict[str, float]:
+    """Apparent place of date at mid-block, and both places at science start and at the block's end."""
+    out = {"ra_app_deg": float(mid["ra_app_deg"]), "dec_app_deg": float(mid["dec_app_deg"])}
+    for prefix, row in (("start_", sci), ("end_", end)):
+        for col in ("ra_deg", "dec_deg", "ra_app_deg", "dec_app_deg"):
+            out[prefix + col] = float(row[col])
+    return out
 
 
 def block_table(
@@ -98,6 +118,9 @@ def block_table(
         samples = geo.iloc[: t_samples.size].reset_index(drop=True)
         mid = geo.iloc[t_samples.size :].reset_index(drop=True)
         which = np.repeat(np.arange(len(mine)), counts)
+        first = np.cumsum(counts) - counts  # each visit's first sample: its start; + setup: science start
+        at_sci = samples.iloc[first + grid.setup_slots].reset_index(drop=True)
+        at_end = samples.iloc[first + lengths].reset_index(drop=True)
         agg = (
             samples.assign(_b=which)
             .groupby("_b")
@@ -152,6 +175,7 @@ def block_table(
                     exposure_limited_by=str(limited[k]),
                     ra_deg=float(m["ra_deg"]),
                     dec_deg=float(m["dec_deg"]),
+                    **_positions(m, at_sci.iloc[k], at_end.iloc[k]),
                     motion_arcsec_per_min=float(m["motion_arcsec_per_min"]),
                     motion_pa_deg=float(m["motion_pa_deg"]),
                     ra_rate_arcsec_per_min=float(m["ra_rate_arcsec_per_min"]),
