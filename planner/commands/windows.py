@@ -12,7 +12,7 @@ import typer
 
 from planner.core.errors import InputError
 from planner.core.fileio import check_writable, write_text_atomic
-from planner.core.safety import SUN_SAFETY_TEXT
+from planner.core.safety import SUN_CAUTION_MARGIN_DEG, SUN_SAFETY_TEXT, TWILIGHT_CAUTION_SUN_ALT_DEG
 from planner.core.timegrid import check_nights_in_span, iso_utc, parse_date, parse_duration_s
 from planner.inputs.settings import ExposureRules
 
@@ -111,8 +111,9 @@ def render_table(df: pd.DataFrame, sites) -> str:
             )
         if flagged:
             lines.append(
-                "  ! opens or closes in twilight, or the Sun is within 10° of the site's elongation limit: "
-                "keep clear of the Sun's side of the sky. " + SUN_SAFETY_TEXT
+                f"  ! opens or closes in twilight with the Sun above {TWILIGHT_CAUTION_SUN_ALT_DEG:g}°, or the Sun is "
+                f"within {SUN_CAUTION_MARGIN_DEG:g}° of the site's elongation limit: keep clear of the Sun's side "
+                "of the sky. " + SUN_SAFETY_TEXT
             )
         lines.append("")
     lines.append(
