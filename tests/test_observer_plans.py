@@ -12,12 +12,14 @@ import numpy as np
 import pandas as pd
 import pytest
 from clirun import run_cli
-from schedule_helpers import model_for
+from schedule_helpers import T_REF, model_for
 
-from planner.inputs.sites import load_site
+from planner.inputs.settings import BlockRules
+from planner.inputs.sites import Site, load_site
 from planner.inputs.targets import load_target
 from planner.schedule.localsearch import fits, separate_close_visits
 from planner.schedule.optimise import optimise
+from planner.schedule.slots import build_slots
 from planner.schedule.state import Visit
 from planner.sky.geometry import geometry
 
@@ -62,14 +64,35 @@ def test_close_visits_are_merged_when_they_may_be_and_set_apart_when_not():
     g = model.grid
     lo = g.site_nights[0].intervals[0][0]
     # 2 h and 1.5 h, 5 min apart: one 3.58 h visit (one set-up) is within the 4 h limit.
-    merged = separate_close_visits(g, [Visit(0, lo, 24), Visit(0, lo + 25, 18)])
-    assert merged == [Visit(0, lo, 43)]
-    # 3 h and 3 h, 5 min apart: 6 h is over the limit, so the later one starts a full hour later.
-    apart = separate_close_visits(g, [Visit(0, lo, 36), Visit(0, lo + 37, 36)])
-    assert apart == [Visit(0, lo, 36), Visit(0, lo + 36 + g.min_gap_slots, 36 - g.min_gap_slots + 1)]
+    assert separate_close_visits(g, [Visit(0, lo, 24), Visit(0, lo + 25, 18)]) == [Visit(0, lo, 43)]
+    # 3 h and 3 h, 5 min apart: 6 h is over the limit, so one visit as long as the limit allows.
+    assert separate_close_visits(g, [Visit(0, lo, 36), Visit(0, lo + 37, 36)]) == [Visit(0, lo, g.max_slots)]
     # Already an hour apart: untouched.
     kept = [Visit(0, lo, 36), Visit(0, lo + 48, 36)]
     assert separate_close_visits(g, kept) == kept
+
+
+def test_close_visits_across_an_unusable_pause_are_set_a_full_gap_apart():
+    # The night's window is broken for 20 minutes (e.g. a tree in the horizon mask): the pause cannot
+    # be observed, so the later visit starts an hour after the first ends.
+    t0 = np.datetime64("2034-03-16T20:00", "ns")
+    minutes = [(0, 180), (200, 420)]
+    w = pd.DataFrame(
+        [
+            dict(
+                site="S0",
+                night="2034-03-16",
+                start_utc=t0 + np.timedelta64(a, "m"),
+                end_utc=t0 + np.timedelta64(b, "m"),
+            )
+            for a, b in minutes
+        ]
+    )
+    blocks = BlockRules(slot_minutes=5, min_block_h=1.0, max_block_h=4.0, setup_minutes=10, max_per_night=2)
+    g = build_slots(w, [Site(name="S0", latitude_deg=-30.0, longitude_deg=0.0)], blocks, T_REF)
+    (a0, a1), (b0, b1) = g.site_nights[0].intervals
+    first, second = Visit(0, a0, a1 - a0), Visit(0, b0, b1 - b0)
+    assert separate_close_visits(g, [first, second]) == [first, Visit(0, a1 + 12, b1 - a1 - 12)]
 
 
 # --- apparent places of date, checked through ERFA ----------------------------------------------------

@@ -65,10 +65,11 @@ def fits(grid: SlotGrid, visits: list[Visit], new: Visit, ignore: Visit | None =
 def separate_close_visits(grid: SlotGrid, visits: list[Visit]) -> list[Visit]:
     """Visits of one site-night closer than ``grid.min_gap_slots`` (the greedy leaves them: its elements
     merge only when they touch) become one visit, the pause filled, when the rules allow it (a
-    merged visit's science slots hold both visits', so coverage can only grow); else the later one
-    starts, or the earlier one ends, a full gap away; else the shorter one goes. Only the last two
-    can leave the greedy's schedule below the value of its elements (the greedy's bound is about
-    those); the local search starts from the result either way."""
+    merged visit's science slots hold both visits', so coverage can only grow), or cut as little as
+    the length and hour rules ask; else the later one starts, or the earlier one ends, a full gap
+    away; else the shorter one goes. All but the first can leave the greedy's schedule below the
+    value of its elements (the greedy's bound is about those); the local search starts from the
+    result either way."""
     out = sorted(visits, key=lambda v: (v.site_night, v.start))
     i = 0
     while i + 1 < len(out):
@@ -78,8 +79,9 @@ def separate_close_visits(grid: SlotGrid, visits: list[Visit]) -> list[Visit]:
             continue
         rest = out[:i] + out[i + 2 :]
         gap = grid.min_gap_slots
+        span = max(a.stop, b.stop) - a.start
         options = [
-            [Visit(a.site_night, a.start, max(a.stop, b.stop) - a.start)],
+            *([Visit(a.site_night, a.start, n)] for n in range(span, a.length, -1)),
             [a, Visit(b.site_night, a.stop + gap, b.stop - a.stop - gap)],
             [Visit(a.site_night, a.start, b.start - gap - a.start), b],
             [max(a, b, key=lambda v: (v.length, -v.start))],
