@@ -9,9 +9,26 @@ from __future__ import annotations
 
 import sys
 
-import typer
 
-from planner.core.errors import InputError
+def _quiet_interrupt(exc_type, exc, tb, _previous=sys.excepthook) -> None:
+    """Ctrl-C that escapes everything (e.g. while Python is still importing) ends without a traceback;
+    Python then exits with the status of SIGINT (130)."""
+    if not issubclass(exc_type, KeyboardInterrupt):
+        _previous(exc_type, exc, tb)
+
+
+sys.excepthook = _quiet_interrupt  # first, before the imports below take their time
+
+import signal  # noqa: E402
+
+import typer  # noqa: E402
+
+from planner.core.errors import InputError  # noqa: E402
+from planner.core.fileio import Terminated  # noqa: E402
+
+#: Exit statuses after a signal, as shells report them (128 + signal number).
+EXIT_SIGINT = 130
+EXIT_SIGTERM = 143
 
 app = typer.Typer(
     name="phasewise",
@@ -63,8 +80,35 @@ def _usage_line(exc) -> str:
     return f"error: command line: {field}: {message}{hint}"
 
 
+def _on_signal(signum, frame) -> None:
+    """SIGINT and SIGTERM become exceptions, so every clean-up (temporary ``.part`` files and folders) runs;
+    later signals are ignored until the process has exited."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, signal.SIG_IGN)
+    raise KeyboardInterrupt if signum == signal.SIGINT else Terminated()
+
+
 def main(argv: list[str] | None = None) -> None:
-    """Console entry point: every bad input, on the command line or in a file, is one line and exit 2."""
+    """Console entry point: every bad input, on the command line or in a file, is one line and exit 2;
+    Ctrl-C ends quietly with status 130 and SIGTERM with 143, leaving no temporary file behind."""
+    previous = {}
+    try:
+        for sig in (signal.SIGINT, signal.SIGTERM):
+            previous[sig] = signal.signal(sig, _on_signal)
+    except ValueError:  # not the main thread: signals stay as they are
+        pass
+    try:
+        _run(argv)
+    except KeyboardInterrupt:
+        sys.exit(EXIT_SIGINT)
+    except Terminated:
+        sys.exit(EXIT_SIGTERM)
+    finally:
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)
+
+
+def _run(argv: list[str] | None) -> None:
     _register_commands()
     ce = _click_exceptions()
     try:

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from planner.core.errors import InputError
-from planner.core.fileio import write_text_atomic
+from planner.core.fileio import check_writable, write_text_atomic
 from planner.inputs.campaign import load_campaign
 from planner.outputs.layout import REPORT_HTML
 from planner.outputs.planfolder import write_plan_folder
@@ -36,8 +36,7 @@ class DemoResult:
 
 def check_demo_folder(out_dir: Path) -> None:
     """Refuse a folder that holds anything not made by the demo: the demo never clobbers other work."""
-    if out_dir.exists() and not out_dir.is_dir():
-        raise InputError(str(out_dir), "--out", "exists and is not a folder")
+    check_writable(out_dir, folder=True)
     if out_dir.is_dir() and any(out_dir.iterdir()) and not (out_dir / DEMO_MARKER).is_file():
         raise InputError(
             str(out_dir), "--out", "folder is not empty and was not made by `phasewise demo`; choose another --out"

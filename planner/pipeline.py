@@ -6,8 +6,8 @@
    (:func:`planner.schedule.quality.slot_precision`);
 3. blocks: the observer's block rows and planned exposures (:mod:`planner.schedule.blocktable`),
    and a geometry sample for the report;
-4. diagnostics: ``check_times`` on the light-curve points of plan and baseline (one error model:
-   frames stacked per slot, plus the per-airmass systematic term);
+4. diagnostics: ``check_times`` on the light-curve points of plan and baseline (one error model,
+   :mod:`planner.photometry.points`: frames stacked per slot, plus the per-airmass systematic term);
 5. the plan-versus-baseline comparison.
 
 No file is read or written here: the command shell loads the inputs and :mod:`planner.outputs`
@@ -28,8 +28,10 @@ from planner.diagnostics.result import CheckResult
 from planner.inputs.campaign import Campaign
 from planner.inputs.donelog import DoneLog
 from planner.inputs.targets import Target
-from planner.schedule.blocktable import binned_points, block_table
-from planner.schedule.quality import point_sigma_mag, slot_precision
+from planner.photometry.frames import log_frame_model
+from planner.photometry.points import SLOT_EPOCH
+from planner.schedule.blocktable import block_table
+from planner.schedule.quality import slot_precision
 from planner.schedule.robustness import Robustness
 from planner.schedule.slots import SlotGrid
 from planner.schedule.solve import ObjectiveSummary, schedule_core, t_ref_for
@@ -144,34 +146,48 @@ def geometry_sample(target: Target, sites, grid: SlotGrid, nights: int | None = 
     return pd.concat(out, ignore_index=True)
 
 
-def diagnose_points(
-    campaign: Campaign, target: Target, points: pd.DataFrame, done: DoneLog | None, trials: int
-) -> CheckResult:
-    """``check_times`` on light-curve points (one per slot: frames stacked) plus anything already done.
+def done_frames(campaign: Campaign, target: Target, done: DoneLog | None) -> pd.DataFrame:
+    """The frames of a done log with σ and airmass from the same model as ``phasewise check``
+    (:func:`planner.photometry.frames.log_frame_model`: the log's σ, else the site's instrument)."""
+    if done is None or not done.times_utc.size:
+        return pd.DataFrame({"time_utc": np.array([], "datetime64[ns]"), "site": [], "mag_err": [], "airmass": []})
+    err, airmass, _ = log_frame_model(
+        target,
+        done.times_utc,
+        done.site,
+        campaign.sites,
+        logged_mag_err=done.mag_err,
+        exposure_s=done.exposure_s,
+        fallback_mag_err=np.nan,
+        rules=campaign.photometry,
+    )
+    return pd.DataFrame({"time_utc": done.times_utc, "site": done.site, "mag_err": err, "airmass": airmass})
 
-    Each point's σ is its stacked photometric error with the per-airmass systematic term
-    (:func:`planner.schedule.quality.point_sigma_mag`), the error model the optimiser used.
+
+def diagnose_points(
+    campaign: Campaign,
+    target: Target,
+    frames: pd.DataFrame,
+    trials: int,
+    t_ref: np.datetime64 = SLOT_EPOCH,
+) -> CheckResult:
+    """``check_times`` on the light-curve points of ``frames`` (planned exposures, and any done).
+
+    The frames of one site are stacked per campaign slot (counted from ``t_ref``) and each point's σ
+    gets the per-airmass systematic term: :func:`planner.photometry.points.light_curve_points`, the
+    error model the optimiser scored slots with and the one ``phasewise check`` uses on a log.
     """
-    times = points["time_utc"].to_numpy("datetime64[ns]")
-    err = points["mag_err"].to_numpy(dtype=float)
-    if "airmass" in points:
-        err = point_sigma_mag(
-            err, 1, points["airmass"].to_numpy(dtype=float), campaign.photometry.sys_err_mag_per_airmass
-        )
-    site = points["site"].to_numpy(dtype=object)
-    if done is not None and done.times_utc.size:
-        times = np.concatenate([done.times_utc, times])
-        err = np.concatenate([done.mag_err, err])
-        site = np.concatenate([done.site, site])
-    fallback = float(np.nanmedian(err)) if np.isfinite(err).any() else 0.02
-    err = np.where(np.isfinite(err) & (err > 0), err, fallback)
     rot = campaign.rotation
     return check_times(
-        times,
+        frames["time_utc"].to_numpy("datetime64[ns]"),
         min_period_h=rot.min_period_h,
         max_period_h=rot.max_period_h,
-        mag_err=err,
-        sites=site,
+        mag_err=frames["mag_err"].to_numpy(dtype=float),
+        sites=frames["site"].to_numpy(dtype=object),
+        airmass=frames["airmass"].to_numpy(dtype=float),
+        stack_s=campaign.block_rules.slot_s,
+        sys_err_mag_per_airmass=campaign.photometry.sys_err_mag_per_airmass,
+        stack_ref_utc=t_ref,
         target=target,
         trials=trials,
         seed=campaign.seed,
@@ -240,12 +256,10 @@ def plan_campaign(
     timings["blocks_and_geometry"] = time.perf_counter() - t
     t = time.perf_counter()
     trials = campaign.check_trials if check_trials is None else check_trials
-    bin_s = campaign.block_rules.slot_s
+    logged = done_frames(campaign, target, done)
     checks = {
-        "plan": diagnose_points(campaign, target, binned_points(exposures, core.grid.t_ref, bin_s), done, trials),
-        "baseline": diagnose_points(
-            campaign, target, binned_points(base_exposures, core.grid.t_ref, bin_s), done, trials
-        ),
+        name: diagnose_points(campaign, target, pd.concat([logged, frames], ignore_index=True), trials, core.grid.t_ref)
+        for name, frames in (("plan", exposures), ("baseline", base_exposures))
     }
     timings["diagnostics"] = time.perf_counter() - t
     replan = None

@@ -158,7 +158,7 @@ def test_site_instruments_set_the_noise_where_the_log_is_silent(capsys, tmp_path
     # gives it; only points without a prediction (target down, Sun up) fall back to --mag-err.
     from planner.inputs.sites import load_site
     from planner.inputs.targets import load_target
-    from planner.photometry.tables import mag_err_for_times
+    from planner.photometry.frames import mag_err_for_times
 
     target = root / "demo_targets/c2034-b3-quillfeather.toml"
     site_file = root / "sites/karoo-ridge.toml"
@@ -167,8 +167,22 @@ def test_site_instruments_set_the_noise_where_the_log_is_silent(capsys, tmp_path
     rows = [f"{t},Karoo Ridge,{'0.005' if i < 3 else ''}" for i, t in enumerate(times)]
     rows.append("2034-03-17T12:00:00Z,Karoo Ridge,")  # local 14:00: Sun up, no prediction
     log.write_text("time_utc,site,mag_err\n" + "\n".join(rows) + "\n")
+    # Points 20 min apart stay single frames; --sys-err 0 leaves the frames' own σ (no extinction term).
     code, out, err = _call(
-        capsys, log, "--target", target, "--site", site_file, "--trials", "0", "--mag-err", "0.3", "--format", "json"
+        capsys,
+        log,
+        "--target",
+        target,
+        "--site",
+        site_file,
+        "--trials",
+        "0",
+        "--mag-err",
+        "0.3",
+        "--format",
+        "json",
+        "--sys-err",
+        "0",
     )
     assert code == 0, err
     d = json.loads(out)

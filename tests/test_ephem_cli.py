@@ -160,7 +160,7 @@ def test_failed_run_keeps_the_existing_output(root, tmp_path, capsys, monkeypatc
         ),
         (
             ["--target", DEMO, "--start", "2060-03-19", "--stop", "2060-03-20"],
-            "error: command line: start/stop: outside the bundled DE421",
+            "error: command line: start: '2060-03-19' is outside the bundled DE421 ephemeris",
         ),
         (
             ["--target", DEMO, "--start", "2034-03-19", "--stop", "2034-03-20", "--format", "xml"],

@@ -95,7 +95,7 @@ def test_atomic_write_keeps_the_old_file_on_failure(tmp_path, monkeypatch):
         raise OSError("disk full")
 
     monkeypatch.setattr("planner.core.fileio.os.replace", boom)
-    with pytest.raises(OSError):
+    with pytest.raises(InputError, match=r"plan.csv: out: cannot write \(disk full\)"):
         write_text_atomic(p, "half")
     assert p.read_text() == "good\n"
     assert [x.name for x in tmp_path.iterdir()] == ["plan.csv"]

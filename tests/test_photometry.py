@@ -580,7 +580,7 @@ DEMO_TARGET = "demo_targets/c2034-b3-quillfeather.toml"
 
 def test_mag_err_for_times_on_the_demo_comet(root):
     from planner.inputs.targets import load_target
-    from planner.photometry.tables import mag_err_for_times
+    from planner.photometry.frames import mag_err_for_times
     from planner.sky.geometry import geometry
 
     tgt = load_target(root / DEMO_TARGET)

@@ -11,6 +11,7 @@ import typer
 
 from planner.core.errors import InputError
 from planner.core.timegrid import parse_duration_s
+from planner.inputs.settings import BlockRules, ExposureRules
 
 
 def _hours(text: str, field: str) -> float:
@@ -69,13 +70,24 @@ def _duration(hours: float | None) -> str:
     return f"{hours:.3g} h"
 
 
+#: Nyquist frequency of times kept to the second on no common grid, c/d (1 / (2 × 1 s)).
+TIMESTAMP_NYQUIST_PER_DAY = 86400.0 / 2.0
+
+
 def render_table(d: dict) -> str:
     """The short readable summary of a check (``d`` is ``CheckResult.to_dict()``)."""
     s, inp = d["settings"], d["input"]
     lines = [f"CAUTION: {note.removeprefix('caution: ')}" for note in d["notes"] if note.startswith("caution")]
     sites = ", ".join(f"{k} {v}" for k, v in inp["sites"].items()) or "not given"
+    points = f"{inp['n_times']} times"
+    if s.get("stack_s"):
+        floor = f", plus {s['sys_err_mag_per_airmass']:g} mag per airmass" if s["sys_err_mag_per_airmass"] else ""
+        points = (
+            f"{inp['n_frames']} frames stacked into {inp['n_times']} points (one per site and "
+            f"{_duration(s['stack_s'] / 3600.0)} slot{floor})"
+        )
     lines.append(
-        f"{inp['n_times']} times, {inp['first_utc']} to {inp['last_utc']} (span {inp['span_h']:.1f} h); sites: {sites}"
+        f"{points}, {inp['first_utc']} to {inp['last_utc']} (span {inp['span_h']:.1f} h); points per site: {sites}"
     )
     src = inp.get("mag_err_sources")
     if src and inp.get("median_mag_err") is not None:
@@ -88,7 +100,10 @@ def render_table(d: dict) -> str:
             )
             if src.get(k)
         ]
-        lines.append(f"photometric σ per point: median {inp['median_mag_err']:.4f} mag ({', '.join(parts)})")
+        frames = "frames" if s.get("stack_s") else "points"
+        lines.append(
+            f"photometric σ per point: median {inp['median_mag_err']:.4f} mag ({frames}' σ: {', '.join(parts)})"
+        )
     if inp.get("light_time_corrected"):
         lines.append("periods computed on light-time corrected times (t − Δ/c, from the target's geometry)")
     shape = "double-peaked (rotation = 2 × photometric period; found at P/2 is not recovered)"
@@ -117,8 +132,11 @@ def render_table(d: dict) -> str:
             f"{_f(b['max_phase_gap'], '.2f'):>8} {b['max_alias_height']:6.2f} {rec:>9} {half:>6}  {conf}"
         )
     lines.append("")
-    worst = ", ".join(f"{w['period_h']:.2f} h ({100 * w['coverage']:.0f} %)" for w in d["worst_periods"][:6])
-    lines.append(f"Worst-covered periods: {worst or 'none'}")
+    if d["coverage"] and min(d["coverage"]) >= 1.0:
+        lines.append(f"Phase coverage: every trial period has all {s['phase_bins']} phase bins covered.")
+    else:
+        worst = ", ".join(f"{w['period_h']:.2f} h ({100 * w['coverage']:.0f} %)" for w in d["worst_periods"][:6])
+        lines.append(f"Worst-covered periods: {worst or 'none'}")
     daily = [c for c in d["commensurate"] if c["coverage"] < s["coverage_threshold"]]
     if daily:
         lines.append(
@@ -126,9 +144,16 @@ def render_table(d: dict) -> str:
             + ", ".join(f"{c['period_h']:.3g} h ({100 * c['coverage']:.0f} %)" for c in daily)
         )
     peaks = ", ".join(f"{p['freq_per_day']:.3f} c/d ({p['height']:.2f})" for p in d["window_peaks"][:5])
+    nyquist = d["nyquist_freq_per_day"]
+    # Times on no common grid give the limit of one-second timestamps (43200 c/d): no news, not shown.
+    shown = nyquist is not None and nyquist < TIMESTAMP_NYQUIST_PER_DAY * (1.0 - 1e-9)
     lines.append(
-        f"Spectral window peaks: {peaks or 'none above 0.1'}; Nyquist frequency "
-        f"{_f(d['nyquist_freq_per_day'], '.4g')} c/d"
+        f"Spectral window peaks: {peaks or 'none above 0.1'}"
+        + (
+            f"; Nyquist frequency {_f(nyquist, '.4g')} c/d (the times share a {86400 / (2 * nyquist):g} s step)"
+            if shown
+            else ""
+        )
     )
     flagged = [a for a in d["aliases"] if a["flagged"]]
     if flagged:
@@ -224,9 +249,19 @@ def register(app: typer.Typer) -> None:
             bool | None,
             typer.Option("--progress/--no-progress", help="progress bar on stderr (default: on a terminal)"),
         ] = None,
+        stack: Annotated[
+            str,
+            typer.Option(
+                "--stack", help="frames of one site within one slot of this length make one point (as a plan)"
+            ),
+        ] = f"{BlockRules.slot_minutes:g}m",
+        sys_err: Annotated[
+            float,
+            typer.Option("--sys-err", min=0.0, help="extinction error per airmass added to each point, mag"),
+        ] = ExposureRules.sys_err_mag_per_airmass,
     ) -> None:
         """Coverage, alias and trend diagnostics for a list of observation times."""
-        from planner.core.fileio import write_text_atomic
+        from planner.core.fileio import check_writable, write_text_atomic
         from planner.diagnostics.check import check_times
         from planner.inputs.obslog import read_observation_log
 
@@ -235,6 +270,9 @@ def register(app: typer.Typer) -> None:
         p_min, p_max = _hours(min_period, "--min-period"), _hours(max_period, "--max-period")
         if p_max < p_min:
             raise InputError("command line", "--max-period", "is shorter than --min-period")
+        for dest, option in ((out, "--out"), (report, "--report"), (plot and plot / "check_coverage.png", "--plot")):
+            if dest is not None:
+                check_writable(dest, field=option)
         log = read_observation_log(times_csv)
         if log.times_utc.size == 0:
             raise InputError(str(times_csv), "status", f"no observed rows to check ({len(log.lost)} lost rows only)")
@@ -252,9 +290,10 @@ def register(app: typer.Typer) -> None:
             sites = [load_site(p) for p in site]
             if log.site is None and len(sites) > 1:
                 raise InputError("command line", "--site", "the log has no site column, so give exactly one --site")
-        from planner.photometry.tables import log_mag_err
+        from planner.photometry.frames import log_frame_model
 
-        err, err_sources = log_mag_err(
+        stack_s = parse_duration_s(stack, "command line", "--stack")
+        err, airmass, err_sources = log_frame_model(
             tgt,
             log.times_utc,
             log.site,
@@ -273,6 +312,9 @@ def register(app: typer.Typer) -> None:
                 mag_err=err,
                 sites=log.site,
                 exposure_s=log.exposure_s,
+                airmass=airmass,
+                stack_s=stack_s,
+                sys_err_mag_per_airmass=sys_err,
                 target=tgt,
                 trials=trials,
                 seed=seed,

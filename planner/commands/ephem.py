@@ -13,7 +13,7 @@ import pandas as pd
 import typer
 
 from planner.core.errors import InputError
-from planner.core.fileio import write_text_atomic
+from planner.core.fileio import check_writable, write_text_atomic
 from planner.core.textfmt import dec_dms, ra_hms
 from planner.core.timegrid import iso_utc, parse_duration_s, parse_utc, time_grid
 from planner.inputs.settings import ExposureRules
@@ -188,6 +188,8 @@ def register(app: typer.Typer) -> None:
         if (t1 - t0) / np.timedelta64(1, "s") / step_s + 1 > MAX_ROWS:
             raise InputError("command line", "step", f"{step} gives more than {MAX_ROWS} epochs; use a longer step")
         utc_times(np.array([t0, t1]), "command line", "start/stop")  # inside DE421's span?
+        if out is not None:
+            check_writable(out)
         tgt = load_target(target, object_name)
         sites = [load_site(p) for p in (site or [])]
         frames = add_photometry(

@@ -36,6 +36,7 @@ def register(app: typer.Typer) -> None:
         fmt: Annotated[str, typer.Option("--format", help="table, csv or json (printed output)")] = "table",
     ) -> None:
         """Optimise a multi-site campaign: when each site observes, night by night."""
+        from planner.core.fileio import check_writable
         from planner.inputs.campaign import load_campaign
         from planner.inputs.donelog import read_done_log
         from planner.outputs.planfolder import plan_manifest, write_plan_folder
@@ -45,8 +46,10 @@ def register(app: typer.Typer) -> None:
 
         if fmt not in ("table", "csv", "json"):
             raise InputError("command line", "--format", f"{fmt!r} is not one of table, csv, json")
-        if out is not None and out.is_dir() and any(out.iterdir()) and not force:
-            raise InputError(str(out), "--out", "folder is not empty (use --force to replace it)")
+        if out is not None:
+            check_writable(out, folder=True)
+            if out.is_dir() and any(out.iterdir()) and not force:
+                raise InputError(str(out), "--out", "folder is not empty (use --force to replace it)")
         camp = load_campaign(campaign)
         target = camp.load_target()
         done_log = read_done_log(done, camp.sites) if done is not None else None

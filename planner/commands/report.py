@@ -7,6 +7,8 @@ from typing import Annotated
 
 import typer
 
+from planner.core.fileio import check_writable
+from planner.outputs.layout import REPORT_HTML
 from planner.outputs.report import write_report
 
 
@@ -20,5 +22,6 @@ def register(app: typer.Typer) -> None:
         The report is one self-contained HTML page (figures embedded, nothing fetched from the network):
         open it from disk or send it on.
         """
+        check_writable(plan_dir / REPORT_HTML, field="PLAN_DIR")
         path = write_report(plan_dir)
         typer.echo(f"report: {path}")

@@ -12,9 +12,9 @@ import pandas as pd
 import typer
 
 from planner.core.errors import InputError
-from planner.core.fileio import write_text_atomic
-from planner.core.safety import SUN_SAFETY_TEXT
-from planner.core.timegrid import iso_utc, parse_date, parse_duration_s
+from planner.core.fileio import check_writable, write_text_atomic
+from planner.core.safety import SUN_CAUTION_MARGIN_DEG, SUN_SAFETY_TEXT, TWILIGHT_CAUTION_SUN_ALT_DEG
+from planner.core.timegrid import check_nights_in_span, iso_utc, parse_date, parse_duration_s
 from planner.inputs.settings import ExposureRules
 
 FORMATS = ("table", "csv", "json")
@@ -112,8 +112,9 @@ def render_table(df: pd.DataFrame, sites) -> str:
             )
         if flagged:
             lines.append(
-                "  ! opens or closes in twilight, or the Sun is within 10° of the site's elongation limit: "
-                "keep clear of the Sun's side of the sky. " + SUN_SAFETY_TEXT
+                f"  ! opens or closes in twilight with the Sun above {TWILIGHT_CAUTION_SUN_ALT_DEG:g}°, or the Sun is "
+                f"within {SUN_CAUTION_MARGIN_DEG:g}° of the site's elongation limit: keep clear of the Sun's side "
+                "of the sky. " + SUN_SAFETY_TEXT
             )
         lines.append("")
     lines.append(
@@ -158,7 +159,10 @@ def register(app: typer.Typer) -> None:
         if fmt not in FORMATS:
             raise InputError("command line", "format", f"{fmt!r} is not one of {', '.join(FORMATS)}")
         first = parse_date(start, field="start")
+        check_nights_in_span(first, nights, "command line", "start")
         step_s = parse_duration_s(step, field="step")
+        if out is not None:
+            check_writable(out)
         sites = [load_site(p) for p in site]
         tgt = load_target(target, object_name)
         df = observable_windows(tgt, sites, first, nights, step_s=step_s)

@@ -14,18 +14,19 @@ from typing import Any
 import tomllib
 
 from planner.core.errors import InputError
+from planner.core.fileio import read_text
+from planner.core.textfmt import control_char
 
 
 def read_toml(path: str | Path) -> dict[str, Any]:
-    """Parse a TOML file; a missing file or a syntax error becomes an :class:`InputError`."""
+    """Parse a TOML file; a missing, binary or non-UTF-8 file or a syntax error becomes an :class:`InputError`.
+
+    A UTF-8 byte-order mark (Windows editors write one) is accepted, as the CSV reader accepts it.
+    """
     p = Path(path)
+    text = read_text(p, "TOML file")
     try:
-        with p.open("rb") as fh:
-            return tomllib.load(fh)
-    except FileNotFoundError:
-        raise InputError(str(p), "-", "file not found") from None
-    except IsADirectoryError:
-        raise InputError(str(p), "-", "is a folder, expected a TOML file") from None
+        return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(str(p), "-", f"not valid TOML ({exc})") from None
 
@@ -135,6 +136,9 @@ class Fields:
             return None
         if not isinstance(value, str):
             raise self.error(key, f"{value!r} is not a string")
+        bad = control_char(value)
+        if bad is not None:
+            raise self.error(key, f"{value!r} holds a control character ({bad}); write plain text on one line")
         if choices is not None:
             choices = list(choices)
             if value not in choices:

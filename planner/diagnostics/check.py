@@ -47,6 +47,7 @@ from planner.diagnostics.verdicts import (
     repeated_times,
     worst_covered,
 )
+from planner.photometry.points import SLOT_EPOCH, stack_arrays
 
 
 def _partners(freq_per_day: float, peaks_f: np.ndarray, peaks_h: np.ndarray, s: CheckSettings) -> list[dict]:
@@ -87,6 +88,10 @@ def check_times(
     n_bands: int = 10,
     amplitude_phase_slope_per_deg: float = DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG,
     progress: Callable[[float], None] | None = None,
+    stack_s: float | None = None,
+    sys_err_mag_per_airmass: float = 0.0,
+    airmass: np.ndarray | None = None,
+    stack_ref_utc: np.datetime64 = SLOT_EPOCH,
 ) -> CheckResult:
     """Coverage, alias, recovery and sensitivity diagnostics for a list of observation times.
 
@@ -102,9 +107,23 @@ def check_times(
     ``amplitude_phase_slope_per_deg`` (Zappalà et al. 1990; planner.diagnostics.recovery).
     The period range is cut into ``n_bands`` log-spaced bands, each with a verdict; injected
     periods are shared out evenly over the same bands.
+
+    With ``stack_s``, the times are frames: the frames of one site inside one ``stack_s`` slot
+    (counted from ``stack_ref_utc``) become one light-curve point, whose σ adds
+    ``sys_err_mag_per_airmass`` × the frames' mean ``airmass`` (where given) in quadrature
+    (:func:`planner.photometry.points.light_curve_points`, the plan's error model); frames with a
+    NaN σ take the median of the points. Give ``target`` rather than ``geometry`` then.
     """
     if not (0 < min_period_h <= max_period_h):
         raise ValueError("need 0 < min_period_h <= max_period_h")
+    n_repeated = repeated_times(np.asarray(times_utc, dtype="datetime64[ns]"), sites)
+    n_frames = int(np.size(times_utc))
+    if stack_s is not None:
+        if geometry is not None:
+            raise ValueError("stacked frames need the target, not a geometry at the frames' times")
+        times_utc, mag_err, sites = stack_arrays(
+            times_utc, mag_err, sites, airmass, stack_s, sys_err_mag_per_airmass, stack_ref_utc
+        )
     order = np.argsort(np.asarray(times_utc, dtype="datetime64[ns]"), kind="stable")
     times = np.asarray(times_utc, dtype="datetime64[ns]")[order]
     t = to_jd_utc(times)
@@ -131,6 +150,8 @@ def check_times(
         recovery_threshold=recovery_threshold,
         window_max_freq_per_day=window_max_freq_per_day,
         amplitude_phase_slope_per_deg=amplitude_phase_slope_per_deg,
+        stack_s=stack_s,
+        sys_err_mag_per_airmass=sys_err_mag_per_airmass if stack_s is not None else 0.0,
     )
     notes: list[str] = []
     if geometry is None and target is not None:
@@ -369,7 +390,6 @@ def check_times(
             )
     if n and span_h < max_period_h:
         notes.append(f"the span ({span_h:.1f} h) is shorter than the longest period searched")
-    n_repeated = repeated_times(times, site_arr)
     if n_repeated:
         notes.append(
             f"{n_repeated} time(s) repeat an earlier row at the same site and instant: each counts as a "
@@ -401,4 +421,5 @@ def check_times(
         period_change=period_change,
         synodic=synodic,
         notes=notes,
+        n_frames=n_frames,
     )

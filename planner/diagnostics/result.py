@@ -35,6 +35,10 @@ class CheckSettings:
     n_sigma: float = 3.0
     #: Zappalà et al. (1990) slope m of A(α) = A(0)(1 + m α), per degree (planner.diagnostics.recovery).
     amplitude_phase_slope_per_deg: float = DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG
+    #: Frames of one site inside one slot of this length are one light-curve point (None: no stacking).
+    stack_s: float | None = None
+    #: Extinction error per airmass added to each point's σ (planner.photometry.points).
+    sys_err_mag_per_airmass: float = 0.0
 
 
 @dataclass
@@ -68,6 +72,8 @@ class CheckResult:
     light_time_minutes: np.ndarray | None = None
     #: Phase angle at which the injected amplitudes hold (None: no phase angles known).
     amplitude_ref_phase_deg: float | None = None
+    #: Frames the points were stacked from (None: the times are the points themselves).
+    n_frames: int | None = None
 
     @property
     def span_h(self) -> float:
@@ -83,6 +89,7 @@ class CheckResult:
             {
                 "input": {
                     "n_times": int(self.times_jd.size),
+                    "n_frames": int(self.times_jd.size) if self.n_frames is None else self.n_frames,
                     "first_utc": iso_utc(self.times_utc[:1], seconds=True)[0] if self.times_jd.size else None,
                     "last_utc": iso_utc(self.times_utc[-1:], seconds=True)[0] if self.times_jd.size else None,
                     "span_h": self.span_h,
@@ -109,6 +116,8 @@ class CheckResult:
                     "n_sigma": s.n_sigma,
                     "amplitude_phase_slope_per_deg": s.amplitude_phase_slope_per_deg,
                     "amplitude_ref_phase_deg": self.amplitude_ref_phase_deg,
+                    "stack_s": s.stack_s,
+                    "sys_err_mag_per_airmass": s.sys_err_mag_per_airmass,
                 },
                 "periods_h": self.periods_h,
                 "coverage": self.coverage,

@@ -15,7 +15,7 @@ from datetime import date
 from pathlib import Path
 
 from planner.core.errors import InputError
-from planner.core.timegrid import parse_date
+from planner.core.timegrid import check_nights_in_span, parse_date
 from planner.core.tomlfile import Fields, read_toml
 from planner.inputs.settings import BlockRules, ExposureRules, Rotation, Weights
 from planner.inputs.sites import Site, allocation_from, load_site
@@ -213,14 +213,17 @@ def load_campaign(path: str | Path) -> Campaign:
             if total is not None:
                 total_hours[key] = total
 
+    first_night = _first_night(f)
+    nights = f.int("nights", required=True, lo=1, hi=60)
+    check_nights_in_span(first_night, nights, f.file, "first_night")
     return Campaign(
         name=name,
         path=path,
         target_path=target_path,
         site_paths=site_paths,
         sites=tuple(sites),
-        first_night=_first_night(f),
-        nights=f.int("nights", required=True, lo=1, hi=60),
+        first_night=first_night,
+        nights=nights,
         seed=f.int("seed", _default("seed"), lo=0, hi=2**63 - 1),
         rotation=rotation,
         block_rules=blocks,

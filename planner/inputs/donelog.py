@@ -39,6 +39,14 @@ class DoneLog:
         half = (self.exposure_s * 0.5e9).astype("timedelta64[ns]")
         return np.max(self.times_utc + half)
 
+    @property
+    def end_site(self) -> str | None:
+        """The site of the exposure that ends last ("" when the log names none)."""
+        if self.times_utc.size == 0:
+            return None
+        half = (self.exposure_s * 0.5e9).astype("timedelta64[ns]")
+        return str(self.site[int(np.argmax(self.times_utc + half))])
+
 
 def read_done_log(path: str | Path, sites: tuple[Site, ...] | list[Site]) -> DoneLog:
     """Read a log of observed times and lost nights (planner.inputs.obslog, the one log reader; the file is

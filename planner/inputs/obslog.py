@@ -13,6 +13,7 @@ Every bad cell is reported as ``FILE: COLUMN (row N): message``, N counting data
 from __future__ import annotations
 
 import csv
+import io
 import math
 from dataclasses import dataclass, field
 from datetime import date
@@ -21,6 +22,8 @@ from pathlib import Path
 import numpy as np
 
 from planner.core.errors import InputError
+from planner.core.fileio import read_text
+from planner.core.textfmt import control_char
 from planner.core.timegrid import parse_date, parse_utc
 
 KNOWN_COLUMNS = ("time_utc", "site", "exposure_s", "mag_err", "status", "night")
@@ -86,6 +89,15 @@ def _positive(text: str, file: str, field_name: str, upper: float = math.inf) ->
     return value
 
 
+def _site(cell: dict[str, str], file: str, n: int) -> str:
+    """A site cell: plain text (a control character would reach the terminal and the figures raw)."""
+    name = cell.get("site", "")
+    bad = control_char(name)
+    if bad is not None:
+        raise InputError(file, f"site (row {n})", f"{name!r} holds a control character ({bad})")
+    return name
+
+
 def _night(text: str, file: str, n: int) -> date:
     return parse_date(text, file, f"night (row {n})", "a local evening date such as 2034-03-17")
 
@@ -98,15 +110,11 @@ def read_observation_log(path: str | Path) -> ObservationLog:
     """
     p = Path(path)
     file = str(p)
+    text = read_text(p, "CSV file")
     try:
-        with p.open(newline="", encoding="utf-8-sig") as fh:
-            rows = list(csv.reader(fh))
-    except FileNotFoundError:
-        raise InputError(file, "-", "file not found") from None
-    except IsADirectoryError:
-        raise InputError(file, "-", "is a folder, expected a CSV file") from None
-    except UnicodeDecodeError:
-        raise InputError(file, "-", "not a UTF-8 text file") from None
+        rows = list(csv.reader(io.StringIO(text, newline="")))
+    except csv.Error as exc:
+        raise InputError(file, "-", f"not a readable CSV file ({exc})") from None
     rows = [r for r in rows if any(c.strip() for c in r) and not r[0].lstrip().startswith("#")]
     if not rows:
         raise InputError(file, "time_utc", "the file is empty (expected a header with time_utc)")
@@ -142,12 +150,12 @@ def read_observation_log(path: str | Path) -> ObservationLog:
                 raise InputError(
                     file, f"night (row {n})", "a lost row needs the local date of the evening, e.g. 2034-03-17"
                 )
-            lost.append(LostNight(site=cell.get("site", ""), night=_night(cell["night"], file, n), row=n))
+            lost.append(LostNight(site=_site(cell, file, n), night=_night(cell["night"], file, n), row=n))
             continue
         if not cell["time_utc"]:
             raise InputError(file, f"time_utc (row {n})", "empty; every observed row needs a time")
         times.append(parse_utc(cell["time_utc"], file, f"time_utc (row {n})"))
-        sites.append(cell.get("site", ""))
+        sites.append(_site(cell, file, n))
         exposures.append(
             _positive(cell["exposure_s"], file, f"exposure_s (row {n})", MAX_EXPOSURE_S)
             if cell.get("exposure_s")

@@ -11,17 +11,17 @@ Everything is validated on load; bad input raises :class:`InputError` naming the
 from __future__ import annotations
 
 import math
-import re
 from dataclasses import dataclass, field
+from datetime import datetime
 from pathlib import Path
-
-import numpy as np
 
 from planner.core.bands import ASTEROID_MEAN_COLOURS, COLOUR_KEYS, SOLAR_COLOURS, SUN_MAG_BY_BAND
 from planner.core.constants import GM_SUN_AU3_D2
 from planner.core.errors import InputError
-from planner.core.timegrid import parse_utc, to_jd_utc
+from planner.core.fileio import read_text
+from planner.core.timegrid import check_orbit_jd
 from planner.core.tomlfile import Fields, read_toml
+from planner.inputs import mpc
 
 KINDS = ("comet", "asteroid")
 #: Nucleus phase coefficient when a comet file gives M2 but none (common practice: 0.035 mag/deg).
@@ -158,12 +158,18 @@ def _tdb_jd(f: Fields, key: str) -> float:
     """A TDB instant: ISO 8601 text (read on the TDB scale) or a Julian date number."""
     value = f._get(key, True, None)
     if isinstance(value, (int, float)) and not isinstance(value, bool):
-        jd = f.float(key, required=True, lo=2_000_000.0, hi=3_000_000.0)
-        return jd
+        return check_orbit_jd(f.float(key, required=True), f.file, f.name(key))
     if not isinstance(value, str):
         value = str(value)  # TOML datetimes arrive as datetime objects
-    t = parse_utc(value, f.file, f.name(key))
-    return float(to_jd_utc(np.array([t]))[0])
+    text = value.strip().rstrip("Zz").replace(" ", "T", 1)
+    try:
+        dt = datetime.fromisoformat(text)
+    except ValueError:
+        raise f.error(key, f"{value!r} is not an ISO 8601 time such as 2034-03-10T22:15 or a Julian date") from None
+    if dt.tzinfo is not None:
+        raise f.error(key, f"{value!r}: give the instant on the TDB scale, without an offset")
+    jd = 2440587.5 + (dt - datetime(1970, 1, 1)).total_seconds() / 86400.0
+    return check_orbit_jd(jd, f.file, f.name(key), value)
 
 
 def _load_toml(path: Path) -> Target:
@@ -264,128 +270,35 @@ def _brightness_toml(f: Fields, kind: str) -> Brightness:
 
 # ------------------------------------------------------------------------------------- MPC lines
 
-_PACKED_EPOCH = re.compile(r"^[IJK]\d\d[1-9A-C][1-9A-V]$")
-_CENTURY = {"I": 1800, "J": 1900, "K": 2000}
 
-
-def _unpack_day(ch: str) -> int:
-    return int(ch) if ch.isdigit() else ord(ch) - ord("A") + 10
-
-
-def _jd_from_calendar(year: int, month: int, day: float) -> float:
-    """Julian date of a Gregorian calendar date with fractional day (Meeus 1998, ch. 7)."""
-    if month <= 2:
-        year -= 1
-        month += 12
-    a = year // 100
-    b = 2 - a + a // 4
-    return math.floor(365.25 * (year + 4716)) + math.floor(30.6001 * (month + 1)) + day + b - 1524.5
-
-
-def _col(line: str, first: int, last: int) -> str:
-    """Columns ``first``–``last`` (1-based, inclusive) as in the MPC format descriptions."""
-    return line[first - 1 : last].strip()
-
-
-def _num(path: Path, line_no: int, line: str, first: int, last: int, what: str, required: bool = True) -> float | None:
-    text = _col(line, first, last)
-    if not text:
-        if required:
-            raise InputError(str(path), f"line {line_no}: {what}", f"columns {first}-{last} are blank")
-        return None
-    try:
-        value = float(text)
-    except ValueError:
-        raise InputError(
-            str(path), f"line {line_no}: {what}", f"{text!r} in columns {first}-{last} is not a number"
-        ) from None
-    if not math.isfinite(value):
-        raise InputError(str(path), f"line {line_no}: {what}", f"{text!r} is not finite")
-    return value
-
-
-def _is_minor_planet_line(line: str) -> bool:
-    return len(line) >= 103 and bool(_PACKED_EPOCH.match(line[20:25]))
-
-
-def _comet_line(path: Path, line_no: int, line: str) -> Target:
-    """MPC one-line comet orbit (the CometEls.txt layout).
-
-    Columns: 15–18 year, 20–21 month, 23–29 day (TT) of perihelion; 31–39 q (au); 42–49 e;
-    52–59 ω, 62–69 Ω, 72–79 i (deg, J2000 ecliptic); 82–89 epoch YYYYMMDD; 92–95 G and 97–100 k
-    with m = G + 5 log Δ + 2.5 k log r; 103–158 designation and name.
-    """
-
-    def num(a: int, b: int, what: str, required: bool = True) -> float | None:
-        return _num(path, line_no, line, a, b, what, required)
-
-    year = num(15, 18, "perihelion year")
-    month = num(20, 21, "perihelion month")
-    day = num(23, 29, "perihelion day")
-    if not (1 <= month <= 12 and 0.0 <= day < 32.0):
-        raise InputError(str(path), f"line {line_no}: perihelion date", f"{year:.0f}-{month:.0f}-{day} is not a date")
-    tp = _jd_from_calendar(int(year), int(month), day)
-    q = num(31, 39, "perihelion distance")
-    ecc = num(42, 49, "eccentricity")
-    peri = num(52, 59, "argument of perihelion")
-    node = num(62, 69, "ascending node")
-    incl = num(72, 79, "inclination")
-    epoch_text = _col(line, 82, 89)
-    if epoch_text:
-        if not re.fullmatch(r"\d{8}", epoch_text):
-            raise InputError(str(path), f"line {line_no}: epoch", f"{epoch_text!r} is not YYYYMMDD")
-        epoch = _jd_from_calendar(int(epoch_text[:4]), int(epoch_text[4:6]), float(epoch_text[6:8]))
+def _load_mpc(path: Path, object_name: str | None) -> Target:
+    """The target of one MPC one-line orbit (layouts and columns in :mod:`planner.inputs.mpc`)."""
+    file = str(path)
+    lines = mpc.orbit_lines(read_text(path, "text file of MPC orbit lines"), file)
+    rec = mpc.read_line(file, *mpc.pick_line(lines, object_name, file))
+    prefix = f"line {rec.line_no}"
+    if rec.layout == mpc.MINOR_PLANET:
+        ecc, a = rec.eccentricity, rec.semimajor_axis_au
+        if ecc < 0 or ecc >= 1.0:
+            raise InputError(
+                file, f"{prefix}: eccentricity", f"{ecc:g} must be in [0, 1) for a minor-planet orbit line"
+            )
+        if a <= 0:
+            raise InputError(file, f"{prefix}: semimajor axis", f"{a:g} must be > 0")
+        q, tp = _from_mean_anomaly(Fields(path, {}, prefix), a, ecc, rec.mean_anomaly_deg, rec.epoch_tdb_jd)
+        kind = "asteroid"
+        h, g = rec.mag_h, rec.mag_g
+        brightness = Brightness(H=h, G=DEFAULT_G if g is None else g) if h is not None else Brightness()
     else:
-        epoch = tp
-    g_mag = num(92, 95, "magnitude G", required=False)
-    k_slope = num(97, 100, "slope k", required=False)
-    name = _col(line, 103, 158) or _col(line, 1, 12)
-    field_prefix = f"line {line_no}"
-    _check_elements(path, field_prefix, q, ecc, incl, node, peri)
-    brightness = Brightness()
-    if g_mag is not None and k_slope is not None:
-        brightness = Brightness(M1=g_mag, K1=2.5 * k_slope)  # m = G + 5 log Δ + 2.5 k log r
-    orbit = Orbit(epoch, q, ecc, incl, node % 360.0, peri % 360.0, tp)
-    return Target(name=name, kind="comet", orbit=orbit, brightness=brightness, source=str(path))
-
-
-def _minor_planet_line(path: Path, line_no: int, line: str) -> Target:
-    """MPC one-line minor-planet orbit (the MPCORB.DAT layout).
-
-    Columns: 1–7 packed designation; 9–13 H; 15–19 G; 21–25 packed epoch (0h TT); 27–35 mean
-    anomaly M; 38–46 ω; 49–57 Ω; 60–68 i (deg, J2000 ecliptic); 71–79 e; 93–103 a (au);
-    167–194 readable designation.
-    """
-
-    def num(a: int, b: int, what: str, required: bool = True) -> float | None:
-        return _num(path, line_no, line, a, b, what, required)
-
-    h = num(9, 13, "H", required=False)
-    g = num(15, 19, "G", required=False)
-    packed = line[20:25]
-    epoch = _jd_from_calendar(
-        _CENTURY[packed[0]] + int(packed[1:3]), _unpack_day(packed[3]), float(_unpack_day(packed[4]))
-    )
-    m = num(27, 35, "mean anomaly")
-    peri = num(38, 46, "argument of perihelion")
-    node = num(49, 57, "ascending node")
-    incl = num(60, 68, "inclination")
-    ecc = num(71, 79, "eccentricity")
-    a = num(93, 103, "semimajor axis")
-    field_prefix = f"line {line_no}"
-    if ecc < 0 or ecc >= 1.0:
-        raise InputError(
-            str(path), f"{field_prefix}: eccentricity", f"{ecc:g} must be in [0, 1) for a minor-planet orbit line"
-        )
-    if a <= 0:
-        raise InputError(str(path), f"{field_prefix}: semimajor axis", f"{a:g} must be > 0")
-    fields = Fields(path, {}, field_prefix)
-    q, tp = _from_mean_anomaly(fields, a, ecc, m, epoch)
-    _check_elements(path, field_prefix, q, ecc, incl, node, peri)
-    name = _col(line, 167, 194) or _col(line, 1, 7)
-    brightness = Brightness(H=h, G=DEFAULT_G if g is None else g) if h is not None else Brightness()
-    orbit = Orbit(epoch, q, ecc, incl, node % 360.0, peri % 360.0, tp)
-    return Target(name=name, kind="asteroid", orbit=orbit, brightness=brightness, source=str(path))
+        q, tp = rec.perihelion_dist_au, rec.perihelion_tdb_jd
+        kind = "comet"
+        brightness = Brightness()
+        if rec.mag_g is not None and rec.slope_k is not None:
+            brightness = Brightness(M1=rec.mag_g, K1=2.5 * rec.slope_k)  # m = G + 5 log Δ + 2.5 k log r
+    incl, node, peri = rec.inclination_deg, rec.ascending_node_deg, rec.arg_perihelion_deg
+    _check_elements(path, prefix, q, rec.eccentricity, incl, node, peri)
+    orbit = Orbit(rec.epoch_tdb_jd, q, rec.eccentricity, incl, node % 360.0, peri % 360.0, tp)
+    return Target(name=rec.name, kind=kind, orbit=orbit, brightness=brightness, source=file)
 
 
 def _check_elements(path: Path, prefix: str, q: float, ecc: float, incl: float, node: float, peri: float) -> None:
@@ -399,49 +312,3 @@ def _check_elements(path: Path, prefix: str, q: float, ecc: float, incl: float, 
     for what, ok, message in checks:
         if not ok:
             raise InputError(str(path), f"{prefix}: {what}", message)
-
-
-def _load_mpc(path: Path, object_name: str | None) -> Target:
-    try:
-        text = path.read_text(encoding="utf-8", errors="replace")
-    except FileNotFoundError:
-        raise InputError(str(path), "-", "file not found") from None
-    except IsADirectoryError:
-        raise InputError(str(path), "-", "is a folder, expected a text file of MPC orbit lines") from None
-    lines = [
-        (i + 1, ln.rstrip("\r\n"))
-        for i, ln in enumerate(text.splitlines())
-        if ln.strip() and not ln.lstrip().startswith("#")
-    ]
-    if not lines:
-        raise InputError(str(path), "-", "no orbit lines (expected MPC one-line comet or minor-planet orbits)")
-    if object_name is not None:
-        wanted = object_name.strip().lower()
-        picked = [(n, ln) for n, ln in lines if wanted in ln.lower()]
-        exact = [(n, ln) for n, ln in picked if _line_name(ln).lower() == wanted]
-        picked = exact or picked
-        if not picked:
-            raise InputError(str(path), "object", f"no line mentions {object_name!r}")
-        if len(picked) > 1:
-            names = ", ".join(_line_name(ln) for _, ln in picked[:5])
-            raise InputError(
-                str(path), "object", f"{object_name!r} matches {len(picked)} lines ({names}); be more specific"
-            )
-        lines = picked
-    elif len(lines) > 1:
-        names = ", ".join(_line_name(ln) for _, ln in lines[:5]) + (", ..." if len(lines) > 5 else "")
-        raise InputError(
-            str(path), "object", f"the file holds {len(lines)} orbit lines ({names}); pick one with --object NAME"
-        )
-    line_no, line = lines[0]
-    if _is_minor_planet_line(line):
-        return _minor_planet_line(path, line_no, line)
-    if len(line) < 79:
-        raise InputError(str(path), f"line {line_no}", "too short for an MPC one-line comet or minor-planet orbit")
-    return _comet_line(path, line_no, line)
-
-
-def _line_name(line: str) -> str:
-    if _is_minor_planet_line(line):
-        return _col(line, 167, 194) or _col(line, 1, 7)
-    return _col(line, 103, 158) or _col(line, 1, 12)

@@ -6,6 +6,9 @@ every name from here, so the two cannot drift apart.
 
 from __future__ import annotations
 
+import hashlib
+from collections.abc import Iterable
+
 PLAN_CSV = "plan.csv"
 BASELINE_CSV = "baseline.csv"
 #: The manifest: target, sites with time zones and limits, settings, version (and the plan's blocks).
@@ -38,6 +41,10 @@ PLAN_FILES = (
 SCHEMA_VERSION = 2
 
 
+#: Longest slug a file name keeps whole (longer ones are cut and carry a hash of the full name).
+MAX_SLUG_CHARS = 40
+
+
 def slug(name: str) -> str:
     """Lower-case letters and digits with single hyphens: ``"Karoo Ridge"`` → ``"karoo-ridge"``."""
     s = "".join(c.lower() if c.isalnum() else "-" for c in name)
@@ -46,6 +53,13 @@ def slug(name: str) -> str:
     return s.strip("-") or "site"
 
 
-def sheet_name(site_name: str) -> str:
-    """The observing sheet's file name inside ``sheets/``."""
-    return f"{slug(site_name)}.txt"
+def sheet_name(site_name: str, all_names: Iterable[str] = ()) -> str:
+    """The observing sheet's file name inside ``sheets/``: the name's slug, and a short hash of the name
+    when the slug is longer than MAX_SLUG_CHARS (it is then cut) or when another of ``all_names`` has
+    the same slug (``"Karoo Ridge"`` and ``"karoo-ridge"``), so names stay short, safe and distinct."""
+    s = slug(site_name)
+    clash = any(other != site_name and slug(other) == s for other in all_names)
+    if len(s) > MAX_SLUG_CHARS or clash:
+        digest = hashlib.sha256(site_name.encode("utf-8")).hexdigest()[:8]
+        s = f"{s[:MAX_SLUG_CHARS].rstrip('-')}-{digest}"
+    return f"{s}.txt"

@@ -15,6 +15,7 @@ import tempfile
 from pathlib import Path
 
 from planner.core.errors import InputError
+from planner.core.fileio import PART_SUFFIX, check_writable, signals_held, temp_prefix
 from planner.core.jsonsafe import json_safe
 from planner.core.version import __version__
 from planner.outputs import layout
@@ -73,7 +74,7 @@ def plan_manifest(result: PlanResult) -> dict:
                     "min_alt_deg": s.min_alt_deg,
                     "min_solar_elong_deg": s.min_solar_elong_deg,
                     "twilight": s.twilight,
-                    "sheet": f"{layout.SHEETS_DIR}/{layout.sheet_name(s.name)}",
+                    "sheet": f"{layout.SHEETS_DIR}/{layout.sheet_name(s.name, [x.name for x in c.sites])}",
                 }
                 for s in c.sites
             ],
@@ -112,8 +113,9 @@ def _write_folder(result: PlanResult, folder: Path) -> None:
     shutil.copyfile(result.campaign.path, folder / layout.CAMPAIGN_COPY)
     if result.campaign.target_path.suffix.lower() == ".toml":
         shutil.copyfile(result.campaign.target_path, folder / layout.TARGET_COPY)
+    names = [s.name for s in result.campaign.sites]
     for site in result.campaign.sites:
-        (folder / layout.SHEETS_DIR / layout.sheet_name(site.name)).write_text(
+        (folder / layout.SHEETS_DIR / layout.sheet_name(site.name, names)).write_text(
             site_sheet(result, site), encoding="utf-8"
         )
     write_report(folder)  # last: rendered from the files above alone, inside the not-yet-renamed folder
@@ -136,25 +138,30 @@ def write_plan_folder(result: PlanResult, out: str | Path, force: bool = False) 
     Path
         ``out``.
     """
-    out = Path(out)
-    if out.exists() and not out.is_dir():
-        raise InputError(str(out), "--out", "exists and is not a folder")
+    out = check_writable(out, folder=True)
     if out.is_dir() and any(out.iterdir()) and not force:
         raise InputError(str(out), "--out", "folder is not empty (use --force to replace it)")
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", suffix=".site_night", dir=out.parent))
+    try:
+        out.parent.mkdir(parents=True, exist_ok=True)
+        tmp = Path(tempfile.mkdtemp(prefix=temp_prefix(out), suffix=PART_SUFFIX, dir=out.parent))
+    except OSError as exc:
+        raise InputError(str(out), "--out", f"cannot write ({exc.strerror or exc})") from None
     try:
         _write_folder(result, tmp / "plan")
-        if out.is_dir():
-            old = tmp / "old"
-            os.replace(out, old)
-            try:
+        with signals_held():  # the old folder goes only once the new one is in place
+            if out.is_dir():
+                old = tmp / "old"
+                os.replace(out, old)
+                try:
+                    os.replace(tmp / "plan", out)
+                except BaseException:
+                    os.replace(old, out)
+                    raise
+            else:
                 os.replace(tmp / "plan", out)
-            except BaseException:
-                os.replace(old, out)
-                raise
-        else:
-            os.replace(tmp / "plan", out)
+    except OSError as exc:
+        raise InputError(str(out), "--out", f"cannot write ({exc.strerror or exc})") from None
     finally:
-        shutil.rmtree(tmp, ignore_errors=True)
+        with signals_held():
+            shutil.rmtree(tmp, ignore_errors=True)
     return out

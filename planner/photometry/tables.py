@@ -4,7 +4,8 @@ Table entry points over the kernels of :mod:`planner.photometry.skybright` (Kris
 1991), :mod:`planner.photometry.ccd` (Merline & Howell 1995) and :mod:`planner.photometry.coma`
 (A'Hearn et al. 1984): :func:`photometry_columns` (one site's geometry table),
 :func:`add_photometry` (a whole ``geometry()`` result), :func:`window_photometry` (observing
-windows), :func:`mag_err_for_times` and :func:`log_mag_err` (per-point σ for the diagnostics).
+windows), :func:`frame_model`, :func:`mag_err_for_times`, :func:`log_frame_model` and
+:func:`log_mag_err` (per-point σ and airmass for the diagnostics).
 Twilight is not modelled: rows with the Sun above ``max_sun_alt_deg`` (default −12°) get no
 prediction.
 """
@@ -314,91 +315,3 @@ def window_photometry(
     if not parts:
         return pd.DataFrame(index=windows_df.index)
     return pd.concat(parts).reindex(windows_df.index)
-
-
-def mag_err_from_geometry(
-    geom_df: pd.DataFrame, instrument: Instrument, *, comet: bool | None = None, **kwargs: Any
-) -> np.ndarray:
-    """Per-row photometric error (mag) for one site's geometry table: ``mag_err_pred`` of
-    :func:`photometry_columns` with the same keyword arguments (pass ``exposure_s`` for a log)."""
-    table = photometry_columns(geom_df, instrument, comet=comet, **kwargs)
-    return table["mag_err_pred"].to_numpy(dtype=float)
-
-
-def mag_err_for_times(
-    target: Target,
-    times_utc: np.ndarray,
-    site_names: Sequence[str] | None,
-    sites: Sequence[Site],
-    *,
-    exposure_s: np.ndarray | None = None,
-    fallback_mag_err: float | None = None,
-    **kwargs: Any,
-) -> np.ndarray:
-    """Modelled photometric error (mag) of each observation time, for injection–recovery.
-
-    ``site_names[i]`` names the site of ``times_utc[i]`` (None: all at the one site given);
-    ``exposure_s`` (optional, per point, NaN where unknown) takes logged exposures instead of the
-    planned ones. Points at a site without an instrument or unknown to ``sites``, or with no
-    prediction (target down, Sun up), get ``fallback_mag_err`` (NaN if None). Geometry from
-    ``planner.sky.geometry.geometry``; the other keywords go to :func:`photometry_columns`.
-    """
-    times = np.asarray(times_utc, dtype="datetime64[ns]")
-    if site_names is None:
-        if len(sites) != 1:
-            raise ValueError("times without site names need exactly one site")
-        site_names = [sites[0].name] * times.size
-    names = np.asarray(site_names, dtype=object)
-    if names.shape != times.shape:
-        raise ValueError(f"{names.size} site names for {times.size} times")
-    exp = None if exposure_s is None else np.broadcast_to(np.asarray(exposure_s, dtype=float), times.shape)
-    out = np.full(times.shape, np.nan)
-    by_name = {s.name: s for s in sites}
-    for name in dict.fromkeys(names.tolist()):  # loop over sites, never over epochs
-        site = by_name.get(name)
-        if site is None or site.instrument is None:
-            continue
-        idx = np.flatnonzero(names == name)
-        geom = geometry(target, times[idx], [site])[site.name]
-        extra = dict(kwargs)
-        if exp is not None:
-            extra["exposure_s"] = exp[idx]
-        out[idx] = mag_err_from_geometry(geom, site.instrument, **extra)
-    if fallback_mag_err is not None:
-        out = np.where(np.isfinite(out), out, float(fallback_mag_err))
-    return out
-
-
-def log_mag_err(
-    target: Target | None,
-    times_utc: np.ndarray,
-    site_names: Sequence[str] | None,
-    sites: Sequence[Site],
-    *,
-    logged_mag_err: np.ndarray | None,
-    exposure_s: np.ndarray | None,
-    fallback_mag_err: float,
-    **kwargs: Any,
-) -> tuple[np.ndarray, dict[str, int]]:
-    """Photometric σ (mag) of each logged point and where each came from.
-
-    Priority: the log's own ``mag_err``; else the model of the site's instrument (needs the target
-    and an instrumented site, :func:`mag_err_for_times`); else ``fallback_mag_err``. Returns the
-    σ array and the counts ``{"log": n, "model": n, "fallback": n}``.
-    """
-    times = np.asarray(times_utc, dtype="datetime64[ns]")
-    err = np.full(times.shape, np.nan)
-    if logged_mag_err is not None:
-        err = np.asarray(logged_mag_err, dtype=float).copy()
-    from_log = np.isfinite(err)
-    model = np.full(times.shape, np.nan)
-    if target is not None and sites and not from_log.all():
-        model = mag_err_for_times(target, times, site_names, sites, exposure_s=exposure_s, **kwargs)
-    from_model = ~from_log & np.isfinite(model)
-    err = np.where(from_log, err, np.where(from_model, model, float(fallback_mag_err)))
-    counts = {
-        "log": int(from_log.sum()),
-        "model": int(from_model.sum()),
-        "fallback": int((~from_log & ~from_model).sum()),
-    }
-    return err, counts

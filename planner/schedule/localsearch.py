@@ -36,8 +36,8 @@ class SearchStats:
 
 def fits(grid: SlotGrid, visits: list[Visit], new: Visit, ignore: Visit | None = None) -> bool:
     """Whether ``new`` may join ``visits`` (minus ``ignore``): inside a usable interval, length rules,
-    at least one free slot from the site-night's other visits, the night's count and hour budget,
-    and the site's whole-campaign budget."""
+    at least ``grid.min_gap_slots`` from the site-night's other visits, the night's count and hour
+    budget, and the site's whole-campaign budget."""
     part = grid.site_nights[new.site_night]
     if new.length < grid.min_slots or new.length > grid.max_slots or new.length <= grid.setup_slots:
         return False
@@ -48,8 +48,9 @@ def fits(grid: SlotGrid, visits: list[Visit], new: Visit, ignore: Visit | None =
         return False
     if sum(v.length for v in same) + new.length > part.budget_slots:
         return False
+    gap = grid.min_gap_slots
     for v in same:
-        if new.start <= v.stop and v.start <= new.stop:  # overlap or touch: would be one visit
+        if new.start < v.stop + gap and v.start < new.stop + gap:  # overlap, touch or a useless pause
             return False
     budget = grid.site_budget_slots.get(part.site_index)
     if budget is not None:
@@ -59,6 +60,39 @@ def fits(grid: SlotGrid, visits: list[Visit], new: Visit, ignore: Visit | None =
         if used + new.length > budget:
             return False
     return True
+
+
+def separate_close_visits(grid: SlotGrid, visits: list[Visit]) -> list[Visit]:
+    """Visits of one site-night closer than ``grid.min_gap_slots`` (the greedy leaves them: its elements
+    merge only when they touch) become one visit, the pause filled, when the rules allow it (a
+    merged visit's science slots hold both visits', so coverage can only grow), or cut as little as
+    the length and hour rules ask; else the later one starts, or the earlier one ends, a full gap
+    away; else the shorter one goes. All but the first can leave the greedy's schedule below the
+    value of its elements (the greedy's bound is about those); the local search starts from the
+    result either way."""
+    out = sorted(visits, key=lambda v: (v.site_night, v.start))
+    i = 0
+    while i + 1 < len(out):
+        a, b = out[i], out[i + 1]
+        if a.site_night != b.site_night or b.start - a.stop >= grid.min_gap_slots:
+            i += 1
+            continue
+        rest = out[:i] + out[i + 2 :]
+        gap = grid.min_gap_slots
+        span = max(a.stop, b.stop) - a.start
+        options = [
+            *([Visit(a.site_night, a.start, n)] for n in range(span, a.length, -1)),
+            [a, Visit(b.site_night, a.stop + gap, b.stop - a.stop - gap)],
+            [Visit(a.site_night, a.start, b.start - gap - a.start), b],
+            [max(a, b, key=lambda v: (v.length, -v.start))],
+        ]
+        for pair in options:
+            if all(v.length > 0 and fits(grid, rest + pair[:k], v) for k, v in enumerate(pair)):
+                out[i : i + 2] = pair
+                break
+        else:  # nothing fits: drop both
+            out[i : i + 2] = []
+    return sorted(out, key=lambda v: (v.start, v.site_night))
 
 
 def _neighbours(v: Visit) -> list[Visit]:
@@ -113,12 +147,17 @@ def _candidates(
         n_in[v.site_night] += 1
         used[v.site_night] += v.length
     budget = np.array([p.budget_slots for p in grid.site_nights])
-    room = (n_in < grid.max_per_night) & (budget - used >= np.array([p.unit_slots for p in grid.site_nights]))
+    room = (n_in < grid.max_per_night) & (budget - used >= grid.min_slots)
     ok = room[grid.elem_site_night]
+    # An element that comes within a gap of a visit of its site-night keeps its longer part outside.
+    starts, stops = grid.elem_start.copy(), grid.elem_start + grid.elem_len
     for v in others:
-        same = grid.elem_site_night == v.site_night
-        clash = (grid.elem_start <= v.stop) & (v.start <= grid.elem_start + grid.elem_len)
-        ok &= ~(same & clash)
+        lo, hi = v.start - grid.min_gap_slots, v.stop + grid.min_gap_slots
+        over = (grid.elem_site_night == v.site_night) & (starts < hi) & (lo < stops)
+        right = stops - hi > lo - starts
+        starts = np.where(over & right, np.maximum(starts, hi), starts)
+        stops = np.where(over & ~right, np.minimum(stops, lo), stops)
+    ok &= stops - starts >= grid.min_slots
     idx = np.flatnonzero(ok)
     if idx.size == 0:
         return []
@@ -129,7 +168,7 @@ def _candidates(
         picks += list(rng.choice(rest, size=min(_RANDOM_K, rest.size), replace=False))
     out = []
     for e in picks:
-        v = Visit(int(grid.elem_site_night[e]), int(grid.elem_start[e]), int(grid.elem_len[e]))
+        v = Visit(int(grid.elem_site_night[e]), int(starts[e]), int(stops[e] - starts[e]))
         if fits(grid, others, v):
             out.append(v)
     return out

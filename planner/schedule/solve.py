@@ -272,6 +272,7 @@ def schedule_core(
         opt.visits,
         lost=None if done is None else done.lost,
         not_before_utc=None if done is None else done.end_utc,
+        not_before_site=None if done is None else done.end_site,
         observed_h=kwargs.get("used_h"),
     )
     return PlanCore(

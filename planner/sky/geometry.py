@@ -11,7 +11,9 @@ Route (Explanatory Supplement to the Astronomical Almanac, 3rd ed., ch. 7):
    each site then shifts by its own small τ difference using the target's velocity, exact to far
    below a milliarcsecond).
 3. Astrometric RA/Dec: the ICRF direction from the observer at t to the target at t − τ (no
-   aberration, no light deflection), like a star catalogue position.
+   aberration, no light deflection), like a star catalogue position. Apparent RA/Dec of date: that
+   direction plus aberration (step 4), rotated by precession and nutation to the true equator and
+   equinox of date (where a mount set to the date's coordinates points).
 4. Altitude and azimuth: the astrometric vector plus aberration by the observer's barycentric
    velocity (skyfield's relativistic formula), rotated to the local horizon. Gravitational light
    deflection by the Sun (≤ 0.02″ beyond 30° elongation) is neglected; nutation uses IAU 2000B
@@ -271,10 +273,14 @@ def _observer_frame(
     rate_north = np.einsum("ij,ij->i", p_dot, north) / delta * ARCSEC_PER_RAD / 1440.0
     mag, law = predicted_mag(target.kind, target.brightness, r, delta, phase)
     pab_lon, pab_lat = phase_angle_bisector_deg(helio, p)
+    apparent, of_date = _apparent(sky, p, obs_v, tau)
+    ra_app, dec_app = _radec_deg(of_date)
     cols: dict[str, np.ndarray] = {
         "time_utc": sky.times_utc,
         "ra_deg": ra,
         "dec_deg": dec,
+        "ra_app_deg": ra_app,
+        "dec_app_deg": dec_app,
         "helio_dist_au": r,
         "obs_dist_au": delta,
         "light_time_minutes": tau * 1440.0,
@@ -292,7 +298,7 @@ def _observer_frame(
         "pab_lat_deg": pab_lat,
     }
     if site is not None:
-        cols.update(_site_columns(sky, site, topo, p, tau, obs_au, obs_v))
+        cols.update(_site_columns(sky, site, topo, p, apparent, ra_app / 15.0, obs_au))
     frame = pd.DataFrame(cols)
     colours, colour_source = target.colours()
     frame.attrs.update(
@@ -307,20 +313,25 @@ def _observer_frame(
     return frame
 
 
-def _site_columns(
-    sky: _SkyAtTimes, site: Site, topo, p: np.ndarray, tau: np.ndarray, obs_au: np.ndarray, obs_v: np.ndarray
-) -> dict[str, np.ndarray]:
+def _apparent(sky: _SkyAtTimes, p: np.ndarray, obs_v: np.ndarray, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The astrometric vectors ``p`` (N, 3) with aberration by the observer's velocity (skyfield's
+    relativistic formula), in ICRF axes and rotated to the true equator and equinox of date (skyfield's
+    precession-nutation matrix ``M``: IAU 2006 precession, IAU 2000B nutation here, frame bias)."""
     from skyfield.functions import mxv
     from skyfield.relativity import add_aberration
 
     apparent = p.T.copy()
     add_aberration(apparent, obs_v.T, tau)
-    apparent = apparent.T
+    of_date = mxv(sky.t.M if sky.t.M.ndim == 3 else sky.t.M[:, :, None], apparent)
+    return apparent.T, np.atleast_2d(of_date.T)
+
+
+def _site_columns(
+    sky: _SkyAtTimes, site: Site, topo, p: np.ndarray, apparent: np.ndarray, ra_date_h: np.ndarray, obs_au: np.ndarray
+) -> dict[str, np.ndarray]:
     alt_true, az = sky.local(topo, apparent)
     alt = site_apparent_alt_deg(site, alt_true)
     # Hour angle: local apparent sidereal time minus the apparent right ascension of date.
-    of_date = mxv(sky.t.M if sky.t.M.ndim == 3 else sky.t.M[:, :, None], apparent.T)
-    ra_date_h = np.degrees(np.arctan2(of_date[1], of_date[0])) / 15.0
     last_h = np.atleast_1d(topo.lst_hours_at(sky.t))
     hour_angle = (last_h - ra_date_h + 12.0) % 24.0 - 12.0
     to_sun = sky.sun_au - obs_au
