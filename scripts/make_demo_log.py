@@ -36,7 +36,7 @@ sys.path.insert(0, str(ROOT))
 from planner.inputs.campaign import load_campaign  # noqa: E402
 from planner.lightcurve.geometry import point_geometry  # noqa: E402
 from planner.visibility.windows import observable_windows  # noqa: E402
-from tests.lightcurve_synth import ellipsoid_area, rotation_cycles  # noqa: E402
+from tests.lightcurve_synth import ellipsoid_rotation_mag  # noqa: E402
 
 CAMPAIGN = ROOT / "demo_targets" / "demo-campaign.toml"
 OUT = ROOT / "demo_targets" / "demo-first-nights.csv"
@@ -91,12 +91,14 @@ def main() -> None:
     for site, night, t in runs(campaign):
         geo = point_geometry(target, t, np.full(t.size, site, dtype=object), campaign.sites)
         emit_d = (t - t_ref).astype(np.int64) / 8.64e13 - geo["light_time_minutes"] / 1440.0
-        psi = 2 * np.pi * rotation_cycles(emit_d, PERIOD_H, 0.0) + 0.4
-        th = np.radians(ASPECT_DEG)
-        view = np.stack([np.sin(th) * np.cos(psi), -np.sin(th) * np.sin(psi), np.full_like(psi, np.cos(th))], axis=-1)
-        nucleus = ellipsoid_area(AXES, view) * (1.0 + ALBEDO_CONTRAST * np.cos(psi))
-        nucleus = nucleus / ellipsoid_area(AXES, np.array([np.sin(th), 0.0, np.cos(th)]))
-        rotation = -2.5 * np.log10(1.0 - NUCLEUS_FRACTION + NUCLEUS_FRACTION * nucleus)
+        rotation = ellipsoid_rotation_mag(
+            emit_d,
+            PERIOD_H,
+            axes=AXES,
+            aspect_deg=ASPECT_DEG,
+            albedo_contrast=ALBEDO_CONTRAST,
+            nucleus_fraction=NUCLEUS_FRACTION,
+        )
         sigma = np.round(rng.uniform(*SIGMA_RANGE_MAG, t.size), 3)
         mag = (
             b.M1

@@ -136,6 +136,34 @@ def lightcurve_section(doc: dict, heading: str = "Light curve: period, fading, p
     return "".join(parts)
 
 
+def replan_lightcurve_section(doc: dict, diagnostics: dict) -> str:
+    """The plan report's light-curve section (a folder planned with ``--done LOG.csv`` with magnitudes):
+    the fit of the log, and how well plan and baseline tell its candidate periods apart."""
+    disc = diagnostics.get("discrimination") or {}
+    rows = [
+        [
+            "least expected Δχ² between two candidates at the new points",
+            json_num(diagnostics, "discrimination.expected_min_delta_chi2.plan", 1),
+            json_num(diagnostics, "discrimination.expected_min_delta_chi2.baseline", 1),
+        ]
+    ]
+    intro = (
+        "<p>The log's magnitudes were fitted first. The plan's trial periods are windows around the "
+        "candidate periods below, and the optimiser maximised how well the new slots tell them apart: for "
+        "each pair of candidate models the expected Δχ² = Σ (m<sub>i</sub> − m<sub>j</sub>)²/σ² at the new "
+        "points (Atkinson &amp; Fedorov 1975, T-optimal design); the table gives the smallest pair. Candidates: "
+        + ", ".join(
+            json_num(diagnostics, f"discrimination.candidates_h.{i}", 4, " h")
+            for i in range(len(disc.get("candidates_h") or []))
+        )
+        + ".</p>"
+        + table(["", "plan", "baseline"], rows, "discrimination")
+    )
+    section = lightcurve_section(doc, "Light curve of the log, and the candidates the plan separates")
+    head, _, rest = section.partition("</h2>")
+    return head + "</h2>" + intro + rest
+
+
 def render_fit_report(doc: dict, title: str = "", source: str = "") -> str:
     """The page of one fit (``phasewise fit --report``): what was fitted, the light-curve section, cautions."""
     inp = doc.get("input") or {}
