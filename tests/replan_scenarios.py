@@ -44,16 +44,17 @@ MATCH_FRACTION = 0.02
 
 @dataclass(frozen=True)
 class Scenario:
-    """An invented re-planning situation on the demo comet made fainter (so the new points are few
-    and noisy enough that where they go matters)."""
+    """An invented re-planning situation: three nights logged at one site (the rest lost), then one
+    night left at two sites, 2 h each, on the demo comet made fainter (M1 = 16: σ ≈ 0.05–0.1 mag per
+    5-min point), so that where the few new points go decides what they tell."""
 
     name: str
     period_h: float
     seed: int
     log_site: str
+    sites: tuple[str, ...]
     first_nights: int = 3
     rest_nights: int = 1
-    sites: tuple[str, ...] = ("Quebrada Alta", "Karoo Ridge")
     hours_per_night: float = 2.0
     m1: float = 16.0
     log_hours: float = 4.0
@@ -61,10 +62,14 @@ class Scenario:
     cadence_s: float = 300.0
 
 
+#: Chosen among seeds 1–8 of a few periods and log sites for two or three aliases within Δχ² < 25 of the
+#: best (the truth best or not); the seeds were picked for that, never for how a plan did.
 SCENARIOS = (
-    Scenario("one site, 13.1 h", period_h=13.1, seed=3, log_site="Quebrada Alta"),
-    Scenario("one site, 10.7 h", period_h=10.7, seed=5, log_site="Quebrada Alta"),
-    Scenario("one site, 16.3 h", period_h=16.3, seed=2, log_site="Karoo Ridge", sites=("Kahili Summit", "Karoo Ridge")),
+    Scenario("Salmon Gum log, 14.3 h", 14.3, 4, "Salmon Gum", ("Salmon Gum", "Quebrada Alta")),
+    Scenario("Salmon Gum log, 21.0 h", 21.0, 8, "Salmon Gum", ("Salmon Gum", "Quebrada Alta")),
+    Scenario("Karoo Ridge log, 17.6 h", 17.6, 1, "Karoo Ridge", ("Karoo Ridge", "Kahili Summit")),
+    Scenario("Salmon Gum log, 19.5 h", 19.5, 1, "Salmon Gum", ("Salmon Gum", "Quebrada Alta")),
+    Scenario("Kahili Summit log, 14.3 h", 14.3, 3, "Kahili Summit", ("Kahili Summit", "Karoo Ridge")),
 )
 
 

@@ -67,7 +67,7 @@ def register(app: typer.Typer) -> None:
         ] = None,
     ) -> None:
         """Fit the light curve of a log: rotation period with its alias candidates, fading, period change."""
-        from planner.commands.check import _hours
+        from planner.commands.check import period_range_h
         from planner.core.fileio import write_text_atomic
         from planner.inputs.obslog import read_observation_log
         from planner.inputs.sites import load_site
@@ -79,9 +79,7 @@ def register(app: typer.Typer) -> None:
 
         if fmt not in ("table", "json"):
             raise InputError("command line", "--format", f"{fmt!r}: choose table or json")
-        p_min, p_max = _hours(min_period, "--min-period"), _hours(max_period, "--max-period")
-        if p_max < p_min:
-            raise InputError("command line", "--max-period", "is shorter than --min-period")
+        p_min, p_max = period_range_h(min_period, max_period)
         sigma_n = _night_sigma(night_offset_sigma)
         log = read_observation_log(log_csv)
         tgt = load_target(target, object_name)

@@ -149,3 +149,21 @@ def fit_text(doc: dict, *, zero_points: bool = True) -> str:
     for note in inp.get("notes") or []:
         lines.append(f"Note: {note}")
     return "\n".join(lines) + "\n"
+
+
+def fit_brief(doc: dict) -> str:
+    """Three lines of a fit: period and verdict, candidates, fading and period change."""
+    p, f, pc = doc["periods"], doc["fading"], doc["period_change"]
+    cands = ", ".join(f"{c['period_h']:.4g} h (Δχ² {c['delta_chi2']:.1f})" for c in p["candidates"])
+    fading = (
+        f"K1 {_num(f['k1'], '.3g')} ± {_num(f['k1_sigma'], '.2g')} (expected {_num(f['expected_k1'], '.3g')})"
+        if f.get("measurable")
+        else "fading not measurable"
+    )
+    return (
+        f"best rotation period {_num(p['best_h'], '.4f')} ± {_num(p['sigma_h'], '.2g')} h, "
+        f"{'double' if p['double_peaked'] else 'single'}-peaked; {p['verdict']}\n"
+        f"candidates: {cands}\n"
+        f"{fading}; period change {_num(pc['rate_h_per_day'], '+.2g')} ± "
+        f"{_num(pc['rate_sigma_h_per_day'], '.2g')} h/day\n"
+    )
