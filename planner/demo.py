@@ -15,15 +15,14 @@ from __future__ import annotations
 import time
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from planner.core.errors import InputError
 from planner.core.fileio import write_text_atomic
-from planner.inputs.campaign import load_campaign
-from planner.inputs.donelog import read_done_log
 from planner.outputs.layout import REPORT_HTML
-from planner.outputs.planfolder import lightcurve_json, write_plan_folder
-from planner.outputs.report_fit import render_fit_report
-from planner.pipeline import PlanResult, plan_campaign
+
+if TYPE_CHECKING:
+    from planner.pipeline import PlanResult
 
 DEMO_DIR = Path(__file__).resolve().parent.parent / "demo_targets"
 DEMO_CAMPAIGN = DEMO_DIR / "demo-campaign.toml"
@@ -60,6 +59,17 @@ def check_demo_folder(out_dir: Path) -> None:
         )
 
 
+def plan_campaign(campaign, target, done=None, **kwargs) -> PlanResult:
+    """:func:`planner.pipeline.plan_campaign`, imported when first called (tests replace this name)."""
+    from planner.pipeline import plan_campaign as plan
+
+    return plan(campaign, target, done, **kwargs)
+
+
+def _plan(campaign, target, done, check_trials: int | None) -> PlanResult:
+    return plan_campaign(campaign, target, done, check_trials=check_trials)
+
+
 def run_demo(
     out_dir: str | Path = DEFAULT_OUT,
     campaign_path: str | Path = DEMO_CAMPAIGN,
@@ -71,6 +81,12 @@ def run_demo(
 
     ``check_trials``: injection–recovery trials per diagnostics run (default: the campaign's).
     """
+    # Imported here, so `phasewise --help` (which reads DEFAULT_OUT) stays quick.
+    from planner.inputs.campaign import load_campaign
+    from planner.inputs.donelog import read_done_log
+    from planner.outputs.planfolder import lightcurve_json, write_plan_folder
+    from planner.outputs.report_fit import render_fit_report
+
     t0 = time.perf_counter()
     out = Path(out_dir)
     check_demo_folder(out)
@@ -83,7 +99,7 @@ def run_demo(
         )
     campaign = load_campaign(campaign_path)
     target = campaign.load_target()
-    result = plan_campaign(campaign, target, check_trials=check_trials)
+    result = _plan(campaign, target, None, check_trials)
     write_plan_folder(result, out, force=True)
     write_text_atomic(
         out / DEMO_MARKER, "Written by `phasewise demo`; a later `phasewise demo` replaces this folder.\n"
@@ -91,7 +107,7 @@ def run_demo(
     demo = DemoResult(out_dir=out, report_path=out / REPORT_HTML, plan=result, seconds=0.0)
     if log_path is not None:
         done = read_done_log(log_path, campaign.sites)
-        demo.replan = plan_campaign(campaign, target, done, check_trials=check_trials)
+        demo.replan = _plan(campaign, target, done, check_trials)
         write_plan_folder(demo.replan, out / REPLAN_DIR, force=True)
         demo.replan_report_path = out / REPLAN_DIR / REPORT_HTML
         doc = lightcurve_json(demo.replan)

@@ -7,8 +7,6 @@ from typing import Annotated
 
 import typer
 
-from planner.outputs.report import write_report
-
 
 def register(app: typer.Typer) -> None:
     @app.command("report")
@@ -20,5 +18,7 @@ def register(app: typer.Typer) -> None:
         The report is one self-contained HTML page (figures embedded, nothing fetched from the network):
         open it from disk or send it on.
         """
+        from planner.outputs.report import write_report
+
         path = write_report(plan_dir)
         typer.echo(f"report: {path}")
