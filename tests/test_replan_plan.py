@@ -140,3 +140,32 @@ def test_demo_command_prints_the_loop(demo_run, monkeypatch, capsys):
         "replan/report.html",
     ):
         assert words in out, words
+
+
+def test_plan_command_prints_the_fit_and_the_json_carries_the_discrimination(
+    demo_plan, demo_replan, monkeypatch, capsys
+):
+    from clirun import run_cli
+
+    campaign, _ = demo_plan
+    monkeypatch.setattr("planner.pipeline.plan_campaign", lambda *a, **k: demo_replan)
+    log = campaign.path.parent / "demo-first-nights.csv"
+    r = run_cli(capsys, "plan", campaign.path, "--done", log)
+    assert r.returncode == 0, r.stderr
+    assert r.stdout.count("light curve of the log:") == 1 and "candidates: 13.89 h" in r.stdout
+    r = run_cli(capsys, "plan", campaign.path, "--done", log, "--format", "json")
+    doc = json.loads(r.stdout)
+    assert doc["discrimination"]["candidates_h"] == demo_replan.discrimination.candidates_h
+
+
+def test_replan_pages_render_in_headless_chromium(demo_folder):
+    from browser import Browser, find_chromium
+
+    exe = find_chromium()
+    if exe is None:
+        pytest.skip("headless Chromium not found: install the Debian packages chromium and chromium-driver")
+    with Browser(exe) as b:
+        for page in (demo_folder / "replan" / "report.html", demo_folder / "first-nights-fit.html"):
+            b.open(page)
+            ok = b.evaluate("Array.from(document.images).every(i => i.complete && i.naturalWidth > 100)")
+            assert ok and b.problems() == [], page
