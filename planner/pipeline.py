@@ -35,7 +35,7 @@ from planner.inputs.campaign import Campaign
 from planner.inputs.donelog import DoneLog
 from planner.inputs.targets import Target
 from planner.lightcurve.fit import LightCurveFit, fit_light_curve
-from planner.lightcurve.logpoints import LogLightCurve, expected_k1, log_light_curve
+from planner.lightcurve.logpoints import FALLBACK_MAG_ERR, LogLightCurve, expected_k1, log_light_curve
 from planner.lightcurve.model import NIGHT_OFFSET_SIGMA_MAG
 from planner.lightcurve.points import nights_from_gaps
 from planner.schedule.blocktable import binned_points, block_table
@@ -242,7 +242,7 @@ def fit_done_log(campaign: Campaign, target: Target, done: DoneLog) -> LightCurv
         "nterms": fit.nterms,
         "night_offset_sigma_mag": NIGHT_OFFSET_SIGMA_MAG,
         "expected_k1_source": k1_source,
-        "fallback_mag_err": 0.02,
+        "fallback_mag_err": FALLBACK_MAG_ERR,
     }
     return LightCurveReplan(fit, curve, settings, candidate_periods(fit, target, start, stop))
 

@@ -40,6 +40,8 @@ from planner.sky.brightness import LAW_HG, LAW_NUCLEAR, LAW_TOTAL, law_name, pre
 K1_FROM_TARGET, K1_FROM_OPTION, K1_DEFAULT = "target", "option", "default"
 #: Label of points whose log gives no site.
 NO_SITE = "(no site)"
+#: σ (mag) of a point when neither the log nor an instrument model gives one (as ``check``'s --mag-err).
+FALLBACK_MAG_ERR = 0.02
 
 
 @dataclass(frozen=True)
@@ -128,7 +130,7 @@ def log_light_curve(
     sites: Sequence[Site] = (),
     *,
     site_names: np.ndarray | None = None,
-    fallback_mag_err: float = 0.02,
+    fallback_mag_err: float = FALLBACK_MAG_ERR,
     phase_law: bool = True,
 ) -> LogLightCurve:
     """The light curve of ``log``'s rows with a magnitude (module docstring for every rule).
