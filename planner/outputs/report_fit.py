@@ -151,7 +151,8 @@ def replan_lightcurve_section(doc: dict, diagnostics: dict) -> str:
         "<p>The log's magnitudes were fitted first. The plan's trial periods are windows around the "
         "candidate periods below, and the optimiser maximised how well the new slots tell them apart: for "
         "each pair of candidate models the expected Δχ² = Σ (m<sub>i</sub> − m<sub>j</sub>)²/σ² at the new "
-        "points (Atkinson &amp; Fedorov 1975, T-optimal design); the table gives the smallest pair. Candidates: "
+        "points, each new night's zero point free (Atkinson &amp; Fedorov 1975, T-optimal design); the table "
+        "gives the smallest pair (pairs of nested periods, P and P/2, left out). Candidates: "
         + ", ".join(
             json_num(diagnostics, f"discrimination.candidates_h.{i}", 4, " h")
             for i in range(len(disc.get("candidates_h") or []))
