@@ -10,27 +10,38 @@
    :mod:`planner.photometry.points`: frames stacked per slot, plus the per-airmass systematic term);
 5. the plan-versus-baseline comparison.
 
+A log with magnitudes (re-planning) is fitted first (planner.lightcurve.fit_light_curve): its surviving
+candidate periods become the rotation diagnostics' trial periods, and the optimiser gains a term for
+telling them apart (planner.schedule.discrimination); both schedules' expected least Δχ² between two
+candidates is then measured on their light-curve points, by the discriminate module's own route.
+
 No file is read or written here: the command shell loads the inputs and :mod:`planner.outputs`
 writes the plan folder.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import time
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
-from planner.core.timegrid import time_grid
+from planner.core.timegrid import time_grid, to_jd_utc
 from planner.diagnostics.check import check_times
 from planner.diagnostics.result import CheckResult
 from planner.inputs.campaign import Campaign
 from planner.inputs.donelog import DoneLog
 from planner.inputs.targets import Target
+from planner.lightcurve.fit import LightCurveFit, fit_light_curve
+from planner.lightcurve.logpoints import FALLBACK_MAG_ERR, LogLightCurve, expected_k1, log_light_curve
+from planner.lightcurve.model import NIGHT_OFFSET_SIGMA_MAG
+from planner.lightcurve.points import nights_from_gaps
 from planner.photometry.frames import log_frame_model
-from planner.photometry.points import SLOT_EPOCH
+from planner.photometry.points import SLOT_EPOCH, light_curve_points
 from planner.schedule.blocktable import block_table
+from planner.schedule.discrimination import CandidatePeriods, candidate_periods
 from planner.schedule.quality import slot_precision
 from planner.schedule.robustness import Robustness
 from planner.schedule.slots import SlotGrid
@@ -70,6 +81,36 @@ class ReplanSummary:
 
 
 @dataclass
+class LightCurveReplan:
+    """The fit of a re-plan's log with magnitudes, and the candidates the new plan separates."""
+
+    fit: LightCurveFit
+    curve: LogLightCurve
+    settings: dict
+    candidates: CandidatePeriods
+
+
+@dataclass
+class Discrimination:
+    """How well plan and baseline tell the candidates apart: the least expected Δχ² over pairs at their
+    new light-curve points, ``(plan, baseline)`` (None with fewer than two candidates or no points)."""
+
+    candidates_h: list[float]
+    expected_min_delta_chi2: tuple[float | None, float | None]
+    period_grid_h: list[float]
+    pairs_h: list[list[float]] = field(default_factory=list)
+
+    def to_dict(self) -> dict:
+        plan, base = self.expected_min_delta_chi2
+        return {
+            "candidates_h": self.candidates_h,
+            "expected_min_delta_chi2": {"plan": plan, "baseline": base},
+            "pairs_h": self.pairs_h,
+            "period_grid_h": self.period_grid_h,
+        }
+
+
+@dataclass
 class PlanResult:
     """Everything ``phasewise plan`` writes and prints."""
 
@@ -95,6 +136,9 @@ class PlanResult:
     nights: pd.DataFrame = field(default_factory=pd.DataFrame)
     #: Notes on the target's motion over the campaign: close approaches, distance from the elements' epoch.
     notes: list[str] = field(default_factory=list)
+    #: The fit of a log with magnitudes and its candidates (None without magnitudes).
+    light_curve: LightCurveReplan | None = None
+    discrimination: Discrimination | None = None
 
     @property
     def target_name(self) -> str:
@@ -198,6 +242,50 @@ def diagnose_points(
     )
 
 
+def fit_done_log(campaign: Campaign, target: Target, done: DoneLog) -> LightCurveReplan:
+    """Fit the light curve of a re-plan's log (its rows with a magnitude) over the campaign's period
+    range, with the defaults of ``phasewise fit``, and keep its surviving candidates."""
+    rot = campaign.rotation
+    curve = log_light_curve(done.log, target, campaign.sites, site_names=done.site)
+    k1, k1_source = expected_k1(target, None)
+    fit = fit_light_curve(curve.points, min_period_h=rot.min_period_h, max_period_h=rot.max_period_h, expected_k1=k1)
+    start = t_ref_for(campaign)
+    stop = start + np.timedelta64(campaign.nights + 2, "D")
+    settings = {
+        "min_period_h": rot.min_period_h,
+        "max_period_h": rot.max_period_h,
+        "nterms": fit.nterms,
+        "night_offset_sigma_mag": NIGHT_OFFSET_SIGMA_MAG,
+        "expected_k1_source": k1_source,
+        "fallback_mag_err": FALLBACK_MAG_ERR,
+    }
+    return LightCurveReplan(fit, curve, settings, candidate_periods(fit, target, start, stop))
+
+
+def discrimination_of(
+    candidates: CandidatePeriods, periods_h: np.ndarray, points: dict[str, pd.DataFrame]
+) -> Discrimination:
+    """The least expected Δχ² between two candidates at each schedule's light-curve points (their σ as
+    :func:`planner.photometry.points.light_curve_points` gives it, the extinction term included)."""
+
+    def least(p: pd.DataFrame) -> float | None:
+        if candidates.n_pairs == 0 or p.empty:
+            return None
+        sigma = p["mag_err"].to_numpy(dtype=float)
+        ok = np.isfinite(sigma) & (sigma > 0)
+        times = p["time_utc"].to_numpy("datetime64[ns]")[ok]
+        site = p["site"].to_numpy(dtype=object)[ok]
+        nights = nights_from_gaps(to_jd_utc(times), site)  # each new site-night's zero point free
+        return float(candidates.pair_delta_chi2(times, sigma[ok], nights).min())
+
+    return Discrimination(
+        candidates_h=candidates.candidates_h,
+        expected_min_delta_chi2=(least(points["plan"]), least(points["baseline"])),
+        period_grid_h=[float(x) for x in periods_h],
+        pairs_h=candidates.pairs_h,
+    )
+
+
 def plan_campaign(
     campaign: Campaign,
     target: Target,
@@ -231,6 +319,12 @@ def plan_campaign(
         comparison and night notes; :func:`planner.outputs.planfolder.write_plan_folder` writes it.
     """
     timings: dict[str, float] = {}
+    light_curve = None
+    if done is not None and done.has_magnitudes:
+        t = time.perf_counter()
+        light_curve = fit_done_log(campaign, target, done)
+        timings["light_curve_fit"] = time.perf_counter() - t
+    candidates = None if light_curve is None else light_curve.candidates
     t = time.perf_counter()
     t_ref = t_ref_for(campaign)
     notes = approach_warnings_utc(target, t_ref, t_ref + np.timedelta64(campaign.nights + 2, "D"))
@@ -247,6 +341,7 @@ def plan_campaign(
         exact=exact,
         exact_time_limit_s=exact_time_limit_s,
         precision_fn=lambda grid: slot_precision(grid, target, campaign.sites, rules),
+        candidates=candidates,
     )
     timings["schedule"] = time.perf_counter() - t
     t = time.perf_counter()
@@ -257,9 +352,25 @@ def plan_campaign(
     t = time.perf_counter()
     trials = campaign.check_trials if check_trials is None else check_trials
     logged = done_frames(campaign, target, done)
+    frames = {"plan": exposures, "baseline": base_exposures}
+    diag_campaign, discrimination = campaign, None
+    if candidates is not None:
+        # The rotation diagnostics look at the candidates: their period range (planner.schedule.discrimination).
+        grid_h = candidates.period_grid_h(campaign.nights * 24.0, campaign.rotation.oversample)
+        rotation = dataclasses.replace(
+            campaign.rotation, min_period_h=float(grid_h.min()), max_period_h=float(grid_h.max())
+        )
+        diag_campaign = dataclasses.replace(campaign, rotation=rotation)
+        points = {
+            k: light_curve_points(
+                f, campaign.block_rules.slot_s, campaign.photometry.sys_err_mag_per_airmass, core.grid.t_ref
+            )
+            for k, f in frames.items()
+        }
+        discrimination = discrimination_of(candidates, grid_h, points)
     checks = {
-        name: diagnose_points(campaign, target, pd.concat([logged, frames], ignore_index=True), trials, core.grid.t_ref)
-        for name, frames in (("plan", exposures), ("baseline", base_exposures))
+        name: diagnose_points(diag_campaign, target, pd.concat([logged, f], ignore_index=True), trials, core.grid.t_ref)
+        for name, f in frames.items()
     }
     timings["diagnostics"] = time.perf_counter() - t
     replan = None
@@ -288,4 +399,6 @@ def plan_campaign(
         timings_s=timings,
         nights=core.nights,
         notes=notes,
+        light_curve=light_curve,
+        discrimination=discrimination,
     )

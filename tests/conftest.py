@@ -34,14 +34,37 @@ def demo_plan():
 
 
 @pytest.fixture(scope="session")
-def demo_folder(demo_plan, tmp_path_factory) -> Path:
-    """The demo's folder as ``phasewise demo`` writes it (run_demo on the session's plan), written once:
-    read it, or copy it before changing anything."""
+def demo_replan(demo_plan):
+    """The demo campaign re-planned once for the whole session from the invented first-nights log with
+    magnitudes (demo_targets/demo-first-nights.csv): the PlanResult, its light-curve fit included."""
+    from planner.inputs.donelog import read_done_log
+    from planner.pipeline import plan_campaign
+
+    campaign = demo_plan[0]
+    done = read_done_log(ROOT / "demo_targets" / "demo-first-nights.csv", campaign.sites)
+    return plan_campaign(campaign, campaign.load_target(), done)
+
+
+@pytest.fixture(scope="session")
+def demo_run(demo_plan, demo_replan, tmp_path_factory):
+    """``phasewise demo``'s run (run_demo on the session's plan and re-plan), written once: its
+    DemoResult. Read its folder, or copy it before changing anything."""
     import planner.demo
 
     out = tmp_path_factory.mktemp("demo") / "phasewise-demo"
     with pytest.MonkeyPatch.context() as mp:
-        mp.setattr(planner.demo, "plan_campaign", lambda *args, **kwargs: demo_plan[1])
+        mp.setattr(
+            planner.demo,
+            "plan_campaign",
+            lambda campaign, target, done=None, **kwargs: demo_plan[1] if done is None else demo_replan,
+        )
         result = planner.demo.run_demo(out)
     assert result.report_path == out / "report.html"
-    return out
+    return result
+
+
+@pytest.fixture(scope="session")
+def demo_folder(demo_run) -> Path:
+    """The demo's folder as ``phasewise demo`` writes it (the first plan at the top, the re-plan in
+    ``replan/``): read it, or copy it before changing anything."""
+    return demo_run.out_dir

@@ -71,6 +71,8 @@ def test_demo_plan_folder_has_the_agreed_files(demo, demo_folder, tmp_path, monk
             "target.toml",
             "sheets",
             "report.html",
+            "replan",  # the re-plan from the first nights' log, and that log's fit
+            "first-nights-fit.html",
         ]
     )
     plan = pd.read_csv(out / "plan.csv")

@@ -191,27 +191,65 @@ def _harmonic_chi2(rng):
     return (harmonic_lsq.harmonic_chi2(t, y, w, f, **kw).chi2, harmonic_lsq.harmonic_chi2_slow(t, y, w, f, **kw).chi2)
 
 
-def _discrimination(rng):
-    from planner.lightcurve.discriminate import (
-        CandidateModel,
-        expected_min_delta_chi2,
-        expected_min_delta_chi2_slow,
-    )
+def _candidate_models(rng, periods, mean_step=0.0):
+    from planner.lightcurve.discriminate import CandidateModel
 
-    models = [
+    return [
         CandidateModel(
             period_h=p,
             delta_chi2=0.0,
             t_ref_jd=T0_JD,
-            mean_mag=15.0,
+            mean_mag=15.0 + mean_step * k,
             k1=10.0,
             log10_r_ref=0.1,
             harmonics=rng.normal(0, 0.1, 4),
         )
-        for p in (6.0, 8.0, 12.0)
+        for k, p in enumerate(periods)
     ]
+
+
+def _discrimination(rng):
+    from planner.lightcurve.discriminate import expected_min_delta_chi2, expected_min_delta_chi2_slow
+
+    models = _candidate_models(rng, (6.0, 8.0, 12.0))
     t, r = _times(rng, 40), rng.uniform(1.2, 1.3, 40)
     return (expected_min_delta_chi2(t, 0.02, models, r), expected_min_delta_chi2_slow(t, 0.02, models, r))
+
+
+def _discrimination_groups(rng):
+    from planner.lightcurve.discriminate import expected_min_delta_chi2, expected_min_delta_chi2_slow
+
+    models = _candidate_models(rng, (7.0, 9.5, 13.0), mean_step=0.05)
+    t, r = _times(rng, 40), rng.uniform(1.2, 1.3, 40)
+    sigma, groups = rng.uniform(0.01, 0.05, 40), rng.integers(0, 4, 40)
+    return (
+        expected_min_delta_chi2(t, sigma, models, r, groups),
+        expected_min_delta_chi2_slow(t, sigma, models, r, groups),
+    )
+
+
+def _visit_moments(rng):
+    from planner.schedule.discrimination import SlotMoments
+
+    model, _, _ = model_for(n_sites=2, n_nights=2, n_periods=20, n_bins=10, seed=int(rng.integers(100)))
+    n = model.grid.part_spans()[2]
+    model.slot_moments = SlotMoments([rng.normal(0, 0.1, (3, n))], [rng.uniform(100, 3000, n)])
+    fast, slow = [], []
+    for p, sn in enumerate(model.grid.site_nights):
+        a, b = sn.intervals[0]
+        length = max(4, (b - a) // 2)
+        s0, s1, s2 = model.visit_moments(np.array([p]), np.array([a]), np.array([length]))
+        t0, t1, t2 = model.visit_moments_slow(p, a, length)
+        fast.append(np.r_[s0, s1[0], s2[0]])
+        slow.append(np.r_[t0, t1, t2])
+    return np.concatenate(fast), np.concatenate(slow)
+
+
+def _soft_minimum(rng):
+    d = rng.uniform(0.0, 60.0, (6, 5))
+    fast = [objective.discrimination(row) for row in d]
+    slow = [objective.discrimination_slow(row) for row in d]
+    return np.array(fast), np.array(slow)
 
 
 def _greedy(rng):
@@ -243,6 +281,9 @@ TWINS = [
     Twin("greedy.greedy_lazy", _greedy),
     Twin("harmonic_lsq.harmonic_chi2", _harmonic_chi2, rtol=1e-8, atol=1e-8),
     Twin("discriminate.expected_min_delta_chi2", _discrimination, rtol=1e-9),
+    Twin("discriminate.expected_min_delta_chi2 (free zero point per group)", _discrimination_groups, rtol=1e-9),
+    Twin("state.PlanModel.visit_moments", _visit_moments, rtol=1e-9, atol=1e-9),
+    Twin("objective.discrimination", _soft_minimum, rtol=1e-12),
 ]
 
 

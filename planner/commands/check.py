@@ -25,6 +25,14 @@ def _hours(text: str, field: str) -> float:
     return value
 
 
+def period_range_h(min_text: str, max_text: str) -> tuple[float, float]:
+    """``--min-period`` and ``--max-period`` in hours, checked (the shorter first)."""
+    p_min, p_max = _hours(min_text, "--min-period"), _hours(max_text, "--max-period")
+    if p_max < p_min:
+        raise InputError("command line", "--max-period", "is shorter than --min-period")
+    return p_min, p_max
+
+
 def _amplitudes(text: str) -> tuple[float, float]:
     parts = text.replace(",", "-").split("-") if "-" in text or "," in text else [text, text]
     try:
@@ -267,9 +275,7 @@ def register(app: typer.Typer) -> None:
 
         if fmt not in ("table", "json"):
             raise InputError("command line", "--format", f"{fmt!r}: choose table or json")
-        p_min, p_max = _hours(min_period, "--min-period"), _hours(max_period, "--max-period")
-        if p_max < p_min:
-            raise InputError("command line", "--max-period", "is shorter than --min-period")
+        p_min, p_max = period_range_h(min_period, max_period)
         for dest, option in ((out, "--out"), (report, "--report"), (plot and plot / "check_coverage.png", "--plot")):
             if dest is not None:
                 check_writable(dest, field=option)

@@ -68,6 +68,8 @@ def register(app: typer.Typer) -> None:
                 "robustness": {k: v.to_dict() for k, v in result.robustness.items()},
                 "nights": records(result.nights),
             }
+            if result.discrimination is not None:
+                doc["discrimination"] = result.discrimination.to_dict()
             sys.stdout.write(json.dumps(json_safe(doc), indent=1) + "\n")
         else:
             sys.stdout.write(
@@ -76,6 +78,11 @@ def register(app: typer.Typer) -> None:
                 + (f" (re-planned from {result.done_log})" if result.done_log else "")
                 + "\n\n"
             )
+            if result.light_curve is not None:
+                from planner.outputs.fitdoc import fit_brief
+                from planner.outputs.planfolder import lightcurve_json
+
+                sys.stdout.write("light curve of the log:\n" + fit_brief(lightcurve_json(result)) + "\n")
             sys.stdout.write(night_table(result.blocks))
             sys.stdout.write(nights_text(result))
             sys.stdout.write(safety_text(result))

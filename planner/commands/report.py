@@ -9,7 +9,6 @@ import typer
 
 from planner.core.fileio import check_writable
 from planner.outputs.layout import REPORT_HTML
-from planner.outputs.report import write_report
 
 
 def register(app: typer.Typer) -> None:
@@ -23,5 +22,7 @@ def register(app: typer.Typer) -> None:
         open it from disk or send it on.
         """
         check_writable(plan_dir / REPORT_HTML, field="PLAN_DIR")
+        from planner.outputs.report import write_report
+
         path = write_report(plan_dir)
         typer.echo(f"report: {path}")

@@ -52,6 +52,10 @@ class Weights:
     hours: float = 0.1
     #: Photometric quality of the time used (planner.schedule.quality): favours low airmass and precise sites.
     quality: float = 1.0
+    #: Telling apart the candidate periods of a fitted light curve (re-planning from a log with
+    #: magnitudes; planner.schedule.discrimination). As much as coverage: separating the candidates the
+    #: data left is what such a re-plan is for, as covering their phases is. Unused without candidates.
+    discrimination: float = 1.0
 
 
 @dataclass(frozen=True)

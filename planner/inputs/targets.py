@@ -166,8 +166,10 @@ def _tdb_jd(f: Fields, key: str) -> float:
         dt = datetime.fromisoformat(text)
     except ValueError:
         raise f.error(key, f"{value!r} is not an ISO 8601 time such as 2034-03-10T22:15 or a Julian date") from None
-    if dt.tzinfo is not None:
-        raise f.error(key, f"{value!r}: give the instant on the TDB scale, without an offset")
+    if dt.tzinfo is not None:  # a TOML offset datetime: its clock reading, on the TDB scale
+        if dt.utcoffset():
+            raise f.error(key, f"{value!r}: give the instant on the TDB scale, without an offset")
+        dt = dt.replace(tzinfo=None)
     jd = 2440587.5 + (dt - datetime(1970, 1, 1)).total_seconds() / 86400.0
     return check_orbit_jd(jd, f.file, f.name(key), value)
 

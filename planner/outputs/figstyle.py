@@ -39,6 +39,16 @@ SITE_STYLES: list[tuple[str, str]] = [
     ("#b9c4a0", "++"),
 ]
 
+#: Marker per site for scattered points (light-curve figures), in the order of SITE_STYLES: shape and
+#: colour both differ, so sites stay apart in greyscale.
+SITE_MARKERS = ("o", "s", "D", "^", "v", "P")
+
+
+def site_style(i: int) -> tuple[str, str]:
+    """(colour, marker) of the i-th site of a figure."""
+    return SITE_STYLES[i % len(SITE_STYLES)][0], SITE_MARKERS[i % len(SITE_MARKERS)]
+
+
 #: Sun-altitude levels (deg) and the grey used below each: day, civil, nautical, astronomical, night.
 DARKNESS_LEVELS_DEG = (-0.833, -6.0, -12.0, -18.0)
 DARKNESS_GREYS = ("#ffffff", "#ececec", "#d9d9d9", "#c4c4c4", "#b0b0b0")

@@ -42,7 +42,8 @@ def num(value, src: str, digits: int = 3, unit: str = "") -> str:
     )
 
 
-def json_num(diag: dict, path: str, digits: int = 3, unit: str = "") -> str:
+def json_num(diag: dict, path: str, digits: int = 3, unit: str = "", file: str = "diagnostics.json") -> str:
+    """The number at dotted ``path`` of a JSON document, its origin ``FILE:path``; a dash when absent."""
     value: object = diag
     for key in path.split("."):
         if isinstance(value, dict) and key in value:
@@ -51,7 +52,7 @@ def json_num(diag: dict, path: str, digits: int = 3, unit: str = "") -> str:
             value = value[int(key)]
         else:
             return '<span class="missing">—</span>'
-    return num(value, f"diagnostics.json:{path}", digits, unit)
+    return num(value, f"{file}:{path}", digits, unit)
 
 
 def figure_html(fig, fig_id: str, caption: str, alt: str) -> str:

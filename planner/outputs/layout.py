@@ -17,6 +17,9 @@ DIAGNOSTICS_JSON = "diagnostics.json"
 WINDOWS_CSV = "windows.csv"
 GEOMETRY_CSV = "geometry.csv"
 NIGHTS_CSV = "nights.csv"
+#: The light-curve fit of a re-plan's log with magnitudes (the ``phasewise fit`` JSON with its arrays);
+#: only in a folder planned with such a log.
+LIGHTCURVE_JSON = "lightcurve.json"
 #: Verbatim copies of the inputs, for the record (the report reads the manifest, not these).
 CAMPAIGN_COPY = "campaign.toml"
 TARGET_COPY = "target.toml"
@@ -32,6 +35,7 @@ PLAN_FILES = (
     WINDOWS_CSV,
     GEOMETRY_CSV,
     NIGHTS_CSV,
+    LIGHTCURVE_JSON,
     CAMPAIGN_COPY,
     TARGET_COPY,
     SHEETS_DIR + "/",

@@ -19,6 +19,7 @@ from planner.core.fileio import PART_SUFFIX, check_writable, signals_held, temp_
 from planner.core.jsonsafe import json_safe
 from planner.core.version import __version__
 from planner.outputs import layout
+from planner.outputs.fitdoc import fit_document
 from planner.outputs.report import write_report
 from planner.outputs.sheets import site_sheet
 from planner.outputs.tablefiles import PLAN_CSV_FLOAT_FORMAT, records, table_for_files
@@ -27,20 +28,28 @@ from planner.sky.brightness import law_name, law_params
 
 
 def diagnostics_json(result: PlanResult) -> dict:
-    """diagnostics.json: both checks, the objective, weather robustness, comparison, re-plan, timings."""
-    return json_safe(
-        {
-            "schema_version": layout.SCHEMA_VERSION,
-            "phasewise_version": __version__,
-            "plan": result.checks["plan"].to_dict(),
-            "baseline": result.checks["baseline"].to_dict(),
-            "objective": result.objective.to_dict(),
-            "robustness": {k: v.to_dict() for k, v in result.robustness.items()},
-            "comparison": result.comparison.to_dict(),
-            "replan": None if result.replan is None else result.replan.to_dict(),
-            "timings_s": result.timings_s,
-        }
-    )
+    """diagnostics.json: both checks, the objective, weather robustness, comparison, re-plan, timings, and
+    (re-planning from a log with magnitudes) how well plan and baseline tell the candidate periods apart."""
+    doc = {
+        "schema_version": layout.SCHEMA_VERSION,
+        "phasewise_version": __version__,
+        "plan": result.checks["plan"].to_dict(),
+        "baseline": result.checks["baseline"].to_dict(),
+        "objective": result.objective.to_dict(),
+        "robustness": {k: v.to_dict() for k, v in result.robustness.items()},
+        "comparison": result.comparison.to_dict(),
+        "replan": None if result.replan is None else result.replan.to_dict(),
+        "timings_s": result.timings_s,
+    }
+    if result.discrimination is not None:
+        doc["discrimination"] = result.discrimination.to_dict()
+    return json_safe(doc)
+
+
+def lightcurve_json(result: PlanResult) -> dict | None:
+    """lightcurve.json: the fit of the re-plan's log with its arrays (None without magnitudes)."""
+    lc = result.light_curve
+    return None if lc is None else fit_document(lc.fit, lc.curve, lc.settings)
 
 
 def plan_manifest(result: PlanResult) -> dict:
@@ -81,7 +90,11 @@ def plan_manifest(result: PlanResult) -> dict:
             "settings": {
                 "rotation": dataclasses.asdict(c.rotation),
                 "blocks": dataclasses.asdict(c.block_rules),
-                "weights": dataclasses.asdict(c.weights),
+                "weights": {
+                    k: v
+                    for k, v in dataclasses.asdict(c.weights).items()
+                    if k != "discrimination" or result.light_curve is not None
+                },
                 "photometry": dataclasses.asdict(c.photometry),
                 "max_gap_h": c.max_gap_h,
                 "weather_trials": c.weather_trials,
@@ -110,6 +123,9 @@ def _write_folder(result: PlanResult, folder: Path) -> None:
     table_for_files(result.windows).to_csv(folder / layout.WINDOWS_CSV, index=False)
     table_for_files(result.geometry).to_csv(folder / layout.GEOMETRY_CSV, index=False, float_format="%.6g")
     result.nights.to_csv(folder / layout.NIGHTS_CSV, index=False, float_format="%.4g")
+    curve = lightcurve_json(result)
+    if curve is not None:
+        _write_json(folder / layout.LIGHTCURVE_JSON, curve)
     shutil.copyfile(result.campaign.path, folder / layout.CAMPAIGN_COPY)
     if result.campaign.target_path.suffix.lower() == ".toml":
         shutil.copyfile(result.campaign.target_path, folder / layout.TARGET_COPY)

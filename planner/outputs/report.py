@@ -21,6 +21,7 @@ from planner.outputs.figstyle import baseline_series, check_times_utc, log_serie
 from planner.outputs.htmlparts import json_num, num, page, table
 from planner.outputs.reader import PlanFolder, load_plan_folder
 from planner.outputs.report_diag import DIAG_TOC, diagnostics_sections
+from planner.outputs.report_fit import FIT_TOC, replan_lightcurve_section
 from planner.outputs.report_sections import (
     blocks_section,
     geometry_section,
@@ -107,9 +108,14 @@ def render_report(plan_dir: str | Path) -> str:
         series.append(baseline_series(check=diag["baseline"]))
         keys.append("baseline")
     rot = pf.rotation
+    if pf.lightcurve is not None:  # re-planned from a light curve: the checks looked at the candidates' range
+        checked = diag["plan"].get("settings") or {}
+        rot = {**rot, **{k: checked[k] for k in ("min_period_h", "max_period_h") if k in checked}}
+    curve = [] if pf.lightcurve is None else [replan_lightcurve_section(pf.lightcurve, diag)]
     body = "\n".join(
         [
             summary_section(pf),
+            *curve,
             geometry_section(pf),
             nights_section(pf),
             timeline_section(pf),
@@ -122,6 +128,7 @@ def render_report(plan_dir: str | Path) -> str:
     subtitle = html.escape(pf.campaign_name) + f" · {len(pf.sites)} sites · {len(pf.nights)} nights"
     toc = [
         ("summary", "Campaign summary"),
+        *([] if pf.lightcurve is None else FIT_TOC),
         ("geometry", "Geometry over the span"),
         ("nights", "Night charts"),
         ("timeline", "Network timeline"),

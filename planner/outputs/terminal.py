@@ -123,6 +123,11 @@ def comparison_text(result: PlanResult) -> str:
     out = [head, f"{'':{w}} {'plan':>9} {'baseline':>9}", f"{'telescope hours':{w}} {hours_p:9.1f} {hours_b:9.1f}"]
     for label, (plan, base), spec in rows:
         out.append(f"{label:{w}} {fixed(plan, spec, 9)} {fixed(base, spec, 9)}")
+    disc = result.discrimination
+    if disc is not None:
+        plan, base = disc.expected_min_delta_chi2
+        label = "least Δχ² between candidate periods (higher is better)"
+        out.append(f"{label:{w}} {fixed(plan, '.1f', 9)} {fixed(base, '.1f', 9)}")
     rp, rb = rob["plan"], rob["baseline"]
     out.append(
         f"{weather:{w}} {rp.expected_worst_period_coverage:5.2f}/{rp.p10_worst_period_coverage:.2f} "
@@ -140,6 +145,12 @@ def comparison_text(result: PlanResult) -> str:
                 f"{obj.exact.coverage_greedy_cells} (ratio {ratio:.3f}; {ex.status})"
             )
     out.append(line)
+    if disc is not None:
+        out.append(
+            "candidate periods from the log's light curve (h): "
+            + ", ".join(f"{p:.4g}" for p in disc.candidates_h)
+            + "; the plan is built to tell them apart"
+        )
     bands = rp.single_site_bands_h
     if bands:
         out.append(

@@ -1,9 +1,11 @@
 """A schedule being optimised: its visits, and the running sums that make the objective cheap to update.
 
 ``PlanModel`` fixes what a schedule is scored on (slot grid, period grid, phase bins, alias
-frequencies, weights, anything already observed). ``PlanState`` holds one schedule plus the
-running cell counts, per-site-night counts and spectral-window sums, so that scoring a move
-(remove some visits, add others) costs O(periods × bins + frequencies), never a full rescore.
+frequencies, weights, anything already observed, and, when re-planning from a light curve, each
+slot's model differences between every pair of candidates). ``PlanState`` holds one schedule plus
+the running cell counts, per-site-night counts, spectral-window sums and per-site-night sums of the
+pairs' differences, so that scoring a move (remove some visits, add others) costs
+O(periods × bins + frequencies + pairs), never a full rescore.
 ``PlanModel.terms`` scores a schedule from scratch and is the reference the tests compare against.
 """
 
@@ -14,9 +16,11 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from planner.inputs.settings import Weights
+from planner.schedule.discrimination import SlotMoments, night_separation
 from planner.schedule.objective import (
     Terms,
     arc_mask,
+    discrimination,
     excess_gap_h,
     pack_cells,
     point_mask,
@@ -76,6 +80,7 @@ class PlanModel:
         done: Done | None = None,
         slot_weight: list[np.ndarray] | None = None,
         slot_quality: list[np.ndarray] | None = None,
+        slot_moments: SlotMoments | None = None,
     ) -> None:
         self.grid = grid
         self.periods_h = np.asarray(periods_h, dtype=float)
@@ -114,6 +119,11 @@ class PlanModel:
         )
         self._phasor_cum = np.vstack([np.zeros((1, self.freq_per_day.size), dtype=complex), np.cumsum(phasors, axis=0)])
         self._weight_cum = np.concatenate([[0.0], np.cumsum(self.slot_weight)])
+        #: Weights and candidate-pair differences of every flat slot, or None without candidates
+        #: (planner.schedule.discrimination).
+        self.slot_moments = slot_moments
+        if slot_moments is not None and slot_moments.n_slots != n_flat:
+            raise ValueError(f"slot_moments holds {slot_moments.n_slots} slots, the site-nights span {n_flat}")
         clear = np.array([p.clear_fraction for p in grid.site_nights], dtype=float)
         self.log_cloudy = np.log1p(-np.clip(clear, *_CLEAR_CLIP))
         lo, hi = grid.span_slots
@@ -162,6 +172,22 @@ class PlanModel:
             weight += float(self.slot_weight[i])
         return total, weight
 
+    @property
+    def n_pairs(self) -> int:
+        """Candidate pairs the discrimination term separates (0 without candidates)."""
+        return 0 if self.slot_moments is None else self.slot_moments.n_pairs
+
+    def visit_moments(
+        self, parts: np.ndarray, starts: np.ndarray, lengths: np.ndarray
+    ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(S0, S1, S2) of each visit's science slots: Σ w, Σ w Δm, Σ w Δm² per pair, from prefix sums."""
+        return self.slot_moments.between(*self.science_flat(parts, starts, lengths))
+
+    def visit_moments_slow(self, part: int, start: int, length: int) -> tuple[float, np.ndarray, np.ndarray]:
+        """Slow twin of :meth:`visit_moments` for one visit: add slot by slot."""
+        a, b = self.science_flat(np.array([part]), np.array([start]), np.array([length]))
+        return self.slot_moments.between_slow(int(a[0]), int(b[0]))
+
     def science_flat(self, part: np.ndarray, start: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Flat index range ``[i0, i1)`` (``slot_quality`` layout) of the science slots of visits."""
         p = np.asarray(part, dtype=np.int64)
@@ -206,8 +232,16 @@ class PlanModel:
 
     # --- scoring from scratch (reference) --------------------------------------------------------
     def combine(
-        self, coverage: float, expected: float, alias: float, gap_h: float, used_slots: int, quality_slots: float = 0.0
+        self,
+        coverage: float,
+        expected: float,
+        alias: float,
+        gap_h: float,
+        used_slots: int,
+        quality_slots: float = 0.0,
+        separation: np.ndarray | None = None,
     ) -> Terms:
+        """The terms and J of a schedule; ``separation``: its expected Δχ² per candidate pair (with candidates)."""
         span = max(self.span_h[1] - self.span_h[0], 1e-9)
         w = self.weights
         gap_frac = gap_h / span
@@ -221,6 +255,10 @@ class PlanModel:
             + w.hours * hours_frac
             + w.quality * quality
         )
+        disc = low = None
+        if self.slot_moments is not None:
+            disc, low = discrimination(np.zeros(self.n_pairs) if separation is None else separation)
+            total += w.discrimination * disc
         return Terms(
             coverage=coverage,
             expected_coverage=expected,
@@ -230,6 +268,8 @@ class PlanModel:
             hours_fraction=hours_frac,
             quality=quality,
             total=total,
+            discrimination=disc,
+            min_delta_chi2=low,
         )
 
     def intervals_h(self, visits: list[Visit]) -> np.ndarray:
@@ -246,6 +286,7 @@ class PlanModel:
         per_part: dict[int, np.ndarray] = {}
         phasor = self.done_phasor.copy()
         n = self.done_n
+        moments: dict[int, list] = {}
         for v in visits:
             m = self.visit_masks(np.array([v.start]), np.array([v.length]))[0]
             covered |= m
@@ -253,6 +294,13 @@ class PlanModel:
             ph, w = self.visit_phasors_slow(v.site_night, v.start, v.length)
             phasor = phasor + ph
             n += w
+            if self.n_pairs:
+                m0, m1, m2 = self.visit_moments_slow(v.site_night, v.start, v.length)
+                acc = moments.setdefault(v.site_night, [0.0, np.zeros(self.n_pairs), np.zeros(self.n_pairs)])
+                acc[0], acc[1], acc[2] = acc[0] + m0, acc[1] + m1, acc[2] + m2
+        separation = np.zeros(self.n_pairs)
+        for m0, m1, m2 in moments.values():
+            separation += night_separation(m0, m1, m2)
         log_surv = np.zeros(covered.shape)
         for p, m in per_part.items():
             log_surv += m * self.log_cloudy[p]
@@ -260,7 +308,13 @@ class PlanModel:
         alias = float(np.abs(phasor).max() / n) if n > 0 and phasor.size else 0.0
         gap = excess_gap_h(self.intervals_h(visits), self.span_h, self.max_gap_h)
         return self.combine(
-            float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits), self.quality_sum(visits)
+            float(covered.mean()),
+            float(expected),
+            alias,
+            gap,
+            sum(v.length for v in visits),
+            self.quality_sum(visits),
+            separation,
         )
 
 
@@ -276,17 +330,29 @@ class PlanState:
         self.log_surv = np.zeros(shape)
         self.phasor = model.done_phasor.copy()
         self.n_slots = model.done_n
-        self._cache: dict[Visit, tuple[np.ndarray, np.ndarray, float]] = {}
+        #: Expected Δχ² per candidate pair over the schedule's science slots, and its share per site-night.
+        self.separation = np.zeros(model.n_pairs)
+        self.night_separation: dict[int, np.ndarray] = {}
+        #: (S0, S1, S2) of each site-night's visits (planner.schedule.discrimination).
+        self.night_moments: dict[int, tuple] = {}
+        self._cache: dict[Visit, tuple] = {}
         for v in visits:
             self.apply([], [v])
         self.current = self.score([], [])
 
-    def _pieces(self, v: Visit) -> tuple[np.ndarray, np.ndarray, float]:
+    def _pieces(self, v: Visit) -> tuple:
+        """A visit's cells, window phasors and weight, and (with candidates) its (S0, S1, S2)."""
         hit = self._cache.get(v)
         if hit is None:
-            m = self.model.visit_masks(np.array([v.start]), np.array([v.length]))[0]
-            ph, w = self.model.visit_phasors(np.array([v.site_night]), np.array([v.start]), np.array([v.length]))
-            hit = (m, ph[0], float(w[0]))
+            model = self.model
+            args = (np.array([v.site_night]), np.array([v.start]), np.array([v.length]))
+            m = model.visit_masks(args[1], args[2])[0]
+            ph, w = model.visit_phasors(*args)
+            mom = None
+            if model.n_pairs:
+                s0, s1, s2 = model.visit_moments(*args)
+                mom = (float(s0[0]), s1[0], s2[0])
+            hit = (m, ph[0], float(w[0]), mom)
             if len(self._cache) > _CACHE_VISITS:
                 self._cache.clear()
             self._cache[v] = hit
@@ -300,7 +366,7 @@ class PlanState:
         touched: dict[int, np.ndarray] = {}
         for sign, group in ((-1, remove), (1, add)):
             for v in group:
-                m, ph, w = self._pieces(v)
+                m, ph, w, _ = self._pieces(v)
                 counts += sign * m
                 phasor += sign * ph
                 n += sign * w
@@ -315,23 +381,52 @@ class PlanState:
             old = self.part_counts.get(p)
             was = np.zeros(pc.shape, dtype=bool) if old is None else old > 0
             log_surv += ((pc > 0).astype(float) - was) * model.log_cloudy[p]
-        return counts, phasor, n, touched, log_surv
+        separation, nights = self.moved_separation(remove, add)
+        return counts, phasor, n, touched, log_surv, separation, nights
+
+    def moved_separation(self, remove: list[Visit], add: list[Visit]) -> tuple[np.ndarray, dict[int, tuple]]:
+        """Pairs' expected Δχ² after a move, and each touched site-night's new (S0, S1, S2, Δχ²), its sums
+        taken afresh from the visits' cached moments (no rounding accumulates)."""
+        if not self.model.n_pairs:
+            return self.separation, {}
+        separation = self.separation.copy()
+        nights: dict[int, tuple] = {}
+        zero = np.zeros(self.model.n_pairs)
+        for p in {v.site_night for v in remove} | {v.site_night for v in add}:
+            kept = [v for v in self.visits if v.site_night == p and v not in remove]
+            moms = [self._pieces(v)[3] for v in kept + [v for v in add if v.site_night == p]]
+            s0 = sum(m[0] for m in moms)
+            s1, s2 = sum((m[1] for m in moms), zero), sum((m[2] for m in moms), zero)
+            new = night_separation(s0, s1, s2)
+            separation += new - self.night_separation.get(p, zero)
+            nights[p] = (s0, s1, s2, new)
+        return separation, nights
 
     def score(self, remove: list[Visit], add: list[Visit]) -> Terms:
         model = self.model
-        counts, phasor, n, _, log_surv = self._updated(remove, add)
+        counts, phasor, n, _, log_surv, separation, _ = self._updated(remove, add)
         covered = (counts > 0) | model.done_cells
         expected = np.where(model.done_cells, 1.0, -np.expm1(log_surv)).mean()
         alias = float(np.abs(phasor).max() / n) if n > 0 and phasor.size else 0.0
         visits = [v for v in self.visits if v not in remove] + list(add)
         gap = excess_gap_h(model.intervals_h(visits), model.span_h, model.max_gap_h)
         return model.combine(
-            float(covered.mean()), float(expected), alias, gap, sum(v.length for v in visits), model.quality_sum(visits)
+            float(covered.mean()),
+            float(expected),
+            alias,
+            gap,
+            sum(v.length for v in visits),
+            model.quality_sum(visits),
+            separation,
         )
 
     def apply(self, remove: list[Visit], add: list[Visit]) -> None:
-        counts, phasor, n, touched, log_surv = self._updated(remove, add)
+        counts, phasor, n, touched, log_surv, separation, nights = self._updated(remove, add)
         self.counts, self.phasor, self.n_slots, self.log_surv = counts, phasor, n, log_surv
+        for p, (s0, s1, s2, sep) in nights.items():
+            self.night_moments[p], self.night_separation[p] = (s0, s1, s2), sep
+        if nights:
+            self.separation = np.sum(list(self.night_separation.values()), axis=0)
         for p, pc in touched.items():
             self.part_counts[p] = pc
         for v in remove:
