@@ -1,15 +1,16 @@
 """The bundled demo campaign, end to end: plan, diagnostics, plan folder and report.
 
-The demo campaign (demo_targets/demo-campaign.toml, an invented comet and four invented sites) is
-planned with :func:`planner.pipeline.plan_campaign`, written with the scheduler's plan-folder writer,
-its report rendered last. The output folder is marked as the demo's, so
-a second run refreshes it while a folder with anything else in it is never touched.
+The demo campaign (package data in planner/data/demo/: an invented comet, four invented sites under
+sites/, and demo-campaign.toml) is planned with :func:`planner.pipeline.plan_campaign`, written with the
+plan-folder writer, its report rendered last. The output folder is marked as the demo's, so a second
+run refreshes it while a folder with anything else in it is never touched.
 """
 
 from __future__ import annotations
 
 import time
 from dataclasses import dataclass
+from importlib.resources import files
 from pathlib import Path
 
 from planner.core.errors import InputError
@@ -19,7 +20,10 @@ from planner.outputs.layout import REPORT_HTML
 from planner.outputs.planfolder import write_plan_folder
 from planner.pipeline import PlanResult, plan_campaign
 
-DEMO_CAMPAIGN = Path(__file__).resolve().parent.parent / "demo_targets" / "demo-campaign.toml"
+#: The bundled demo inputs, shipped as package data (pip installs them with the code): the target and the
+#: campaign file here, the site files under ``sites/``.
+DEMO_DIR = Path(str(files("planner") / "data" / "demo"))
+DEMO_CAMPAIGN = DEMO_DIR / "demo-campaign.toml"
 DEFAULT_OUT = Path("phasewise-demo")
 #: File that marks a folder as written by ``phasewise demo`` (so a later run may replace it).
 DEMO_MARKER = ".phasewise-demo"
@@ -59,7 +63,7 @@ def run_demo(
         raise InputError(
             str(campaign_path),
             "-",
-            "demo campaign not found: run phasewise from its source checkout (pip install -e .)",
+            "demo campaign not found: the package data is missing; reinstall phasewise",
         )
     campaign = load_campaign(campaign_path)
     result = plan_campaign(campaign, campaign.load_target(), check_trials=check_trials)

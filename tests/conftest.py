@@ -1,4 +1,4 @@
-"""Shared test set-up: no network, astropy kept offline, paths to the bundled demo files."""
+"""Shared test set-up: no network, astropy kept offline, paths to the bundled demo files (DEMO_DIR)."""
 
 from __future__ import annotations
 
@@ -10,6 +10,8 @@ from hypothesis import settings
 from planner.sky.skydata import no_iers_download
 
 ROOT = Path(__file__).resolve().parent.parent
+#: The bundled demo inputs (package data: target, campaign and sites/), as planner.demo.DEMO_DIR finds them.
+DEMO_DIR = ROOT / "planner" / "data" / "demo"
 
 no_iers_download()
 
@@ -29,7 +31,7 @@ def demo_plan():
     from planner.inputs.campaign import load_campaign
     from planner.pipeline import plan_campaign
 
-    campaign = load_campaign(ROOT / "demo_targets" / "demo-campaign.toml")
+    campaign = load_campaign(DEMO_DIR / "demo-campaign.toml")
     return campaign, plan_campaign(campaign, campaign.load_target())
 
 

@@ -6,7 +6,6 @@ Each check names its source. Hand computations are written out step by step in t
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -46,9 +45,10 @@ from planner.photometry.skybright import (
     sky_mag_arcsec2,
 )
 from planner.photometry.tables import photometry_columns
+from tests.conftest import DEMO_DIR
 
 rates = st.floats(1e-2, 1e6)
-SITES = sorted((Path(__file__).resolve().parent.parent / "sites").glob("*.toml"))
+SITES = sorted((DEMO_DIR / "sites").glob("*.toml"))
 
 
 # ---------------------------------------------------------------- Pogson and magnitude errors
@@ -573,7 +573,7 @@ def test_add_photometry_joins_instrument_sites_only(tmp_path):
 
 # ---------------------------------------------------------------- with real geometry (demo comet)
 
-DEMO_TARGET = "demo_targets/c2034-b3-quillfeather.toml"
+DEMO_TARGET = "planner/data/demo/c2034-b3-quillfeather.toml"
 
 
 def test_mag_err_for_times_on_the_demo_comet(root):
@@ -582,7 +582,7 @@ def test_mag_err_for_times_on_the_demo_comet(root):
     from planner.sky.geometry import geometry
 
     tgt = load_target(root / DEMO_TARGET)
-    karoo, salmon = load_site(root / "sites/karoo-ridge.toml"), load_site(root / "sites/salmon-gum.toml")
+    karoo, salmon = load_site(DEMO_DIR / "sites/karoo-ridge.toml"), load_site(DEMO_DIR / "sites/salmon-gum.toml")
     # Karoo: comet high at 00:00 UTC, set by 06:00 (see the ephem table); Salmon Gum: up at 12:00.
     times = np.array(
         ["2034-03-19T00:00", "2034-03-19T06:00", "2034-03-19T12:00", "2034-03-19T12:00"], dtype="datetime64[ns]"
@@ -649,7 +649,7 @@ def test_ephem_command_adds_photometry_for_instrument_sites(root, tmp_path, monk
                 "--target",
                 DEMO_TARGET,
                 "--site",
-                "sites/karoo-ridge.toml",
+                "planner/data/demo/sites/karoo-ridge.toml",
                 "--site",
                 str(bare),
                 "--start",
@@ -679,7 +679,7 @@ def test_ephem_command_adds_photometry_for_instrument_sites(root, tmp_path, monk
                 "--target",
                 DEMO_TARGET,
                 "--site",
-                "sites/karoo-ridge.toml",
+                "planner/data/demo/sites/karoo-ridge.toml",
                 "--start",
                 "2034-03-19T00:00",
                 "--stop",

@@ -29,6 +29,7 @@ from planner.visibility.intervals import true_runs
 from planner.visibility.limits import limit_masks, moon_limit_deg
 from planner.visibility.nights import dark_intervals, night_bounds_utc
 from planner.visibility.windows import find_windows
+from tests.conftest import DEMO_DIR
 
 SIDEREAL_H_PER_SOLAR_H = 0.99727  # (common practice; 86164.1 s sidereal day / 86400 s)
 
@@ -237,8 +238,8 @@ def test_demo_comet_windows_match_astroplan_with_its_ephemeris(root):
     from planner.sky.geometry import geometry
     from planner.visibility.windows import observable_windows
 
-    site = load_site(root / "sites" / "karoo-ridge.toml")
-    target = load_target(root / "demo_targets" / "c2034-b3-quillfeather.toml")
+    site = load_site(DEMO_DIR / "sites" / "karoo-ridge.toml")
+    target = load_target(DEMO_DIR / "c2034-b3-quillfeather.toml")
     first = date(2034, 3, 17)
     ours = observable_windows(target, [site], first, 1)
     bounds = night_bounds_utc(site, first, 1)
@@ -281,11 +282,11 @@ def test_command_table_csv_json_and_atomic_out(root, tmp_path, capsys, monkeypat
 
     base = [
         "--target",
-        "demo_targets/c2034-b3-quillfeather.toml",
+        "planner/data/demo/c2034-b3-quillfeather.toml",
         "--site",
-        "sites/kahili-summit.toml",
+        "planner/data/demo/sites/kahili-summit.toml",
         "--site",
-        "sites/salmon-gum.toml",
+        "planner/data/demo/sites/salmon-gum.toml",
         "--start",
         "2034-03-16",
         "--nights",
@@ -305,7 +306,7 @@ def test_command_table_csv_json_and_atomic_out(root, tmp_path, capsys, monkeypat
 
     for _, w in df.iterrows():
         inst = load_site(
-            root / ("sites/kahili-summit.toml" if w["site"] == "Kahili Summit" else "sites/salmon-gum.toml")
+            DEMO_DIR / "sites" / ("kahili-summit.toml" if w["site"] == "Kahili Summit" else "salmon-gum.toml")
         ).instrument
         usable_s = min(w["hours"], w["night_budget_h"]) * 3600.0 - inst.overhead_s
         assert w["n_exposures_window"] == int(usable_s // (w["exposure_s"] + inst.readout_s))
