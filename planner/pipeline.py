@@ -181,7 +181,7 @@ def diagnose_points(
 
 def plan_campaign(
     campaign: Campaign,
-    target: Target,
+    target: Target | None = None,
     done: DoneLog | None = None,
     *,
     exact: bool = False,
@@ -193,9 +193,10 @@ def plan_campaign(
     Parameters
     ----------
     campaign : Campaign
-        The loaded campaign (:func:`planner.inputs.campaign.load_campaign`), its sites included.
-    target : Target
-        The loaded target (``campaign.load_target()`` or :func:`planner.inputs.targets.load_target`).
+        The loaded campaign (:func:`planner.inputs.campaign.load_campaign`), its sites included, or one
+        built in Python from Site and Target objects.
+    target : Target, optional
+        The target (default: ``campaign.load_target()``, the target it was built with or the file it names).
     done : DoneLog, optional
         Observed times and lost nights (:func:`planner.inputs.donelog.read_done_log`); only the
         remaining nights are planned.
@@ -211,6 +212,7 @@ def plan_campaign(
         BlockRules, baseline, both checks, objective, weather robustness, windows, geometry sample,
         comparison and night notes; :func:`planner.outputs.planfolder.write_plan_folder` writes it.
     """
+    target = campaign.load_target() if target is None else target
     timings: dict[str, float] = {}
     t = time.perf_counter()
     windows = observable_windows(

@@ -308,7 +308,10 @@ def test_low_elongation_is_flagged_with_a_caution():
 
 
 def test_several_sites_give_one_frame_each_and_times_outside_de421_fail():
-    sites = [SITE, Site(name="North", latitude_deg=19.8, longitude_deg=-155.5, height_m=4200.0)]
+    sites = [
+        SITE,
+        Site(name="North", latitude_deg=19.8, longitude_deg=-155.5, height_m=4200.0, timezone="Pacific/Honolulu"),
+    ]
     frames = geometry(_target(2.5, 1.2, 2464000.5), TIMES, sites)
     assert list(frames) == ["Test ridge", "North"]
     assert all(len(f) == len(TIMES) for f in frames.values())

@@ -5,7 +5,9 @@ Target file (TOML, schema in docs/formats.md): top-level ``name``, ``kind`` (``c
 Planet Center one-line orbits (the comet format of CometEls.txt or the minor-planet format of
 MPCORB.DAT); with several lines, ``object_name`` picks one.
 
-Everything is validated on load; bad input raises :class:`InputError` naming the file and field.
+Everything is validated on load; bad input raises :class:`InputError` naming the file and field. A
+:class:`Target`, :class:`Orbit` or :class:`Brightness` built in Python checks itself against the same
+limits (``ORBIT_LIMITS``, ``BRIGHTNESS_LIMITS``) with the same words.
 """
 
 from __future__ import annotations
@@ -19,14 +21,40 @@ import numpy as np
 
 from planner.core.constants import GM_SUN_AU3_D2
 from planner.core.errors import InputError
+from planner.core.limits import PYTHON, Limit, check_choice, check_instance, check_limits, source_of
 from planner.core.timegrid import parse_utc, to_jd_utc
 from planner.core.tomlfile import Fields, read_toml
+from planner.core.units import tdb_jd
 
 KINDS = ("comet", "asteroid")
 #: Nucleus phase coefficient when a comet file gives M2 but none (common practice: 0.035 mag/deg).
 DEFAULT_PHASE_COEFF_MAG_PER_DEG = 0.035
 #: Asteroid slope parameter when none is given (Bowell et al. 1989 adopt G = 0.15 by default).
 DEFAULT_G = 0.15
+#: Nucleus fading with heliocentric distance when a comet file gives M2 but no K2: a bare nucleus fades
+#: as r^-2 (K2 = 5), common practice.
+DEFAULT_K2 = 5.0
+
+ORBIT_LIMITS = {
+    "epoch_tdb_jd": Limit(2_000_000.0, 3_000_000.0),
+    "perihelion_dist_au": Limit(0.0, 1000.0, lo_open=True),
+    "eccentricity": Limit(0.0, 1000.0),
+    "inclination_deg": Limit(0.0, 180.0),
+    "ascending_node_deg": Limit(0.0, 360.0),
+    "arg_perihelion_deg": Limit(0.0, 360.0),
+    "perihelion_tdb_jd": Limit(2_000_000.0, 3_000_000.0),
+}
+BRIGHTNESS_LIMITS = {
+    "M1": Limit(-10.0, 35.0, optional=True),
+    "K1": Limit(0.0, 60.0, optional=True),
+    "M2": Limit(-10.0, 35.0, optional=True),
+    "K2": Limit(0.0, 60.0, optional=True),
+    "phase_coeff_mag_per_deg": Limit(0.0, 0.2, optional=True),
+    "H": Limit(-5.0, 35.0, optional=True),
+    "G": Limit(-0.5, 1.0, optional=True),
+}
+_COMET_LAW_KEYS = ("M1", "K1", "M2", "K2", "phase_coeff_mag_per_deg")
+_ASTEROID_LAW_KEYS = ("H", "G")
 
 
 @dataclass(frozen=True)
@@ -44,6 +72,11 @@ class Orbit:
     ascending_node_deg: float
     arg_perihelion_deg: float
     perihelion_tdb_jd: float
+
+    def __post_init__(self) -> None:
+        for name in ("epoch_tdb_jd", "perihelion_tdb_jd"):  # astropy Time, datetime or ISO text (TDB) too
+            object.__setattr__(self, name, tdb_jd(getattr(self, name), name))
+        check_limits(self, ORBIT_LIMITS, PYTHON)
 
     @property
     def semimajor_axis_au(self) -> float:
@@ -74,6 +107,22 @@ class Brightness:
     H: float | None = None
     G: float | None = None
 
+    def __post_init__(self) -> None:
+        check_limits(self, BRIGHTNESS_LIMITS, PYTHON)
+        if (self.M1 is None) != (self.K1 is None):
+            raise InputError(PYTHON, "K1" if self.K1 is None else "M1", "M1 and K1 go together (total magnitude law)")
+        if self.M2 is None and (self.K2 is not None or self.phase_coeff_mag_per_deg is not None):
+            raise InputError(PYTHON, "M2", "missing: K2 and phase_coeff_mag_per_deg need M2 (nuclear magnitude law)")
+        if self.H is None and self.G is not None:
+            raise InputError(PYTHON, "H", "missing: G needs H")
+        if self.M2 is not None:
+            if self.K2 is None:
+                object.__setattr__(self, "K2", DEFAULT_K2)
+            if self.phase_coeff_mag_per_deg is None:
+                object.__setattr__(self, "phase_coeff_mag_per_deg", DEFAULT_PHASE_COEFF_MAG_PER_DEG)
+        if self.H is not None and self.G is None:
+            object.__setattr__(self, "G", DEFAULT_G)
+
 
 @dataclass(frozen=True)
 class Target:
@@ -82,6 +131,19 @@ class Target:
     orbit: Orbit
     brightness: Brightness = field(default_factory=Brightness)
     source: str = ""
+
+    def __post_init__(self) -> None:
+        file = source_of(self)
+        if not isinstance(self.name, str) or not self.name.strip():
+            raise InputError(file, "name", "must not be empty")
+        check_choice(self, "kind", KINDS)
+        check_instance(self, "orbit", Orbit, "an Orbit")
+        check_instance(self, "brightness", Brightness, "a Brightness")
+        foreign = _ASTEROID_LAW_KEYS if self.kind == "comet" else _COMET_LAW_KEYS
+        given = [k for k in foreign if getattr(self.brightness, k) is not None]
+        if given:
+            own = ", ".join(_COMET_LAW_KEYS if self.kind == "comet" else _ASTEROID_LAW_KEYS)
+            raise InputError(file, "brightness", f"a {self.kind} takes {own}, not {', '.join(given)}")
 
 
 def load_target(path: str | Path, object_name: str | None = None) -> Target:
@@ -104,16 +166,13 @@ _TOP_KEYS = {"name", "kind", "orbit", "brightness", "designation", "notes"}
 _ORBIT_COMMON = {"epoch", "eccentricity", "inclination_deg", "ascending_node_deg", "arg_perihelion_deg"}
 _ORBIT_COMET = _ORBIT_COMMON | {"perihelion_time", "perihelion_dist_au"}
 _ORBIT_ASTEROID = _ORBIT_COMMON | {"semimajor_axis_au", "mean_anomaly_deg"}
-_BRIGHT_COMET = {"M1", "K1", "M2", "K2", "phase_coeff_mag_per_deg"}
-_BRIGHT_ASTEROID = {"H", "G"}
 
 
 def _tdb_jd(f: Fields, key: str) -> float:
     """A TDB instant: ISO 8601 text (read on the TDB scale) or a Julian date number."""
     value = f._get(key, True, None)
     if isinstance(value, (int, float)) and not isinstance(value, bool):
-        jd = f.float(key, required=True, lo=2_000_000.0, hi=3_000_000.0)
-        return jd
+        return f.limited(key, ORBIT_LIMITS["epoch_tdb_jd"], required=True)
     if not isinstance(value, str):
         value = str(value)  # TOML datetimes arrive as datetime objects
     t = parse_utc(value, f.file, f.name(key))
@@ -129,19 +188,19 @@ def _load_toml(path: Path) -> Target:
     kind = f.str("kind", required=True, choices=KINDS)
     of = f.sub("orbit", required=True)
     of.check_known(_ORBIT_COMET if kind == "comet" else _ORBIT_ASTEROID)
-    ecc = of.float("eccentricity", required=True, lo=0.0, hi=1000.0)
-    incl = of.float("inclination_deg", required=True, lo=0.0, hi=180.0)
-    node = of.float("ascending_node_deg", required=True, lo=0.0, hi=360.0)
-    peri = of.float("arg_perihelion_deg", required=True, lo=0.0, hi=360.0)
+    angles = of.values(
+        {k: ORBIT_LIMITS[k] for k in ("eccentricity", "inclination_deg", "ascending_node_deg", "arg_perihelion_deg")},
+        required=("eccentricity", "inclination_deg", "ascending_node_deg", "arg_perihelion_deg"),
+    )
     epoch = _tdb_jd(of, "epoch")
     if kind == "comet":
-        q = of.float("perihelion_dist_au", required=True, lo=0.0, lo_open=True, hi=1000.0)
+        q = of.limited("perihelion_dist_au", ORBIT_LIMITS["perihelion_dist_au"], required=True)
         tp = _tdb_jd(of, "perihelion_time")
     else:
         a = of.float("semimajor_axis_au", required=True)
         m = of.float("mean_anomaly_deg", required=True, lo=-360.0, hi=360.0)
-        q, tp = _from_mean_anomaly(of, a, ecc, m, epoch)
-    orbit = Orbit(epoch, q, ecc, incl, node, peri, tp)
+        q, tp = _from_mean_anomaly(of, a, angles["eccentricity"], m, epoch)
+    orbit = of.build(Orbit, epoch_tdb_jd=epoch, perihelion_dist_au=q, perihelion_tdb_jd=tp, **angles)
     bf = f.sub("brightness")
     brightness = _brightness_toml(bf, kind) if bf is not None else Brightness()
     return Target(name=name, kind=kind, orbit=orbit, brightness=brightness, source=str(path))
@@ -166,29 +225,10 @@ def _from_mean_anomaly(
 
 
 def _brightness_toml(f: Fields, kind: str) -> Brightness:
-    if kind == "comet":
-        f.check_known(_BRIGHT_COMET)
-        m1 = f.float("M1", lo=-10.0, hi=35.0)
-        k1 = f.float("K1", lo=0.0, hi=60.0)
-        if (m1 is None) != (k1 is None):
-            raise f.error("K1" if k1 is None else "M1", "M1 and K1 go together (total magnitude law)")
-        m2 = f.float("M2", lo=-10.0, hi=35.0)
-        k2 = f.float("K2", lo=0.0, hi=60.0)
-        beta = f.float("phase_coeff_mag_per_deg", lo=0.0, hi=0.2)
-        if m2 is None and (k2 is not None or beta is not None):
-            raise f.error("M2", "missing: K2 and phase_coeff_mag_per_deg need M2 (nuclear magnitude law)")
-        if m2 is not None:
-            k2 = 5.0 if k2 is None else k2  # a bare nucleus fades as r^-2 (K2 = 5), common practice
-            beta = DEFAULT_PHASE_COEFF_MAG_PER_DEG if beta is None else beta
-        return Brightness(M1=m1, K1=k1, M2=m2, K2=k2, phase_coeff_mag_per_deg=beta)
-    f.check_known(_BRIGHT_ASTEROID)
-    h = f.float("H", lo=-5.0, hi=35.0)
-    g = f.float("G", lo=-0.5, hi=1.0)
-    if h is None and g is not None:
-        raise f.error("H", "missing: G needs H")
-    if h is not None and g is None:
-        g = DEFAULT_G
-    return Brightness(H=h, G=g)
+    """The ``[brightness]`` table: the keys of the target's kind, each checked against its limit."""
+    keys = _COMET_LAW_KEYS if kind == "comet" else _ASTEROID_LAW_KEYS
+    f.check_known(keys)
+    return f.build(Brightness, **f.values({k: BRIGHTNESS_LIMITS[k] for k in keys}))
 
 
 # ------------------------------------------------------------------------------------- MPC lines
@@ -273,8 +313,8 @@ def _comet_line(path: Path, line_no: int, line: str) -> Target:
     _check_elements(path, field_prefix, q, ecc, incl, node, peri)
     brightness = Brightness()
     if g_mag is not None and k_slope is not None:
-        brightness = Brightness(M1=g_mag, K1=2.5 * k_slope)  # m = G + 5 log Δ + 2.5 k log r
-    orbit = Orbit(epoch, q, ecc, incl, node % 360.0, peri % 360.0, tp)
+        brightness = _built(path, line_no, Brightness, M1=g_mag, K1=2.5 * k_slope)  # m = G + 5 log Δ + 2.5 k log r
+    orbit = _built(path, line_no, Orbit, epoch, q, ecc, incl, node % 360.0, peri % 360.0, tp)
     return Target(name=name, kind="comet", orbit=orbit, brightness=brightness, source=str(path))
 
 
@@ -312,9 +352,19 @@ def _minor_planet_line(path: Path, line_no: int, line: str) -> Target:
     q, tp = _from_mean_anomaly(fields, a, ecc, m, epoch)
     _check_elements(path, field_prefix, q, ecc, incl, node, peri)
     name = _col(line, 167, 194) or _col(line, 1, 7)
-    brightness = Brightness(H=h, G=DEFAULT_G if g is None else g) if h is not None else Brightness()
-    orbit = Orbit(epoch, q, ecc, incl, node % 360.0, peri % 360.0, tp)
+    brightness = _built(path, line_no, Brightness, H=h, G=g) if h is not None else Brightness()
+    orbit = _built(path, line_no, Orbit, epoch, q, ecc, incl, node % 360.0, peri % 360.0, tp)
     return Target(name=name, kind="asteroid", orbit=orbit, brightness=brightness, source=str(path))
+
+
+def _built(path: Path, line_no: int, cls: type, *args, **kwargs):
+    """``cls(...)`` for an orbit line; an error about one of its fields names the file and the line."""
+    try:
+        return cls(*args, **kwargs)
+    except InputError as exc:
+        if exc.file != PYTHON:
+            raise
+        raise InputError(str(path), f"line {line_no}: {exc.field}", exc.message) from None
 
 
 def _check_elements(path: Path, prefix: str, q: float, ecc: float, incl: float, node: float, peri: float) -> None:

@@ -211,7 +211,7 @@ def schedule_core(
     grid = build_slots(windows, sites, campaign.block_rules, t_ref, total_hours=campaign.total_hours, **kwargs)
     if not grid.site_nights:
         raise InputError(
-            str(campaign.path),
+            campaign.source,
             "sites",
             "no site has an observable window long enough for one block in the nights left to plan"
             + _why_no_window(windows, None if done is None else done.end_utc),

@@ -27,6 +27,7 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
+from planner.core import units
 from planner.core.constants import (
     ARCSEC_PER_RAD,
     C_AU_PER_DAY,
@@ -202,8 +203,11 @@ def geometry(
     Columns: see docs/formats.md "Geometry columns". ``low_solar_elong`` flags epochs closer to the
     Sun than ``min_solar_elong_deg`` (a safety caution, not a permission). Each frame's ``attrs`` hold
     ``mag_law``, ``mag_params`` (the law's parameters, planner.sky.brightness.law_params), ``target``,
-    ``observer`` and ``min_solar_elong_deg``.
+    ``observer`` and ``min_solar_elong_deg``. ``times_utc`` may be datetime64, astropy ``Time``, datetime
+    or ISO text; ``min_solar_elong_deg`` a number of degrees or an angle Quantity.
     """
+    times_utc = units.utc_times(times_utc, "times_utc")
+    min_solar_elong_deg = units.to_unit(min_solar_elong_deg, "deg", "min_solar_elong_deg")
     names = [s.name for s in sites]
     for site in sites:
         if names.count(site.name) > 1:
