@@ -50,6 +50,7 @@ _EXPORTS = {
     "PlanResult": "planner.pipeline",
     "write_plan_folder": "planner.outputs.planfolder",
     "write_report": "planner.outputs.report",
+    "as_qtable": "planner.outputs.tablefiles",
 }
 
 __all__ = ["InputError", "__version__", *_EXPORTS]

@@ -67,9 +67,15 @@ def test_demo_plan_folder_has_the_agreed_files(demo, demo_folder, tmp_path, monk
             "windows.csv",
             "geometry.csv",
             "nights.csv",
+            "plan.ecsv",
+            "baseline.ecsv",
+            "windows.ecsv",
+            "geometry.ecsv",
+            "nights.ecsv",
             "campaign.toml",
             "target.toml",
             "sheets",
+            "calendars",
             "report.html",
         ]
     )

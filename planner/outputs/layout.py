@@ -18,7 +18,11 @@ NIGHTS_CSV = "nights.csv"
 CAMPAIGN_COPY = "campaign.toml"
 TARGET_COPY = "target.toml"
 SHEETS_DIR = "sheets"
+#: One iCalendar file (RFC 5545) per site: its planned blocks as events.
+CALENDARS_DIR = "calendars"
 REPORT_HTML = "report.html"
+#: The tables that also get an ECSV twin beside the CSV (same rows; units, time scale and metadata kept).
+ECSV_TWINS = (PLAN_CSV, BASELINE_CSV, WINDOWS_CSV, GEOMETRY_CSV, NIGHTS_CSV)
 
 #: Every file of a plan folder, in the order docs/formats.md lists them.
 PLAN_FILES = (
@@ -32,6 +36,7 @@ PLAN_FILES = (
     CAMPAIGN_COPY,
     TARGET_COPY,
     SHEETS_DIR + "/",
+    CALENDARS_DIR + "/",
     REPORT_HTML,
 )
 #: Version of the manifest's and diagnostics.json's layout; raised when a key changes meaning.
@@ -49,3 +54,13 @@ def slug(name: str) -> str:
 def sheet_name(site_name: str) -> str:
     """The observing sheet's file name inside ``sheets/``."""
     return f"{slug(site_name)}.txt"
+
+
+def calendar_name(site_name: str) -> str:
+    """The site's iCalendar file name inside ``calendars/``."""
+    return f"{slug(site_name)}.ics"
+
+
+def ecsv_twin(csv_name: str) -> str:
+    """The ECSV twin of a CSV table: ``plan.csv`` → ``plan.ecsv``."""
+    return csv_name.removesuffix(".csv") + ".ecsv"
