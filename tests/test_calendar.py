@@ -4,7 +4,7 @@ against plan.csv; line form and time zones as RFC 5545 (Desruisseaux 2009) defin
 from __future__ import annotations
 
 import json
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta
 from zoneinfo import ZoneInfo
 
 import pandas as pd
@@ -17,7 +17,7 @@ icalendar = pytest.importorskip("icalendar", reason="the icalendar package reads
 
 
 def _utc(dt: datetime) -> pd.Timestamp:
-    return pd.Timestamp(dt.astimezone(timezone.utc)).tz_localize(None)
+    return pd.Timestamp(dt.astimezone(UTC)).tz_localize(None)
 
 
 def test_every_planned_block_is_an_event_at_its_site(demo_folder):
@@ -70,7 +70,7 @@ def test_time_zone_rules_read_by_another_parser_match_the_zone():
     # Berlin: summer time from 2034-03-26 01:00 UTC to 2034-10-29 01:00 UTC (EU rule, Directive 2000/84/EC:
     # last Sunday of March and of October at 01:00 UTC).
     zone = ZoneInfo("Europe/Berlin")
-    start, stop = datetime(2034, 3, 20, tzinfo=timezone.utc), datetime(2034, 11, 5, tzinfo=timezone.utc)
+    start, stop = datetime(2034, 3, 20, tzinfo=UTC), datetime(2034, 11, 5, tzinfo=UTC)
     body = "".join(fold(line) for line in vtimezone(zone, start, stop)).replace("Europe/Berlin", "Test/Berlin")
     cal = icalendar.Calendar.from_ical(f"BEGIN:VCALENDAR\r\nVERSION:2.0\r\nPRODID:t\r\n{body}END:VCALENDAR\r\n")
     rules = cal.walk("VTIMEZONE")[0].to_tz()  # built from the component alone: the name is unknown
@@ -87,10 +87,10 @@ def test_time_zone_rules_read_by_another_parser_match_the_zone():
 def test_an_edge_in_the_repeated_hour_is_written_in_utc():
     # 2034-10-29 00:30 and 01:30 UTC are both 02:30 on Berlin's clock (clocks go back at 03:00 CEST).
     zone = ZoneInfo("Europe/Berlin")
-    first, second = (datetime(2034, 10, 29, h, 30, tzinfo=timezone.utc) for h in (0, 1))
+    first, second = (datetime(2034, 10, 29, h, 30, tzinfo=UTC) for h in (0, 1))
     assert date_time("DTSTART", first, zone) == "DTSTART:20341029T003000Z"
     assert date_time("DTSTART", second, zone) == "DTSTART:20341029T013000Z"
-    before = datetime(2034, 10, 28, 21, 0, tzinfo=timezone.utc)
+    before = datetime(2034, 10, 28, 21, 0, tzinfo=UTC)
     assert date_time("DTSTART", before, zone) == "DTSTART;TZID=Europe/Berlin:20341028T230000"
 
 

@@ -164,7 +164,7 @@ def test_failed_run_keeps_the_existing_output(root, tmp_path, capsys, monkeypatc
         ),
         (
             ["--target", DEMO, "--start", "2034-03-19", "--stop", "2034-03-20", "--format", "xml"],
-            "error: command line: format:",
+            "error: command line: --format: 'xml' is not one of 'table', 'csv', 'json', 'ecsv'",
         ),
         (
             ["--target", DEMO, "--object", "X", "--start", "2034-03-19", "--stop", "2034-03-20"],

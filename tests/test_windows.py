@@ -73,7 +73,10 @@ def test_windows_match_astroplan_constraints_on_a_fine_grid(ra_deg, dec_deg):
     # astroplan AltitudeConstraint(25°) & AtNightConstraint(−12°) & (MoonSeparationConstraint(40°) or Moon
     # below the horizon) on a 60 s grid: same intervals, each edge within one grid step + our 10 s tolerance.
     import astropy.units as u
-    from astroplan import AltitudeConstraint, AtNightConstraint, FixedTarget, MoonSeparationConstraint, Observer
+
+    ap = pytest.importorskip("astroplan", reason="astroplan (optional reference library) is not installed")
+    AltitudeConstraint, AtNightConstraint, FixedTarget = ap.AltitudeConstraint, ap.AtNightConstraint, ap.FixedTarget
+    MoonSeparationConstraint, Observer = ap.MoonSeparationConstraint, ap.Observer
     from astropy.coordinates import EarthLocation, SkyCoord
     from astropy.time import Time
 
@@ -229,7 +232,9 @@ def test_demo_comet_windows_match_astroplan_with_its_ephemeris(root):
     # comet's per-epoch RA/Dec (from geometry; astroplan has no small-body ephemeris). Same intervals,
     # edges within one grid step + our 10 s tolerance. Moon rule as above.
     import astropy.units as u
-    from astroplan import AltitudeConstraint, AtNightConstraint, Observer
+
+    ap = pytest.importorskip("astroplan", reason="astroplan (optional reference library) is not installed")
+    AltitudeConstraint, AtNightConstraint, Observer = ap.AltitudeConstraint, ap.AtNightConstraint, ap.Observer
     from astropy.coordinates import EarthLocation, SkyCoord, get_body
     from astropy.time import Time
 

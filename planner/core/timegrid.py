@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import re
-from datetime import date, datetime, timezone
+from datetime import UTC, date, datetime
 
 import numpy as np
 
@@ -32,7 +32,7 @@ def parse_utc(
         return text.astype("datetime64[ns]")
     if isinstance(text, datetime):
         if text.tzinfo is not None:
-            text = text.astimezone(timezone.utc).replace(tzinfo=None)
+            text = text.astimezone(UTC).replace(tzinfo=None)
         return np.datetime64(text, "ns")
     if isinstance(text, date):
         return np.datetime64(text.isoformat(), "ns")

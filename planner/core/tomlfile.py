@@ -6,11 +6,10 @@ stay short and every message says what to fix.
 
 from __future__ import annotations
 
+import tomllib
 from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import Any
-
-import tomllib
 
 from planner.core.errors import InputError
 from planner.core.limits import PYTHON, Limit

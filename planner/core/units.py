@@ -11,7 +11,8 @@ ECSV columns their units. astropy is imported only when a value is astropy's: co
 from __future__ import annotations
 
 import warnings
-from datetime import date, datetime, timedelta, timezone
+from contextlib import contextmanager
+from datetime import date, datetime, timedelta
 from numbers import Real
 
 import numpy as np
@@ -143,6 +144,17 @@ def hours(value, field: str, file: str = "python") -> float:
     return float(value)
 
 
+@contextmanager
+def quiet_leap_seconds():
+    """Silence astropy's "dubious year" warning: UTC beyond the announced leap seconds is as good as it gets
+    for planning (it differs from the final UTC by at most a second or two)."""
+    from erfa import ErfaWarning
+
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message=".*dubious year", category=ErfaWarning)
+        yield
+
+
 def _one_time(value, field: str, file: str) -> np.datetime64:
     if isinstance(value, (np.datetime64, datetime, date, str)):
         return parse_utc(value, file, field)
@@ -153,10 +165,7 @@ def utc_times(values, field: str = "times_utc", file: str = "python") -> np.ndar
     """Times as a 1-D ``datetime64[ns]`` UTC array, from astropy ``Time`` (any scale), numpy datetime64,
     ``datetime`` (a naive one is read as UTC) or ISO 8601 text, one value or a sequence of them."""
     if _is_astropy_time(values):
-        from erfa import ErfaWarning
-
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", ErfaWarning)  # "dubious year": leap seconds not yet announced
+        with quiet_leap_seconds():
             out = np.atleast_1d(values.utc.datetime64)
         return out.astype("datetime64[ns]")
     arr = np.asarray(values)
@@ -199,9 +208,3 @@ def tdb_jd(value, field: str, file: str = "python") -> float:
     if isinstance(value, np.generic):
         return value.item()
     return value
-
-
-def utc_datetime(value: np.datetime64) -> datetime:
-    """A ``datetime64`` UTC instant as an aware ``datetime`` (to the microsecond)."""
-    us = np.datetime64(value, "us").astype(np.int64)
-    return datetime(1970, 1, 1, tzinfo=timezone.utc) + timedelta(microseconds=int(us))

@@ -10,7 +10,7 @@ there names two instants. Lines end in CRLF and are folded at 75 octets (RFC 554
 from __future__ import annotations
 
 import uuid
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta
 from zoneinfo import ZoneInfo
 
 import numpy as np
@@ -50,11 +50,11 @@ def fold(line: str) -> str:
 
 def _utc(t) -> datetime:
     us = np.datetime64(t, "us").astype(np.int64)
-    return datetime(1970, 1, 1, tzinfo=timezone.utc) + timedelta(microseconds=int(us))
+    return datetime(1970, 1, 1, tzinfo=UTC) + timedelta(microseconds=int(us))
 
 
 def _stamp(dt: datetime) -> str:
-    return dt.astimezone(timezone.utc).strftime("%Y%m%dT%H%M%SZ")
+    return dt.astimezone(UTC).strftime("%Y%m%dT%H%M%SZ")
 
 
 def _ambiguous(local: datetime) -> bool:
@@ -126,11 +126,11 @@ def site_calendar(result: PlanResult, site: Site, stamp_utc: datetime | None = N
     """
     camp = result.campaign
     zone = ZoneInfo(site.timezone)
-    stamp = _stamp(stamp_utc or datetime.now(timezone.utc))
+    stamp = _stamp(stamp_utc or datetime.now(UTC))
     rows = table_for_files(result.blocks[result.blocks["site"] == site.name])
     starts = [_utc(t) for t in result.blocks.loc[result.blocks["site"] == site.name, "start_utc"]]
     ends = [_utc(t) for t in result.blocks.loc[result.blocks["site"] == site.name, "end_utc"]]
-    span_start = datetime.combine(camp.first_night, datetime.min.time(), timezone.utc) - timedelta(days=1)
+    span_start = datetime.combine(camp.first_night, datetime.min.time(), UTC) - timedelta(days=1)
     span_stop = span_start + timedelta(days=camp.nights + 3)
     if starts:
         span_start, span_stop = min(span_start, *starts), max(span_stop, *ends)

@@ -39,7 +39,8 @@ PLAN_FILES = (
     CALENDARS_DIR + "/",
     REPORT_HTML,
 )
-#: Version of the manifest's and diagnostics.json's layout; raised when a key changes meaning.
+#: Version of the layout of every JSON document phasewise writes (plan.json, diagnostics.json and the
+#: check, ephem and windows JSON); raised when a key changes meaning. Their schemas: docs/schemas/.
 SCHEMA_VERSION = 2
 
 

@@ -12,7 +12,7 @@ import json
 import os
 import shutil
 import tempfile
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
 from planner.core.errors import InputError
@@ -133,7 +133,7 @@ def _write_folder(result: PlanResult, folder: Path) -> None:
         shutil.copyfile(result.campaign.path, folder / layout.CAMPAIGN_COPY)
     if result.campaign.target_path is not None and result.campaign.target_path.suffix.lower() == ".toml":
         shutil.copyfile(result.campaign.target_path, folder / layout.TARGET_COPY)
-    stamp = datetime.now(timezone.utc)
+    stamp = datetime.now(UTC)
     for site in result.campaign.sites:
         (folder / layout.SHEETS_DIR / layout.sheet_name(site.name)).write_text(
             site_sheet(result, site), encoding="utf-8"

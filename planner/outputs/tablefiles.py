@@ -33,14 +33,12 @@ def records(df: pd.DataFrame) -> list[dict]:
 
 def _time_column(values):
     """A UTC column (datetime64 or ISO text, empty = missing) as an astropy ``Time`` in ISO format."""
-    import warnings
-
     from astropy.time import Time
-    from erfa import ErfaWarning
+
+    from planner.core.units import quiet_leap_seconds
 
     t = pd.to_datetime(pd.Series(values), utc=True, errors="coerce").dt.tz_localize(None)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", ErfaWarning)  # "dubious year": leap seconds not yet announced
+    with quiet_leap_seconds():
         out = Time(t.to_numpy(dtype="datetime64[ns]"), scale="utc", format="datetime64")
         out.format = "isot"
     return out
@@ -95,6 +93,9 @@ def ecsv_text(table, meta: dict | None = None, float_format: str | None = None) 
             col = qt[name]
             if isinstance(col, u.Quantity) and col.dtype.kind == "f":
                 qt[name] = u.Quantity([float(float_format % v) for v in col.value], col.unit)
+    from planner.core.units import quiet_leap_seconds
+
     buf = io.StringIO()
-    qt.write(buf, format="ascii.ecsv")
+    with quiet_leap_seconds():
+        qt.write(buf, format="ascii.ecsv")
     return buf.getvalue()

@@ -186,11 +186,15 @@ def schedule_core(
     exact_time_limit_s: float = 60.0,
     max_evaluations: int = 6000,
     precision_fn: Callable[[SlotGrid], tuple[list[np.ndarray], list[np.ndarray]]] | None = None,
+    progress: Callable[[str], None] | None = None,
 ) -> PlanCore:
     """Optimise on a windows table: slots, greedy + local search, baseline, robustness, and the exact
     optimum when asked. ``precision_fn(grid)`` gives, per site-night, the precision 1/σ² and airmass
     of every slot of its span (planner.schedule.quality.slot_precision); they set the slots' quality and each
-    site-night's spectral-window weight. Without it every slot has quality 1 and weight 1."""
+    site-night's spectral-window weight. Without it every slot has quality 1 and weight 1. ``progress(stage)``
+    is told when the slots, the optimiser and the weather trials start."""
+    progress = progress or (lambda stage: None)
+    progress("slots")
     t_ref = t_ref_for(campaign)
     sites = campaign.sites
     kwargs: dict = {}
@@ -235,6 +239,7 @@ def schedule_core(
         slot_weight=weight,
         slot_quality=quality,
     )
+    progress("optimiser")
     opt = optimise(model, seed=campaign.seed, max_evaluations=max_evaluations)
     base = baseline_visits(grid, windows, total_slots(opt.visits))
     objective = ObjectiveSummary(
@@ -259,6 +264,7 @@ def schedule_core(
         cov_greedy = greedy_lazy(grid, model.element_packed(), pack_cells(model.done_cells))
         ex = exact_coverage(model, time_limit_s=exact_time_limit_s, greedy_cells=cov_greedy.covered_cells)
         objective.exact = ExactComparison(ex, cov_greedy.covered_cells)
+    progress("weather trials")
     trials = campaign.weather_trials
     robustness = {
         "plan": weather_monte_carlo(model, opt.visits, trials, campaign.seed),
