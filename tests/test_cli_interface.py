@@ -114,3 +114,8 @@ def test_plan_reports_every_stage_in_order():
     seen: list[str] = []
     plan_campaign(_memory_campaign(nights=1), progress=seen.append)
     assert seen == list(PLAN_STAGES)
+
+
+def test_the_report_names_the_version_that_wrote_the_plan(demo_folder):
+    html = (demo_folder / "report.html").read_text()
+    assert f"Written by phasewise {planner.__version__}; rendered from the files in this folder" in html
