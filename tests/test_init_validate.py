@@ -70,3 +70,19 @@ def test_validate_prints_one_line_per_file_and_exits_2_if_any_is_bad(tmp_path, c
     assert lines[1] == f"error: {bad_site}: latitude_deg: 95 is outside [-90, 90]"
     assert lines[2].startswith("ok: ") and "1 observed times" in lines[2]
     assert lines[3].startswith(f"error: {other}: -: neither a campaign")
+
+
+def test_the_readme_week_runs_from_the_copied_demo_inputs(tmp_path, capsys, monkeypatch):
+    # The README's "A week in four lines": init, ephem and windows as written there (plan and check are
+    # covered by the demo tests and need a log).
+    text = (ROOT / "README.md").read_text()
+    block = text[text.index("phasewise init week --demo") :].split("```")[0].splitlines()
+    monkeypatch.chdir(tmp_path)
+    init = block[0].split("&&")[0].split()[1:]
+    assert run_cli(capsys, *init).returncode == 0
+    monkeypatch.chdir(tmp_path / "week")
+    for line in block[1:]:
+        args = line.split()
+        if args and args[1] in ("ephem", "windows"):
+            r = run_cli(capsys, *args[1:])
+            assert r.returncode == 0 and "Karoo Ridge" in r.stdout, (line, r.stderr)
