@@ -155,11 +155,6 @@ class Campaign:
             raise InputError(str(self.path), "object", f"{self.target_path.name}: {message}") from None
 
 
-def _default(name: str):
-    """A Campaign field's default, the one place it is written."""
-    return Campaign.__dataclass_fields__[name].default
-
-
 def _path(f: Fields, key: str, base: Path, value: object) -> Path:
     if not isinstance(value, str) or not value.strip():
         raise f.error(key, f"{value!r} is not a file path")
