@@ -25,6 +25,8 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+#: The bundled demo inputs (package data).
+DEMO = ROOT / "planner" / "data" / "demo"
 
 from planner.core.constants import C_AU_PER_DAY  # noqa: E402
 from planner.core.timegrid import parse_utc, time_grid  # noqa: E402
@@ -88,8 +90,8 @@ def astropy_route(target, times_utc, sites, dut1_s):
 def main() -> None:
     warnings.filterwarnings("ignore", message="The file finals2000A.all has expired")
     no_iers_download()
-    target = load_target(ROOT / "demo_targets" / "c2034-b3-quillfeather.toml")
-    sites = [load_site(ROOT / "sites" / f"{n}.toml") for n in SITE_FILES]
+    target = load_target(DEMO / "c2034-b3-quillfeather.toml")
+    sites = [load_site(DEMO / "sites" / f"{n}.toml") for n in SITE_FILES]
     times = time_grid(parse_utc("2034-03-16T00:00"), parse_utc("2034-03-23T00:00"), 300.0)
     planets()  # load DE421 once, outside both timings
     geometry(target, times[:2], sites)  # warm imports

@@ -18,6 +18,8 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+#: The bundled demo inputs (package data).
+DEMO = ROOT / "planner" / "data" / "demo"
 
 from planner.inputs.campaign import load_campaign  # noqa: E402
 from planner.pipeline import plan_campaign, schedule_core  # noqa: E402
@@ -38,7 +40,7 @@ def _sub(campaign, windows, nights: int, n_sites: int, **changes):
 
 def main() -> None:
     no_iers_download()
-    campaign = load_campaign(ROOT / "demo_targets" / "demo-campaign.toml")
+    campaign = load_campaign(DEMO / "demo-campaign.toml")
 
     print("== demo campaign: plan + diagnostics (7 nights, 4 sites, 5-min slots, periods 2-30 h)")
     t = time.perf_counter()

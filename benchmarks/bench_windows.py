@@ -26,6 +26,8 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+#: The bundled demo inputs (package data).
+DEMO = ROOT / "planner" / "data" / "demo"
 
 from planner.core.timegrid import time_grid  # noqa: E402
 from planner.inputs.sites import load_site  # noqa: E402
@@ -87,8 +89,8 @@ def main() -> None:
 
     iers.conf.iers_degraded_accuracy = "warn"  # 2034 lies past the bundled IERS table: UT1 ≈ UTC
     warnings.simplefilter("ignore")
-    sites = [load_site(p) for p in sorted((ROOT / "sites").glob("*.toml"))]
-    target = load_target(next(iter(sorted((ROOT / "demo_targets").glob("*.toml")))))
+    sites = [load_site(p) for p in sorted((DEMO / "sites").glob("*.toml"))]
+    target = load_target(next(iter(sorted(DEMO.glob("c*.toml")))))
 
     observable_windows(target, sites, FIRST, 1)  # warm-up both routes (ephemeris files, caches)
     astroplan_windows(target, sites[:1])

@@ -2,12 +2,14 @@
 
 Each command lives in ``planner/commands/<name>.py`` and exposes ``register(app)``; it parses
 options, makes one library call and renders the result. Bad input anywhere becomes one line,
-``error: FILE: FIELD: message``, and exit status 2.
+``error: FILE: FIELD: message``, and exit status 2. Command modules import numpy, pandas, astropy and
+the pipeline inside the command functions, so ``--help`` answers at once.
 """
 
 from __future__ import annotations
 
 import sys
+from typing import Annotated
 
 
 def _quiet_interrupt(exc_type, exc, tb, _previous=sys.excepthook) -> None:
@@ -25,6 +27,7 @@ import typer  # noqa: E402
 
 from planner.core.errors import InputError  # noqa: E402
 from planner.core.fileio import Terminated  # noqa: E402
+from planner.core.version import __version__  # noqa: E402
 
 #: Exit statuses after a signal, as shells report them (128 + signal number).
 EXIT_SIGINT = 130
@@ -34,13 +37,27 @@ app = typer.Typer(
     name="phasewise",
     help="Plan photometric campaigns on comets and asteroids from several telescopes.",
     no_args_is_help=True,
-    add_completion=False,
+    # `phasewise --install-completion` installs tab completion for the user's shell (bash, zsh, fish, ...).
+    add_completion=True,
     pretty_exceptions_enable=False,
+    # Plain help (click's layout): quick to print, and the option types are the metavars each option names.
+    rich_markup_mode=None,
 )
 
 
+def _print_version(value: bool) -> None:
+    if value:
+        typer.echo(f"phasewise {__version__}")
+        raise typer.Exit()
+
+
 @app.callback()
-def _root() -> None:
+def _root(
+    version: Annotated[
+        bool,
+        typer.Option("--version", help="Print the version and exit.", callback=_print_version, is_eager=True),
+    ] = False,
+) -> None:
     """Plan photometric campaigns on comets and asteroids from several telescopes.
 
     Times are UTC (ISO 8601) unless a column says _local. Pointing near the Sun can destroy
@@ -75,7 +92,7 @@ def _usage_line(exc) -> str:
     elif isinstance(exc, ce.NoSuchOption):
         field = exc.option_name
     message = exc.message if isinstance(exc, ce.BadParameter) and exc.message else exc.format_message()
-    message = " ".join(str(message).split())
+    message = " ".join(str(message).split()).removeprefix("Value error, ")  # typer's validator prefix
     hint = "" if exc.ctx is None else f" (see '{exc.ctx.command_path} --help')"
     return f"error: command line: {field}: {message}{hint}"
 

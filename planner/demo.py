@@ -1,9 +1,10 @@
 """The bundled demo campaign, end to end: plan, fit the first nights' log, re-plan with it.
 
-The demo campaign (demo_targets/demo-campaign.toml, an invented comet and four invented sites) is
+The demo campaign (package data in planner/data/demo/: an invented comet, four invented sites under sites/, and
+demo-campaign.toml) is
 planned with :func:`planner.pipeline.plan_campaign` and written with the plan-folder writer, its
 report rendered last. Then the loop an observer runs after the first nights: the invented log of
-those nights (demo_targets/demo-first-nights.csv, magnitudes of an invented rotating nucleus made by
+those nights (planner/data/demo/demo-first-nights.csv, magnitudes of an invented rotating nucleus made by
 scripts/make_demo_log.py) is fitted and the remaining nights re-planned from it, to tell its candidate
 periods apart (the re-plan's folder ``replan/``, with the fit's own page ``first-nights-fit.html``).
 The output folder is marked as the demo's, so a second run refreshes it while a folder with anything
@@ -14,6 +15,7 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass
+from importlib.resources import files
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -24,7 +26,9 @@ from planner.outputs.layout import REPORT_HTML
 if TYPE_CHECKING:
     from planner.pipeline import PlanResult
 
-DEMO_DIR = Path(__file__).resolve().parent.parent / "demo_targets"
+#: The bundled demo inputs, shipped as package data (pip installs them with the code): the target and the
+#: campaign file here, the site files under ``sites/``.
+DEMO_DIR = Path(str(files("planner") / "data" / "demo"))
 DEMO_CAMPAIGN = DEMO_DIR / "demo-campaign.toml"
 #: The invented log of the demo week's first three nights (scripts/make_demo_log.py).
 DEMO_LOG = DEMO_DIR / "demo-first-nights.csv"
@@ -94,7 +98,7 @@ def run_demo(
         raise InputError(
             str(campaign_path),
             "-",
-            "demo campaign not found: run phasewise from its source checkout (pip install -e .)",
+            "demo campaign not found: the package data is missing; reinstall phasewise",
         )
     campaign = load_campaign(campaign_path)
     target = campaign.load_target()

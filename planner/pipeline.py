@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import dataclasses
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -52,6 +53,16 @@ from planner.visibility.windows import observable_windows
 
 #: Geometry sample step for the report's night charts (geometry.csv).
 GEOMETRY_STEP_S = 600.0
+#: The stages plan_campaign reports to its ``progress`` callback, in order, with their rough share of the
+#: run's time (measured on the demo campaign: a progress display turns them into a time estimate).
+PLAN_STAGES = {
+    "windows": 1.0,
+    "slots": 0.5,
+    "optimiser": 7.0,
+    "weather trials": 1.0,
+    "blocks and geometry": 1.5,
+    "diagnostics": 8.0,
+}
 
 
 @dataclass
@@ -288,21 +299,23 @@ def discrimination_of(
 
 def plan_campaign(
     campaign: Campaign,
-    target: Target,
+    target: Target | None = None,
     done: DoneLog | None = None,
     *,
     exact: bool = False,
     exact_time_limit_s: float = 60.0,
     check_trials: int | None = None,
+    progress: Callable[[str], None] | None = None,
 ) -> PlanResult:
     """Optimise a campaign; compute its baseline, diagnostics, robustness, windows and geometry sample.
 
     Parameters
     ----------
     campaign : Campaign
-        The loaded campaign (:func:`planner.inputs.campaign.load_campaign`), its sites included.
-    target : Target
-        The loaded target (``campaign.load_target()`` or :func:`planner.inputs.targets.load_target`).
+        The loaded campaign (:func:`planner.inputs.campaign.load_campaign`), its sites included, or one
+        built in Python from Site and Target objects.
+    target : Target, optional
+        The target (default: ``campaign.load_target()``, the target it was built with or the file it names).
     done : DoneLog, optional
         Observed times and lost nights (:func:`planner.inputs.donelog.read_done_log`); only the
         remaining nights are planned.
@@ -311,6 +324,8 @@ def plan_campaign(
         heuristic's optimality gap.
     check_trials : int, optional
         Injection–recovery trials per diagnostics run (default: the campaign's).
+    progress : callable, optional
+        Told the name of each stage as it starts (:data:`PLAN_STAGES`), for a progress display.
 
     Returns
     -------
@@ -318,6 +333,8 @@ def plan_campaign(
         BlockRules, baseline, both checks, objective, weather robustness, windows, geometry sample,
         comparison and night notes; :func:`planner.outputs.planfolder.write_plan_folder` writes it.
     """
+    target = campaign.load_target() if target is None else target
+    progress = progress or (lambda stage: None)
     timings: dict[str, float] = {}
     light_curve = None
     if done is not None and done.has_magnitudes:
@@ -328,6 +345,7 @@ def plan_campaign(
     t = time.perf_counter()
     t_ref = t_ref_for(campaign)
     notes = approach_warnings_utc(target, t_ref, t_ref + np.timedelta64(campaign.nights + 2, "D"))
+    progress("windows")
     windows = observable_windows(
         target, list(campaign.sites), campaign.first_night, campaign.nights, step_s=campaign.block_rules.slot_s
     )
@@ -342,14 +360,17 @@ def plan_campaign(
         exact_time_limit_s=exact_time_limit_s,
         precision_fn=lambda grid: slot_precision(grid, target, campaign.sites, rules),
         candidates=candidates,
+        progress=progress,
     )
     timings["schedule"] = time.perf_counter() - t
     t = time.perf_counter()
+    progress("blocks and geometry")
     blocks, exposures = block_table(core.visits, core.grid, target, campaign.sites, rules)
     baseline, base_exposures = block_table(core.baseline, core.grid, target, campaign.sites, rules)
     geo = geometry_sample(target, campaign.sites, core.grid, campaign.nights)
     timings["blocks_and_geometry"] = time.perf_counter() - t
     t = time.perf_counter()
+    progress("diagnostics")
     trials = campaign.check_trials if check_trials is None else check_trials
     logged = done_frames(campaign, target, done)
     frames = {"plan": exposures, "baseline": base_exposures}

@@ -1,6 +1,6 @@
-"""Write the demo's invented light curve: demo_targets/demo-first-nights.csv.
+"""Write the demo's invented light curve: planner/data/demo/demo-first-nights.csv.
 
-    python scripts/make_demo_log.py [--out demo_targets/demo-first-nights.csv] [--seed 3]
+    python scripts/make_demo_log.py [--out planner/data/demo/demo-first-nights.csv] [--seed 3]
 
 Everything in it is invented. The demo comet C/2034 B3 (an invented object) is given a nucleus
 shaped like a triaxial ellipsoid (semi-axes 1.6 : 1.0 : 0.85, spin axis 70° from the line of sight,
@@ -38,8 +38,8 @@ from planner.lightcurve.geometry import point_geometry  # noqa: E402
 from planner.visibility.windows import observable_windows  # noqa: E402
 from tests.lightcurve_synth import ellipsoid_rotation_mag  # noqa: E402
 
-CAMPAIGN = ROOT / "demo_targets" / "demo-campaign.toml"
-OUT = ROOT / "demo_targets" / "demo-first-nights.csv"
+CAMPAIGN = ROOT / "planner" / "data" / "demo" / "demo-campaign.toml"
+OUT = ROOT / "planner" / "data" / "demo" / "demo-first-nights.csv"
 
 #: The invented truth.
 PERIOD_H = 13.9

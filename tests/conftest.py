@@ -1,4 +1,4 @@
-"""Shared test set-up: no network, astropy kept offline, paths to the bundled demo files."""
+"""Shared test set-up: no network, astropy kept offline, paths to the bundled demo files (DEMO_DIR)."""
 
 from __future__ import annotations
 
@@ -10,6 +10,8 @@ from hypothesis import settings
 from planner.sky.skydata import no_iers_download
 
 ROOT = Path(__file__).resolve().parent.parent
+#: The bundled demo inputs (package data: target, campaign and sites/), as planner.demo.DEMO_DIR finds them.
+DEMO_DIR = ROOT / "planner" / "data" / "demo"
 
 no_iers_download()
 
@@ -29,19 +31,19 @@ def demo_plan():
     from planner.inputs.campaign import load_campaign
     from planner.pipeline import plan_campaign
 
-    campaign = load_campaign(ROOT / "demo_targets" / "demo-campaign.toml")
+    campaign = load_campaign(DEMO_DIR / "demo-campaign.toml")
     return campaign, plan_campaign(campaign, campaign.load_target())
 
 
 @pytest.fixture(scope="session")
 def demo_replan(demo_plan):
     """The demo campaign re-planned once for the whole session from the invented first-nights log with
-    magnitudes (demo_targets/demo-first-nights.csv): the PlanResult, its light-curve fit included."""
+    magnitudes (planner/data/demo/demo-first-nights.csv): the PlanResult, its light-curve fit included."""
     from planner.inputs.donelog import read_done_log
     from planner.pipeline import plan_campaign
 
     campaign = demo_plan[0]
-    done = read_done_log(ROOT / "demo_targets" / "demo-first-nights.csv", campaign.sites)
+    done = read_done_log(ROOT / "planner" / "data" / "demo" / "demo-first-nights.csv", campaign.sites)
     return plan_campaign(campaign, campaign.load_target(), done)
 
 

@@ -114,7 +114,7 @@ def _truth_mag(s: Scenario, target: Target, campaign, times, site, rng, sigma) -
 
 def build(s: Scenario, folder: Path) -> Built:
     """The campaign (first + rest nights at the scenario's sites), the fainter target and the first-nights log."""
-    demo = load_campaign(ROOT / "demo_targets" / "demo-campaign.toml")
+    demo = load_campaign(ROOT / "planner" / "data" / "demo" / "demo-campaign.toml")
     sites = tuple(
         dataclasses.replace(x, allocation=Allocation(hours_per_night=s.hours_per_night))
         for x in demo.sites

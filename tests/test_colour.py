@@ -31,9 +31,9 @@ from planner.photometry.tables import photometry_columns
 
 RED = {"B-V": 0.90, "V-R": 0.50, "R-I": 0.40}  # an invented red body
 #: Photon-limited camera: no read noise or dark, a black sky; tracking (no trailing cap).
-QUIET = dict(aperture_m=1.0, pixel_scale_arcsec=0.4, read_noise_e=0.0, dark_e_per_s=0.0, zero_point_mag=24.0)
+QUIET = dict(aperture_m=1.0, pixel_scale_arcsec=0.4, read_noise_e=0.0, dark_e_per_s=0.0, zero_point_mag=18.0)
 QUIET.update(seeing_arcsec=1.2, sky_mag_per_arcsec2=25.0, nonsidereal_tracking=True)
-FREE = ExposureRules(snr_target=100.0, min_exposure_s=1e-3, max_exposure_s=1e6)
+FREE = ExposureRules(snr_target=100.0, min_exposure_s=0.1, max_exposure_s=3600.0)  # the widest the rules allow
 
 
 def _geom(law: str = "asteroid_hg", mag_v: float = 10.0) -> pd.DataFrame:

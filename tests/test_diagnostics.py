@@ -9,6 +9,7 @@ import pytest
 
 from planner.diagnostics.check import check_times
 from planner.diagnostics.result import VERDICTS
+from tests.conftest import DEMO_DIR
 
 BASE = np.datetime64("2034-03-10T00:00", "ns")
 
@@ -167,7 +168,7 @@ def test_real_target_geometry_path(root):
     pytest.importorskip("planner.sky.geometry")
     from planner.inputs.targets import load_target
 
-    path = root / "demo_targets" / "c2034-b3-quillfeather.toml"
+    path = DEMO_DIR / "c2034-b3-quillfeather.toml"
     if not path.exists():
         pytest.skip("demo target not in this build")
     target = load_target(path)

@@ -24,9 +24,9 @@ from planner.core.tomlfile import read_toml
 from planner.outputs.layout import MAX_SLUG_CHARS, sheet_name
 
 ROOT = Path(__file__).resolve().parent.parent
-TARGET = ROOT / "demo_targets" / "c2034-b3-quillfeather.toml"
-CAMPAIGN = ROOT / "demo_targets" / "demo-campaign.toml"
-SITE = ROOT / "sites" / "karoo-ridge.toml"
+TARGET = ROOT / "planner" / "data" / "demo" / "c2034-b3-quillfeather.toml"
+CAMPAIGN = ROOT / "planner" / "data" / "demo" / "demo-campaign.toml"
+SITE = ROOT / "planner" / "data" / "demo" / "sites" / "karoo-ridge.toml"
 #: The first bytes of a PNG file (PNG specification, ISO/IEC 15948, section 5.2): binary, with a NUL.
 PNG_BYTES = b"\x89PNG\r\n\x1a\n\x00\x00\x00\rIHDR"
 

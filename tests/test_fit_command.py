@@ -20,9 +20,9 @@ from planner.inputs.targets import Brightness, load_target
 from planner.lightcurve.logpoints import expected_k1, log_light_curve, phase_term_mag
 
 ROOT = Path(__file__).resolve().parent.parent
-LOG = ROOT / "demo_targets" / "demo-first-nights.csv"
-TARGET = ROOT / "demo_targets" / "c2034-b3-quillfeather.toml"
-SITE = ROOT / "sites" / "quebrada-alta.toml"
+LOG = ROOT / "planner" / "data" / "demo" / "demo-first-nights.csv"
+TARGET = ROOT / "planner" / "data" / "demo" / "c2034-b3-quillfeather.toml"
+SITE = ROOT / "planner" / "data" / "demo" / "sites" / "quebrada-alta.toml"
 #: The invented truth of the demo log (scripts/make_demo_log.py).
 TRUE_PERIOD_H = 13.9
 

@@ -22,9 +22,9 @@ from planner.inputs.targets import load_target
 
 ROOT = Path(__file__).resolve().parent.parent
 DATA = Path(__file__).parent / "data"
-TARGET = ROOT / "demo_targets" / "c2034-b3-quillfeather.toml"
-CAMPAIGN = ROOT / "demo_targets" / "demo-campaign.toml"
-SITE = ROOT / "sites" / "karoo-ridge.toml"
+TARGET = ROOT / "planner" / "data" / "demo" / "c2034-b3-quillfeather.toml"
+CAMPAIGN = ROOT / "planner" / "data" / "demo" / "demo-campaign.toml"
+SITE = ROOT / "planner" / "data" / "demo" / "sites" / "karoo-ridge.toml"
 COMET_LINE = (DATA / "mpc_comets.txt").read_text().splitlines()[0]
 MINOR_LINE = (DATA / "mpc_minor_planets.txt").read_text().splitlines()[0]
 
@@ -107,7 +107,8 @@ def test_a_perihelion_beyond_the_ephemeris_is_fine_when_the_nights_are_inside(tm
 
 def _campaign(tmp_path: Path, old: str, new: str) -> Path:
     """The demo campaign with one edit, written elsewhere (its paths made absolute)."""
-    text = CAMPAIGN.read_text().replace("../sites/", f"{ROOT}/sites/").replace('"c2034', f'"{ROOT}/demo_targets/c2034')
+    demo = ROOT / "planner" / "data" / "demo"
+    text = CAMPAIGN.read_text().replace('"sites/', f'"{demo}/sites/').replace('"c2034', f'"{demo}/c2034')
     src = tmp_path / "src.toml"
     src.write_text(text)
     return _edit(tmp_path, src, old, new, "campaign.toml")

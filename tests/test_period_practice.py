@@ -59,7 +59,7 @@ def test_check_with_a_target_uses_the_geometry_light_time(root):
     # phasewise's geometry gives light_time_minutes (its own light-time solution); check uses it.
     from planner.inputs.targets import load_target
 
-    target = load_target(root / "demo_targets" / "c2034-b3-quillfeather.toml")
+    target = load_target(root / "planner" / "data" / "demo" / "c2034-b3-quillfeather.toml")
     times = BASE + np.arange(0, 48 * 60, 30).astype("timedelta64[m]") + np.timedelta64(6 * 24, "h")
     r = check_times(times, min_period_h=2, max_period_h=10, trials=0, target=target)
     tau = r.to_dict()["input"]["light_time_minutes"]

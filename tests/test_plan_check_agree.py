@@ -97,7 +97,7 @@ def test_points_are_frames_stacked_per_slot_with_the_extinction_term():
 
 
 def test_check_stacks_a_small_log_as_the_plan_would(tmp_path, capsys):
-    site = load_site(ROOT / "sites" / "karoo-ridge.toml")
+    site = load_site(ROOT / "planner" / "data" / "demo" / "sites" / "karoo-ridge.toml")
     times = np.datetime64("2034-03-19T20:00:00") + np.arange(0, 6 * 3600, 40).astype("timedelta64[s]")
     log = tmp_path / "log.csv"
     pd.DataFrame({"time_utc": [f"{t}Z" for t in times], "site": site.name, "mag_err": 0.01}).to_csv(log, index=False)

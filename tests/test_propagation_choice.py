@@ -68,6 +68,6 @@ def test_ephem_prints_the_note(root, capsys, monkeypatch):
 
 
 def test_a_quiet_main_belt_week_has_no_note(root):
-    target = load_target(root / "demo_targets" / "c2034-b3-quillfeather.toml")
+    target = load_target(root / "planner" / "data" / "demo" / "c2034-b3-quillfeather.toml")
     start = np.datetime64("2034-03-16T00:00", "ns")
     assert approach_warnings_utc(target, start, start + np.timedelta64(7, "D")) == []

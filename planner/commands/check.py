@@ -4,18 +4,26 @@ from __future__ import annotations
 
 import json
 import sys
+from enum import StrEnum
 from pathlib import Path
 from typing import Annotated
 
 import typer
 
+from planner.commands.common import StageProgress, show_progress, stamped
 from planner.core.errors import InputError
-from planner.core.timegrid import parse_duration_s
 from planner.inputs.settings import BlockRules, ExposureRules
+
+
+class CheckFormat(StrEnum):
+    table = "table"
+    json = "json"
 
 
 def _hours(text: str, field: str) -> float:
     """``'2h'``, ``'90m'``, ``'1.5d'`` or a bare number of hours."""
+    from planner.core.timegrid import parse_duration_s
+
     try:
         value = float(text)
     except ValueError:
@@ -42,26 +50,6 @@ def _amplitudes(text: str) -> tuple[float, float]:
     if not (0 < lo <= hi):
         raise InputError("command line", "--amplitude", f"{text!r}: need 0 < low <= high (mag)")
     return lo, hi
-
-
-class _Progress:
-    """A one-line progress bar on stderr."""
-
-    def __init__(self, label: str) -> None:
-        self.label = label
-        self.last = -1
-
-    def __call__(self, fraction: float) -> None:
-        pct = int(100 * fraction)
-        if pct != self.last:
-            self.last = pct
-            bar = "#" * (pct // 4)
-            sys.stderr.write(f"\r{self.label} [{bar:<25}] {pct:3d}%")
-            sys.stderr.flush()
-
-    def close(self) -> None:
-        if self.last >= 0:
-            sys.stderr.write("\n")
 
 
 def _f(x, fmt: str = ".3g", none: str = "n/a") -> str:
@@ -223,39 +211,61 @@ def register(app: typer.Typer) -> None:
     def check(
         times_csv: Annotated[
             Path,
-            typer.Argument(help="observation log CSV: time_utc, optional site, exposure_s, mag_err, status, night"),
+            typer.Argument(
+                metavar="LOG.csv",
+                help="observation log CSV: time_utc, optional site, exposure_s, mag_err, status, night",
+            ),
         ],
-        min_period: Annotated[str, typer.Option("--min-period", help="shortest rotation period (2h, 90m)")] = "2h",
-        max_period: Annotated[str, typer.Option("--max-period", help="longest rotation period (30h, 2d)")] = "30h",
+        min_period: Annotated[
+            str, typer.Option("--min-period", metavar="PERIOD", help="shortest rotation period (2h, 90m)")
+        ] = "2h",
+        max_period: Annotated[
+            str, typer.Option("--max-period", metavar="PERIOD", help="longest rotation period (30h, 2d)")
+        ] = "30h",
         target: Annotated[
             Path | None,
-            typer.Option("--target", help="target file: adds the geometric trend and the synodic–sidereal drift"),
+            typer.Option(
+                "--target",
+                metavar="FILE",
+                help="target file: adds the geometric trend and the synodic–sidereal drift",
+            ),
         ] = None,
         object_name: Annotated[
-            str | None, typer.Option("--object", help="which line of a multi-line MPC .txt target file")
+            str | None,
+            typer.Option("--object", metavar="NAME", help="which line of a multi-line MPC .txt target file"),
         ] = None,
         site: Annotated[
             list[Path] | None,
-            typer.Option("--site", help="site file (repeatable; with --target): σ per point from its instrument"),
+            typer.Option(
+                "--site", metavar="FILE", help="site file (repeatable; with --target): σ per point from its instrument"
+            ),
         ] = None,
-        trials: Annotated[int, typer.Option("--trials", min=0, help="injected light curves (0: none)")] = 200,
-        seed: Annotated[int, typer.Option("--seed", help="random seed of the injections")] = 0,
-        mag_err: Annotated[float, typer.Option("--mag-err", min=1e-6, help="σ (mag) where the log gives none")] = 0.02,
-        amplitude: Annotated[str, typer.Option("--amplitude", help="peak-to-peak range, mag (0.1-0.5)")] = "0.1-0.5",
+        trials: Annotated[
+            int, typer.Option("--trials", min=0, metavar="N", help="injected light curves (0: none)")
+        ] = 200,
+        seed: Annotated[int, typer.Option("--seed", metavar="N", help="random seed of the injections")] = 0,
+        mag_err: Annotated[
+            float, typer.Option("--mag-err", min=1e-6, metavar="MAG", help="σ (mag) where the log gives none")
+        ] = 0.02,
+        amplitude: Annotated[
+            str, typer.Option("--amplitude", metavar="LOW-HIGH", help="peak-to-peak range, mag (0.1-0.5)")
+        ] = "0.1-0.5",
         single_peaked: Annotated[bool, typer.Option("--single-peaked", help="assume one maximum per rotation")] = False,
         extra_fading: Annotated[
-            float, typer.Option("--extra-fading", help="fading added to injections, mag/day")
+            float, typer.Option("--extra-fading", metavar="MAG/DAY", help="fading added to injections, mag/day")
         ] = 0.0,
-        fmt: Annotated[str, typer.Option("--format", help="table or json")] = "table",
-        out: Annotated[Path | None, typer.Option("--out", help="write here instead of stdout")] = None,
-        plot: Annotated[Path | None, typer.Option("--plot", help="folder for PNG figures")] = None,
+        fmt: Annotated[CheckFormat, typer.Option("--format", help="table or json")] = CheckFormat.table,
+        out: Annotated[Path | None, typer.Option("--out", metavar="FILE", help="write here instead of stdout")] = None,
+        plot: Annotated[Path | None, typer.Option("--plot", metavar="DIR", help="folder for PNG figures")] = None,
         report: Annotated[
             Path | None,
-            typer.Option("--report", help="also write a self-contained HTML report of the check to this file"),
+            typer.Option(
+                "--report", metavar="FILE", help="also write a self-contained HTML report of the check to this file"
+            ),
         ] = None,
         progress: Annotated[
             bool | None,
-            typer.Option("--progress/--no-progress", help="progress bar on stderr (default: on a terminal)"),
+            typer.Option("--progress/--no-progress", help="progress on stderr (default: only on a terminal)"),
         ] = None,
         stack: Annotated[
             str,
@@ -273,8 +283,6 @@ def register(app: typer.Typer) -> None:
         from planner.diagnostics.check import check_times
         from planner.inputs.obslog import read_observation_log
 
-        if fmt not in ("table", "json"):
-            raise InputError("command line", "--format", f"{fmt!r}: choose table or json")
         p_min, p_max = period_range_h(min_period, max_period)
         for dest, option in ((out, "--out"), (report, "--report"), (plot and plot / "check_coverage.png", "--plot")):
             if dest is not None:
@@ -296,6 +304,7 @@ def register(app: typer.Typer) -> None:
             sites = [load_site(p) for p in site]
             if log.site is None and len(sites) > 1:
                 raise InputError("command line", "--site", "the log has no site column, so give exactly one --site")
+        from planner.core.timegrid import parse_duration_s
         from planner.photometry.frames import log_frame_model
 
         stack_s = parse_duration_s(stack, "command line", "--stack")
@@ -308,9 +317,9 @@ def register(app: typer.Typer) -> None:
             exposure_s=log.exposure_s,
             fallback_mag_err=mag_err,
         )
-        show = sys.stderr.isatty() if progress is None else progress
-        bar = _Progress("injection–recovery") if show and trials > 0 else None
-        try:
+        stages = {"injection–recovery and diagnostics" if trials else "diagnostics": 1.0}
+        with StageProgress(stages, show_progress(progress), "phasewise check") as bar:
+            bar(next(iter(stages)))
             result = check_times(
                 log.times_utc,
                 min_period_h=p_min,
@@ -327,12 +336,9 @@ def register(app: typer.Typer) -> None:
                 amplitude_range_mag=_amplitudes(amplitude),
                 double_peaked=not single_peaked,
                 extra_fading_mag_per_day=extra_fading,
-                progress=bar,
+                progress=bar.fraction if trials else None,
             )
-        finally:
-            if bar is not None:
-                bar.close()
-        d = result.to_dict()
+        d = stamped(result.to_dict())
         if log.lost:
             d["notes"].append(f"the log's {len(log.lost)} lost site-night row(s) were skipped (no times to check)")
         d["input"]["mag_err_sources"] = err_sources

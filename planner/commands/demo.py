@@ -7,30 +7,29 @@ from typing import Annotated
 
 import typer
 
-from planner.demo import DEFAULT_OUT
-
 
 def register(app: typer.Typer) -> None:
     @app.command("demo")
     def demo(
         out: Annotated[
-            Path,
+            Path | None,
             typer.Option(
                 "--out",
-                help="folder for the demo's plan and report (refreshed if an "
+                metavar="DIR",
+                help="folder for the demo's plan and report, default phasewise-demo (refreshed if an "
                 "earlier demo made it; any other non-empty folder is refused)",
             ),
-        ] = DEFAULT_OUT,
+        ] = None,
     ) -> None:
         """Plan the bundled demo campaign (invented comet, four invented sites, one week), check it and
         write the plan folder with its HTML report; then fit the invented light curve of its first three
         nights and re-plan the remaining nights to tell the candidate periods apart."""
-        from planner.demo import DEMO_LOG, run_demo
+        from planner.demo import DEFAULT_OUT, DEMO_LOG, run_demo
         from planner.outputs.fitdoc import fit_brief
         from planner.outputs.planfolder import lightcurve_json
         from planner.outputs.terminal import comparison_text, night_table, safety_text
 
-        r = run_demo(out)
+        r = run_demo(DEFAULT_OUT if out is None else out)
         c = r.plan.campaign
         typer.echo(
             f"{c.name}: {len(r.plan.blocks)} blocks at {len(c.sites)} sites, {c.nights} nights from "

@@ -6,26 +6,17 @@ import json
 import math
 import sys
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
-import numpy as np
-import pandas as pd
 import typer
 
+from planner.commands.common import TableFormat, exposure_rules, stamped, table_format
 from planner.core.errors import InputError
-from planner.core.fileio import check_writable, write_text_atomic
-from planner.core.textfmt import dec_dms, ra_hms
-from planner.core.timegrid import iso_utc, parse_duration_s, parse_utc, time_grid
 from planner.inputs.settings import ExposureRules
-from planner.inputs.sites import load_site
-from planner.inputs.targets import load_target
-from planner.photometry.tables import add_photometry
-from planner.sky.brightness import format_law
-from planner.sky.geometry import MIN_SOLAR_ELONG_DEG, geometry, safety_warning
-from planner.sky.propagation import approach_warnings_utc
-from planner.sky.skydata import utc_times
 
-FORMATS = ("table", "csv", "json")
+if TYPE_CHECKING:
+    import pandas as pd
+
 MAX_ROWS = 200_000
 
 # (column, header, unit, format) for the people's table; site-only columns at the end.
@@ -72,6 +63,10 @@ def _cell(fmt: str, value: float) -> str:
 
 def render_table(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
     """Aligned text for people: units in the header, RA/Dec also in sexagesimal."""
+    from planner.core.textfmt import dec_dms, ra_hms
+    from planner.core.timegrid import iso_utc
+    from planner.sky.brightness import format_law
+
     blocks = []
     for name, frame in frames.items():
         cols = list(_TABLE_COLUMNS) + (list(_SITE_TABLE_COLUMNS) if "alt_deg" in frame else [])
@@ -116,6 +111,10 @@ def _band_words(frame: pd.DataFrame) -> str:
 
 
 def _long_frame(frames: dict[str, pd.DataFrame]) -> pd.DataFrame:
+    import pandas as pd
+
+    from planner.core.timegrid import iso_utc
+
     parts = []
     for name, frame in frames.items():
         part = frame.copy()
@@ -143,20 +142,44 @@ def render_json(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
         "caution": caution,
         "rows": rows,
     }
-    return json.dumps(doc, indent=1, ensure_ascii=False) + "\n"
+    return json.dumps(stamped(doc), indent=1, ensure_ascii=False) + "\n"
 
 
-_Target = Annotated[Path, typer.Option("--target", help="Target file: TOML, or .txt of MPC orbit lines.")]
-_Start = Annotated[str, typer.Option("--start", help="First epoch, UTC ISO 8601.")]
-_Stop = Annotated[str, typer.Option("--stop", help="Last epoch, UTC ISO 8601.")]
-_Object = Annotated[str | None, typer.Option("--object", help="Which line of a multi-line MPC .txt file.")]
-_Sites = Annotated[list[Path] | None, typer.Option("--site", help="Site file (repeatable); none: geocentre.")]
-_Step = Annotated[str, typer.Option("--step", help="Grid step: 30s, 5m, 1h, 1d.")]
-_Format = Annotated[str, typer.Option("--format", help="table (for people), csv or json.")]
-_Out = Annotated[Path | None, typer.Option("--out", help="Write here (atomically), not to stdout.")]
-_MinElong = Annotated[float, typer.Option("--min-elong", help="Solar-elongation caution limit, deg.")]
-_Snr = Annotated[float, typer.Option("--snr", min=1.0, help="S/N goal per exposure (sites with an instrument).")]
-_MinExp = Annotated[str, typer.Option("--min-exposure", help="Shortest exposure worth taking (trailing may cut it).")]
+def render_ecsv(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
+    """The same rows as the CSV, with units, UTC times and the header's facts as metadata (ECSV)."""
+    from planner.outputs.tablefiles import ecsv_text
+
+    return ecsv_text(frames, stamped({"caution": caution}), "%.10g")
+
+
+_Target = Annotated[
+    Path, typer.Option("--target", metavar="FILE", help="Target file: TOML, or .txt of MPC orbit lines.")
+]
+_Start = Annotated[str, typer.Option("--start", metavar="TIME", help="First epoch, UTC ISO 8601.")]
+_Stop = Annotated[str, typer.Option("--stop", metavar="TIME", help="Last epoch, UTC ISO 8601.")]
+_Object = Annotated[
+    str | None, typer.Option("--object", metavar="NAME", help="Which line of a multi-line MPC .txt file.")
+]
+_Sites = Annotated[
+    list[Path] | None, typer.Option("--site", metavar="FILE", help="Site file (repeatable); none: geocentre.")
+]
+_Step = Annotated[str, typer.Option("--step", metavar="DURATION", help="Grid step: 30s, 5m, 1h, 1d.")]
+_Format = Annotated[
+    TableFormat | None,
+    typer.Option("--format", help="table (for people), csv, json or ecsv (default: table, or --out's extension)."),
+]
+_Out = Annotated[Path | None, typer.Option("--out", metavar="FILE", help="Write here (atomically), not to stdout.")]
+_MinElong = Annotated[
+    float | None,
+    typer.Option("--min-elong", metavar="DEG", help="Solar-elongation caution limit, deg (default 30)."),
+]
+_Snr = Annotated[
+    float, typer.Option("--snr", min=1.0, metavar="S/N", help="S/N goal per exposure (sites with an instrument).")
+]
+_MinExp = Annotated[
+    str,
+    typer.Option("--min-exposure", metavar="DURATION", help="Shortest exposure worth taking (trailing may cut it)."),
+]
 
 
 def register(app: typer.Typer) -> None:
@@ -168,15 +191,27 @@ def register(app: typer.Typer) -> None:
         object_name: _Object = None,
         site: _Sites = None,
         step: _Step = "1h",
-        fmt: _Format = "table",
+        fmt: _Format = None,
         out: _Out = None,
-        min_elong: _MinElong = MIN_SOLAR_ELONG_DEG,
+        min_elong: _MinElong = None,
         snr: _Snr = ExposureRules.snr_target,
         min_exposure: _MinExp = f"{ExposureRules.min_exposure_s:g}s",
     ) -> None:
         """Geometry table: RA/Dec, r, Delta, phase, elongation, motion, magnitude; alt/az per site."""
-        if fmt not in FORMATS:
-            raise InputError("command line", "format", f"{fmt!r} is not one of {', '.join(FORMATS)}")
+        import numpy as np
+
+        from planner.core.fileio import check_writable, write_text_atomic
+        from planner.core.safety import DEFAULT_MIN_SOLAR_ELONG_DEG
+        from planner.core.timegrid import parse_duration_s, parse_utc, time_grid
+        from planner.inputs.sites import load_site
+        from planner.inputs.targets import load_target
+        from planner.photometry.tables import add_photometry
+        from planner.sky.geometry import geometry, safety_warning
+        from planner.sky.propagation import approach_warnings_utc
+        from planner.sky.skydata import utc_times
+
+        fmt = table_format(fmt, out)
+        min_elong = DEFAULT_MIN_SOLAR_ELONG_DEG if min_elong is None else min_elong
         if not (0.0 <= min_elong <= 180.0):
             raise InputError("command line", "min-elong", f"{min_elong:g} is outside [0, 180]")
         t0 = parse_utc(start, field="start")
@@ -195,7 +230,7 @@ def register(app: typer.Typer) -> None:
         frames = add_photometry(
             geometry(tgt, time_grid(t0, t1, step_s), sites, min_solar_elong_deg=min_elong),
             sites,
-            rules=ExposureRules(snr_target=snr, min_exposure_s=min_exposure_s),
+            rules=exposure_rules(snr, min_exposure_s),
         )
         caution = safety_warning(frames)
         for note in approach_warnings_utc(tgt, t0, t1):
@@ -204,6 +239,8 @@ def register(app: typer.Typer) -> None:
             text = render_table(frames, caution)
         elif fmt == "csv":
             text = render_csv(frames)
+        elif fmt == "ecsv":
+            text = render_ecsv(frames, caution)
         else:
             text = render_json(frames, caution)
         if caution:

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import re
-from datetime import date, datetime, timedelta, timezone
+from datetime import UTC, date, datetime, timedelta
 
 import numpy as np
 
@@ -91,7 +91,7 @@ def parse_utc(
         return text.astype("datetime64[ns]")
     if isinstance(text, datetime):
         if text.tzinfo is not None:
-            text = text.astimezone(timezone.utc).replace(tzinfo=None)
+            text = text.astimezone(UTC).replace(tzinfo=None)
         check_date_in_span(text.date(), file, field, text.isoformat())
         return np.datetime64(text, "ns")
     if isinstance(text, date):

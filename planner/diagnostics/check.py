@@ -19,6 +19,7 @@ from collections.abc import Callable
 
 import numpy as np
 
+from planner.core import units
 from planner.core.safety import DEFAULT_MIN_SOLAR_ELONG_DEG, SUN_SAFETY_TEXT, near_sun, sun_caution_limit_deg
 from planner.core.timegrid import iso_utc, to_jd_utc
 from planner.diagnostics.aliases import alias_chance, alias_failures, partners_in_range
@@ -112,8 +113,14 @@ def check_times(
     (counted from ``stack_ref_utc``) become one light-curve point, whose σ adds
     ``sys_err_mag_per_airmass`` × the frames' mean ``airmass`` (where given) in quadrature
     (:func:`planner.photometry.points.light_curve_points`, the plan's error model); frames with a
-    NaN σ take the median of the points. Give ``target`` rather than ``geometry`` then.
+    NaN σ take the median of the points. Give ``target`` rather than ``geometry`` then. Times may also
+    be astropy ``Time``, datetime or ISO text; periods, σ and exposures astropy Quantities.
     """
+    times_utc = units.utc_times(times_utc, "times_utc")
+    min_period_h = units.hours(min_period_h, "min_period_h")
+    max_period_h = units.hours(max_period_h, "max_period_h")
+    mag_err = units.to_unit(mag_err, "mag", "mag_err")
+    exposure_s = None if exposure_s is None else units.to_unit(exposure_s, "s", "exposure_s")
     if not (0 < min_period_h <= max_period_h):
         raise ValueError("need 0 < min_period_h <= max_period_h")
     n_repeated = repeated_times(np.asarray(times_utc, dtype="datetime64[ns]"), sites)

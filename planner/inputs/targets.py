@@ -5,7 +5,9 @@ Target file (TOML, schema in docs/formats.md): top-level ``name``, ``kind`` (``c
 Planet Center one-line orbits (the comet format of CometEls.txt or the minor-planet format of
 MPCORB.DAT); with several lines, ``object_name`` picks one.
 
-Everything is validated on load; bad input raises :class:`InputError` naming the file and field.
+Everything is validated on load; bad input raises :class:`InputError` naming the file and field. A
+:class:`Target`, :class:`Orbit` or :class:`Brightness` built in Python checks itself against the same
+limits (``ORBIT_LIMITS``, ``BRIGHTNESS_LIMITS``) with the same words.
 """
 
 from __future__ import annotations
@@ -19,8 +21,10 @@ from planner.core.bands import ASTEROID_MEAN_COLOURS, COLOUR_KEYS, SOLAR_COLOURS
 from planner.core.constants import GM_SUN_AU3_D2
 from planner.core.errors import InputError
 from planner.core.fileio import read_text
+from planner.core.limits import PYTHON, Limit, check_choice, check_instance, check_limits, source_of
 from planner.core.timegrid import check_orbit_jd
 from planner.core.tomlfile import Fields, read_toml
+from planner.core.units import tdb_jd
 from planner.inputs import mpc
 
 KINDS = ("comet", "asteroid")
@@ -34,6 +38,30 @@ DEFAULT_COMET_COLOURS = dict(SOLAR_COLOURS)
 DEFAULT_ASTEROID_COLOURS = dict(ASTEROID_MEAN_COLOURS)
 #: Bands a brightness law may be stated in (the Sun's table, planner.core.bands).
 LAW_BANDS = tuple(SUN_MAG_BY_BAND)
+#: Nucleus fading with heliocentric distance when a comet file gives M2 but no K2: a bare nucleus fades
+#: as r^-2 (K2 = 5), common practice.
+DEFAULT_K2 = 5.0
+
+ORBIT_LIMITS = {
+    "epoch_tdb_jd": Limit(2_000_000.0, 3_000_000.0),
+    "perihelion_dist_au": Limit(0.0, 1000.0, lo_open=True),
+    "eccentricity": Limit(0.0, 1000.0),
+    "inclination_deg": Limit(0.0, 180.0),
+    "ascending_node_deg": Limit(0.0, 360.0),
+    "arg_perihelion_deg": Limit(0.0, 360.0),
+    "perihelion_tdb_jd": Limit(2_000_000.0, 3_000_000.0),
+}
+BRIGHTNESS_LIMITS = {
+    "M1": Limit(-10.0, 35.0, optional=True),
+    "K1": Limit(0.0, 60.0, optional=True),
+    "M2": Limit(-10.0, 35.0, optional=True),
+    "K2": Limit(0.0, 60.0, optional=True),
+    "phase_coeff_mag_per_deg": Limit(0.0, 0.2, optional=True),
+    "H": Limit(-5.0, 35.0, optional=True),
+    "G": Limit(-0.5, 1.0, optional=True),
+}
+_COMET_LAW_KEYS = ("M1", "K1", "M2", "K2", "phase_coeff_mag_per_deg")
+_ASTEROID_LAW_KEYS = ("H", "G")
 
 
 @dataclass(frozen=True)
@@ -51,6 +79,11 @@ class Orbit:
     ascending_node_deg: float
     arg_perihelion_deg: float
     perihelion_tdb_jd: float
+
+    def __post_init__(self) -> None:
+        for name in ("epoch_tdb_jd", "perihelion_tdb_jd"):  # astropy Time, datetime or ISO text (TDB) too
+            object.__setattr__(self, name, tdb_jd(getattr(self, name), name))
+        check_limits(self, ORBIT_LIMITS, PYTHON)
 
     @property
     def semimajor_axis_au(self) -> float:
@@ -82,6 +115,22 @@ class Brightness:
     G: float | None = None
     #: The band the law's magnitudes are in: V for H,G (Bowell et al. 1989); a comet file may say otherwise.
     law_band: str = "V"
+
+    def __post_init__(self) -> None:
+        check_limits(self, BRIGHTNESS_LIMITS, PYTHON)
+        if (self.M1 is None) != (self.K1 is None):
+            raise InputError(PYTHON, "K1" if self.K1 is None else "M1", "M1 and K1 go together (total magnitude law)")
+        if self.M2 is None and (self.K2 is not None or self.phase_coeff_mag_per_deg is not None):
+            raise InputError(PYTHON, "M2", "missing: K2 and phase_coeff_mag_per_deg need M2 (nuclear magnitude law)")
+        if self.H is None and self.G is not None:
+            raise InputError(PYTHON, "H", "missing: G needs H")
+        if self.M2 is not None:
+            if self.K2 is None:
+                object.__setattr__(self, "K2", DEFAULT_K2)
+            if self.phase_coeff_mag_per_deg is None:
+                object.__setattr__(self, "phase_coeff_mag_per_deg", DEFAULT_PHASE_COEFF_MAG_PER_DEG)
+        if self.H is not None and self.G is None:
+            object.__setattr__(self, "G", DEFAULT_G)
 
 
 @dataclass(frozen=True)
@@ -125,6 +174,20 @@ class Target:
         if given:
             source = "target file" if set(given) == set(COLOUR_KEYS) else f"target file, the rest {source}"
         return {k: float(given.get(k, default[k])) for k in COLOUR_KEYS}, source
+
+    def __post_init__(self) -> None:
+        file = source_of(self)
+        if not isinstance(self.name, str) or not self.name.strip():
+            raise InputError(file, "name", "must not be empty")
+        check_choice(self, "kind", KINDS)
+        check_instance(self, "orbit", Orbit, "an Orbit")
+        check_instance(self, "brightness", Brightness, "a Brightness")
+        foreign = _ASTEROID_LAW_KEYS if self.kind == "comet" else _COMET_LAW_KEYS
+        given = [k for k in foreign if getattr(self.brightness, k) is not None]
+        if given:
+            own = ", ".join(_COMET_LAW_KEYS if self.kind == "comet" else _ASTEROID_LAW_KEYS)
+            raise InputError(file, "brightness", f"a {self.kind} takes {own}, not {', '.join(given)}")
+        check_choice(self, "propagation", PROPAGATIONS)
 
 
 def load_target(path: str | Path, object_name: str | None = None) -> Target:
@@ -183,19 +246,19 @@ def _load_toml(path: Path) -> Target:
     kind = f.str("kind", required=True, choices=KINDS)
     of = f.sub("orbit", required=True)
     of.check_known(_ORBIT_COMET if kind == "comet" else _ORBIT_ASTEROID)
-    ecc = of.float("eccentricity", required=True, lo=0.0, hi=1000.0)
-    incl = of.float("inclination_deg", required=True, lo=0.0, hi=180.0)
-    node = of.float("ascending_node_deg", required=True, lo=0.0, hi=360.0)
-    peri = of.float("arg_perihelion_deg", required=True, lo=0.0, hi=360.0)
+    angles = of.values(
+        {k: ORBIT_LIMITS[k] for k in ("eccentricity", "inclination_deg", "ascending_node_deg", "arg_perihelion_deg")},
+        required=("eccentricity", "inclination_deg", "ascending_node_deg", "arg_perihelion_deg"),
+    )
     epoch = _tdb_jd(of, "epoch")
     if kind == "comet":
-        q = of.float("perihelion_dist_au", required=True, lo=0.0, lo_open=True, hi=1000.0)
+        q = of.limited("perihelion_dist_au", ORBIT_LIMITS["perihelion_dist_au"], required=True)
         tp = _tdb_jd(of, "perihelion_time")
     else:
         a = of.float("semimajor_axis_au", required=True)
         m = of.float("mean_anomaly_deg", required=True, lo=-360.0, hi=360.0)
-        q, tp = _from_mean_anomaly(of, a, ecc, m, epoch)
-    orbit = Orbit(epoch, q, ecc, incl, node, peri, tp)
+        q, tp = _from_mean_anomaly(of, a, angles["eccentricity"], m, epoch)
+    orbit = of.build(Orbit, epoch_tdb_jd=epoch, perihelion_dist_au=q, perihelion_tdb_jd=tp, **angles)
     bf = f.sub("brightness")
     brightness = _brightness_toml(bf, kind) if bf is not None else Brightness()
     nongrav = None
@@ -256,7 +319,7 @@ def _brightness_toml(f: Fields, kind: str) -> Brightness:
         if m2 is None and (k2 is not None or beta is not None):
             raise f.error("M2", "missing: K2 and phase_coeff_mag_per_deg need M2 (nuclear magnitude law)")
         if m2 is not None:
-            k2 = 5.0 if k2 is None else k2  # a bare nucleus fades as r^-2 (K2 = 5), common practice
+            k2 = DEFAULT_K2 if k2 is None else k2
             beta = DEFAULT_PHASE_COEFF_MAG_PER_DEG if beta is None else beta
         band = f.str("law_band", "V", choices=LAW_BANDS)
         return Brightness(M1=m1, K1=k1, M2=m2, K2=k2, phase_coeff_mag_per_deg=beta, law_band=band)
@@ -301,6 +364,16 @@ def _load_mpc(path: Path, object_name: str | None) -> Target:
     _check_elements(path, prefix, q, rec.eccentricity, incl, node, peri)
     orbit = Orbit(rec.epoch_tdb_jd, q, rec.eccentricity, incl, node % 360.0, peri % 360.0, tp)
     return Target(name=rec.name, kind=kind, orbit=orbit, brightness=brightness, source=file)
+
+
+def _built(path: Path, line_no: int, cls: type, *args, **kwargs):
+    """``cls(...)`` for an orbit line; an error about one of its fields names the file and the line."""
+    try:
+        return cls(*args, **kwargs)
+    except InputError as exc:
+        if exc.file != PYTHON:
+            raise
+        raise InputError(str(path), f"line {line_no}: {exc.field}", exc.message) from None
 
 
 def _check_elements(path: Path, prefix: str, q: float, ecc: float, incl: float, node: float, peri: float) -> None:

@@ -99,7 +99,9 @@ figcaption { font-size: .88rem; color: #3d4757; margin-top: .3rem; }
 """
 
 
-def page(title: str, subtitle: str, toc: Sequence[tuple[str, str]], body: str) -> str:
+def page(title: str, subtitle: str, toc: Sequence[tuple[str, str]], body: str, version: str | None = None) -> str:
+    """The report page; ``version`` is the phasewise version that wrote the files (shown in the footer)."""
+    by = f"Written by phasewise {html.escape(str(version))}; rendered" if version else "Rendered by phasewise"
     nav = "".join(f'<li><a href="#{a}">{html.escape(t)}</a></li>' for a, t in toc)
     return (
         '<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
@@ -108,6 +110,6 @@ def page(title: str, subtitle: str, toc: Sequence[tuple[str, str]], body: str) -
         f'<header><h1>{html.escape(title)}</h1><p class="sub">{subtitle}</p>'
         f'<div class="caution" role="note"><strong>Sun safety.</strong> {html.escape(SUN_SAFETY_TEXT)}</div>'
         f"<nav><ol>{nav}</ol></nav></header><main>{body}</main>"
-        '<footer><p class="sub">Rendered by phasewise from the files in this folder. Times are UTC unless '
+        f'<footer><p class="sub">{by} from the files in this folder. Times are UTC unless '
         "marked local.</p></footer></body></html>\n"
     )

@@ -24,7 +24,11 @@ LIGHTCURVE_JSON = "lightcurve.json"
 CAMPAIGN_COPY = "campaign.toml"
 TARGET_COPY = "target.toml"
 SHEETS_DIR = "sheets"
+#: One iCalendar file (RFC 5545) per site: its planned blocks as events.
+CALENDARS_DIR = "calendars"
 REPORT_HTML = "report.html"
+#: The tables that also get an ECSV twin beside the CSV (same rows; units, time scale and metadata kept).
+ECSV_TWINS = (PLAN_CSV, BASELINE_CSV, WINDOWS_CSV, GEOMETRY_CSV, NIGHTS_CSV)
 
 #: Every file of a plan folder, in the order docs/formats.md lists them.
 PLAN_FILES = (
@@ -39,9 +43,11 @@ PLAN_FILES = (
     CAMPAIGN_COPY,
     TARGET_COPY,
     SHEETS_DIR + "/",
+    CALENDARS_DIR + "/",
     REPORT_HTML,
 )
-#: Version of the manifest's and diagnostics.json's layout; raised when a key changes meaning.
+#: Version of the layout of every JSON document phasewise writes (plan.json, diagnostics.json and the
+#: check, ephem and windows JSON); raised when a key changes meaning. Their schemas: docs/schemas/.
 SCHEMA_VERSION = 2
 
 
@@ -67,3 +73,13 @@ def sheet_name(site_name: str, all_names: Iterable[str] = ()) -> str:
         digest = hashlib.sha256(site_name.encode("utf-8")).hexdigest()[:8]
         s = f"{s[:MAX_SLUG_CHARS].rstrip('-')}-{digest}"
     return f"{s}.txt"
+
+
+def calendar_name(site_name: str, all_names: Iterable[str] = ()) -> str:
+    """The site's iCalendar file name inside ``calendars/`` (the same stem as its sheet)."""
+    return sheet_name(site_name, all_names).removesuffix(".txt") + ".ics"
+
+
+def ecsv_twin(csv_name: str) -> str:
+    """The ECSV twin of a CSV table: ``plan.csv`` → ``plan.ecsv``."""
+    return csv_name.removesuffix(".csv") + ".ecsv"

@@ -12,6 +12,7 @@ import json
 import os
 import shutil
 import tempfile
+from datetime import UTC, datetime
 from pathlib import Path
 
 from planner.core.errors import InputError
@@ -19,10 +20,11 @@ from planner.core.fileio import PART_SUFFIX, check_writable, signals_held, temp_
 from planner.core.jsonsafe import json_safe
 from planner.core.version import __version__
 from planner.outputs import layout
+from planner.outputs.calendar import site_calendar
 from planner.outputs.fitdoc import fit_document
 from planner.outputs.report import write_report
 from planner.outputs.sheets import site_sheet
-from planner.outputs.tablefiles import PLAN_CSV_FLOAT_FORMAT, records, table_for_files
+from planner.outputs.tablefiles import PLAN_CSV_FLOAT_FORMAT, ecsv_text, records, table_for_files
 from planner.pipeline import PlanResult
 from planner.sky.brightness import law_name, law_params
 
@@ -64,7 +66,7 @@ def plan_manifest(result: PlanResult) -> dict:
                 "first_night": c.first_night.isoformat(),
                 "nights": c.nights,
                 "seed": c.seed,
-                "file": layout.CAMPAIGN_COPY,
+                "file": layout.CAMPAIGN_COPY if c.path is not None else None,
             },
             "target": {
                 "name": t.name,
@@ -112,27 +114,51 @@ def _write_json(path: Path, doc: dict) -> None:
     path.write_text(json.dumps(doc, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
 
 
+def _ecsv_meta(result: PlanResult, table: str) -> dict:
+    """What an ECSV twin says about itself: which table of which plan, by which version."""
+    return {
+        "table": table,
+        "campaign": result.campaign.name,
+        "target": result.target.name,
+        "phasewise_version": __version__,
+        "schema_version": layout.SCHEMA_VERSION,
+    }
+
+
 def _write_folder(result: PlanResult, folder: Path) -> None:
     (folder / layout.SHEETS_DIR).mkdir(parents=True)
-    table_for_files(result.blocks).to_csv(folder / layout.PLAN_CSV, index=False, float_format=PLAN_CSV_FLOAT_FORMAT)
-    _write_json(folder / layout.MANIFEST_JSON, plan_manifest(result))
-    table_for_files(result.baseline).to_csv(
-        folder / layout.BASELINE_CSV, index=False, float_format=PLAN_CSV_FLOAT_FORMAT
-    )
-    _write_json(folder / layout.DIAGNOSTICS_JSON, diagnostics_json(result))
-    table_for_files(result.windows).to_csv(folder / layout.WINDOWS_CSV, index=False)
-    table_for_files(result.geometry).to_csv(folder / layout.GEOMETRY_CSV, index=False, float_format="%.6g")
+    (folder / layout.CALENDARS_DIR).mkdir()
+    tables = {
+        layout.PLAN_CSV: (result.blocks, PLAN_CSV_FLOAT_FORMAT),
+        layout.BASELINE_CSV: (result.baseline, PLAN_CSV_FLOAT_FORMAT),
+        layout.WINDOWS_CSV: (result.windows, None),
+        layout.GEOMETRY_CSV: (result.geometry, "%.6g"),
+    }
+    for name, (df, float_format) in tables.items():
+        table_for_files(df).to_csv(folder / name, index=False, float_format=float_format)
     result.nights.to_csv(folder / layout.NIGHTS_CSV, index=False, float_format="%.4g")
+    tables[layout.NIGHTS_CSV] = (result.nights, "%.4g")
+    for name in layout.ECSV_TWINS:
+        df, float_format = tables[name]
+        ecsv = ecsv_text(df, _ecsv_meta(result, name.removesuffix(".csv")), float_format)
+        (folder / layout.ecsv_twin(name)).write_text(ecsv, encoding="utf-8")
+    _write_json(folder / layout.MANIFEST_JSON, plan_manifest(result))
+    _write_json(folder / layout.DIAGNOSTICS_JSON, diagnostics_json(result))
     curve = lightcurve_json(result)
     if curve is not None:
         _write_json(folder / layout.LIGHTCURVE_JSON, curve)
-    shutil.copyfile(result.campaign.path, folder / layout.CAMPAIGN_COPY)
-    if result.campaign.target_path.suffix.lower() == ".toml":
+    if result.campaign.path is not None:  # a campaign built in Python has no file to copy
+        shutil.copyfile(result.campaign.path, folder / layout.CAMPAIGN_COPY)
+    if result.campaign.target_path is not None and result.campaign.target_path.suffix.lower() == ".toml":
         shutil.copyfile(result.campaign.target_path, folder / layout.TARGET_COPY)
+    stamp = datetime.now(UTC)
     names = [s.name for s in result.campaign.sites]
     for site in result.campaign.sites:
         (folder / layout.SHEETS_DIR / layout.sheet_name(site.name, names)).write_text(
             site_sheet(result, site), encoding="utf-8"
+        )
+        (folder / layout.CALENDARS_DIR / layout.calendar_name(site.name, names)).write_bytes(
+            site_calendar(result, site, stamp).encode("utf-8")
         )
     write_report(folder)  # last: rendered from the files above alone, inside the not-yet-renamed folder
 

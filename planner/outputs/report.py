@@ -136,7 +136,7 @@ def render_report(plan_dir: str | Path) -> str:
         ("table", "Night by night"),
         ("cautions", "Cautions"),
     ]
-    return page(title, subtitle, toc, body)
+    return page(title, subtitle, toc, body, version=pf.manifest.get("phasewise_version"))
 
 
 def write_report(plan_dir: str | Path) -> Path:
@@ -176,4 +176,5 @@ def render_check_report(check: dict, title: str = "Sampling check", source: str 
     body += diagnostics_sections([s], [""], settings.get("min_period_h"), settings.get("max_period_h"))
     body += '<section id="cautions"><h2>Cautions</h2><ul><li>' + html.escape(SUN_SAFETY_TEXT) + "</li></ul></section>"
     subtitle = f"{times.size} observation times" + (f" from {html.escape(source)}" if source else "")
-    return page(title, subtitle, [("summary", "What was checked"), *DIAG_TOC, ("cautions", "Cautions")], body)
+    toc = [("summary", "What was checked"), *DIAG_TOC, ("cautions", "Cautions")]
+    return page(title, subtitle, toc, body, version=check.get("phasewise_version"))

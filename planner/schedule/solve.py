@@ -202,6 +202,7 @@ def schedule_core(
     max_evaluations: int = 6000,
     precision_fn: Callable[[SlotGrid], tuple[list[np.ndarray], list[np.ndarray]]] | None = None,
     candidates: CandidatePeriods | None = None,
+    progress: Callable[[str], None] | None = None,
 ) -> PlanCore:
     """Optimise on a windows table: slots, greedy + local search, baseline, robustness, and the exact
     optimum when asked. ``precision_fn(grid)`` gives, per site-night, the precision 1/σ² and airmass
@@ -210,7 +211,10 @@ def schedule_core(
 
     ``candidates`` (re-planning from a fitted light curve, planner.schedule.discrimination): the trial
     periods become the windows around the candidate periods, and with two or more candidates the
-    objective gains the discrimination term."""
+    objective gains the discrimination term. ``progress(stage)``
+    is told when the slots, the optimiser and the weather trials start."""
+    progress = progress or (lambda stage: None)
+    progress("slots")
     t_ref = t_ref_for(campaign)
     sites = campaign.sites
     kwargs: dict = {}
@@ -231,7 +235,7 @@ def schedule_core(
     grid = build_slots(windows, sites, campaign.block_rules, t_ref, total_hours=campaign.total_hours, **kwargs)
     if not grid.site_nights:
         raise InputError(
-            str(campaign.path),
+            campaign.source,
             "sites",
             "no site has an observable window long enough for one block in the nights left to plan"
             + _why_no_window(windows, None if done is None else done.end_utc),
@@ -264,6 +268,7 @@ def schedule_core(
         slot_quality=quality,
         slot_moments=moments,
     )
+    progress("optimiser")
     opt = optimise(model, seed=campaign.seed, max_evaluations=max_evaluations)
     base = baseline_visits(grid, windows, total_slots(opt.visits))
     objective = ObjectiveSummary(
@@ -290,6 +295,7 @@ def schedule_core(
         cov_greedy = greedy_lazy(grid, model.element_packed(), pack_cells(model.done_cells))
         ex = exact_coverage(model, time_limit_s=exact_time_limit_s, greedy_cells=cov_greedy.covered_cells)
         objective.exact = ExactComparison(ex, cov_greedy.covered_cells)
+    progress("weather trials")
     trials = campaign.weather_trials
     robustness = {
         "plan": weather_monte_carlo(model, opt.visits, trials, campaign.seed),

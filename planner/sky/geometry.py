@@ -32,6 +32,7 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
+from planner.core import units
 from planner.core.constants import (
     ARCSEC_PER_RAD,
     C_AU_PER_DAY,
@@ -204,8 +205,11 @@ def geometry(
     ``mag_law``, ``mag_params`` (the law's parameters, planner.sky.brightness.law_params), ``law_band``
     (the band of ``mag_pred``), ``colour_indices`` and ``colour_source`` (``Target.colours()``, for the
     magnitude in an instrument's band), ``target``, ``observer`` and ``min_solar_elong_deg``; a site's
-    frame also ``air`` (how its ``alt_deg`` was refracted, in words).
+    frame also ``air`` (how its ``alt_deg`` was refracted, in words). ``times_utc`` may be datetime64, astropy ``Time``,
+    datetime or ISO text; ``min_solar_elong_deg`` a number of degrees or an angle Quantity.
     """
+    times_utc = units.utc_times(times_utc, "times_utc")
+    min_solar_elong_deg = units.to_unit(min_solar_elong_deg, "deg", "min_solar_elong_deg")
     names = [s.name for s in sites]
     for site in sites:
         if names.count(site.name) > 1:

@@ -20,6 +20,7 @@ from datetime import date
 import numpy as np
 import pandas as pd
 
+from planner.core import units
 from planner.core.errors import InputError
 from planner.core.safety import SUN_SAFETY_TEXT, TWILIGHT_CAUTION_SUN_ALT_DEG, near_sun
 from planner.inputs.sites import Site
@@ -356,5 +357,9 @@ def observable_windows(
     One row per observable interval (several per night are possible), or one zero-hour row with a
     ``reason`` for a night without any. Columns: :data:`WINDOW_COLUMNS`, described in
     docs/formats.md ("Windows columns"). Edges are refined to ``tol_s`` seconds from a ``step_s`` grid.
+    ``first_night`` may be a date, ISO text or an astropy ``Time``; ``step_s`` seconds, text (``"5m"``) or
+    a time Quantity.
     """
+    first_night = units.calendar_date(first_night, "first_night")
+    step_s = units.seconds(step_s, "step_s")
     return find_windows(geometry_sky(target, sites), sites, first_night, nights, step_s=step_s, tol_s=tol_s)
