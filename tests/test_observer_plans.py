@@ -227,7 +227,9 @@ def test_check_formats_are_the_ones_the_readme_names(tmp_path, capsys):
     log = tmp_path / "log.csv"
     log.write_text("time_utc\n2034-03-19T20:00:00Z\n2034-03-19T21:00:00Z\n2034-03-20T20:00:00Z\n")
     r = run_cli(capsys, "check", log, "--format", "csv")
-    assert r.returncode == 2 and r.stderr.startswith("error: command line: --format: 'csv' is not one of 'table', 'json'")
+    assert r.returncode == 2 and r.stderr.startswith(
+        "error: command line: --format: 'csv' is not one of 'table', 'json'"
+    )
     readme = (ROOT / "README.md").read_text()
     assert "`check`: `json`" in readme
     assert (
