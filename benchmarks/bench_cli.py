@@ -28,6 +28,8 @@ from pathlib import Path  # noqa: E402
 import numpy as np  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
+#: The bundled demo inputs (package data).
+DEMO = ROOT / "planner" / "data" / "demo"
 sys.path.insert(0, str(ROOT))
 
 from benchutil import spread  # noqa: E402
@@ -80,7 +82,7 @@ def main() -> None:
             "planner",
             "ephem",
             "--target",
-            str(ROOT / "demo_targets" / "c2034-b3-quillfeather.toml"),
+            str(DEMO / "c2034-b3-quillfeather.toml"),
             "--start",
             "2034-01-01",
             "--stop",
@@ -88,7 +90,7 @@ def main() -> None:
             "--step",
             "5m",
             "--site",
-            str(ROOT / "sites" / "karoo-ridge.toml"),
+            str(DEMO / "sites" / "karoo-ridge.toml"),
             "--format",
             "csv",
             "--out",

@@ -2,7 +2,7 @@
 
 Sites are invented, spread evenly in longitude (every 360/N degrees) at southern and tropical
 latitudes, each with a small telescope and 4 h a night; the target is the demo comet
-(demo_targets/c2034-b3-quillfeather.toml), observable from mid-March to June 2034. The campaign uses
+(planner/data/demo/c2034-b3-quillfeather.toml), observable from mid-March to June 2034. The campaign uses
 the demo's settings (5-minute slots, periods 2–30 h, 400 weather trials, 100 injection trials).
 Every run is a fresh subprocess (BLAS threads pinned) that loads the campaign, plans it, writes
 the plan folder with its report, then re-renders the report alone (what `phasewise report` does);
@@ -32,7 +32,7 @@ import time  # noqa: E402
 from pathlib import Path  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
-TARGET = ROOT / "demo_targets" / "c2034-b3-quillfeather.toml"
+TARGET = ROOT / "planner" / "data" / "demo" / "c2034-b3-quillfeather.toml"
 FIRST_NIGHT = "2034-03-16"
 
 #: (latitude, aperture m) cycled over the invented sites: southern sites see the comet (Dec −26° → −10°) high.

@@ -30,6 +30,8 @@ import numpy as np  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+#: The bundled demo inputs (package data).
+DEMO = ROOT / "planner" / "data" / "demo"
 
 from benchutil import spread  # noqa: E402
 
@@ -91,7 +93,7 @@ def main() -> None:
     size.add_argument("--full", action="store_true", help="5 plan runs, HiGHS 300 s, lazy vs plain greedy")
     args = ap.parse_args()
     no_iers_download()
-    campaign = load_campaign(ROOT / "demo_targets" / "demo-campaign.toml")
+    campaign = load_campaign(DEMO / "demo-campaign.toml")
     target = campaign.load_target()
     reps, limit = (1, 20.0) if args.quick else (5, 300.0) if args.full else (3, 60.0)
     print(f"BLAS threads {os.environ['OPENBLAS_NUM_THREADS']}\n")

@@ -59,7 +59,7 @@ def child(kind: str, trials: int, workers: int) -> None:
         from planner.visibility.windows import observable_windows
 
         no_iers_download()
-        camp = load_campaign(ROOT / "demo_targets" / "demo-campaign.toml")
+        camp = load_campaign(ROOT / "planner" / "data" / "demo" / "demo-campaign.toml")
         target = camp.load_target()
         w = observable_windows(target, list(camp.sites), camp.first_night, camp.nights, step_s=300.0)
         core = schedule_core(camp, w)

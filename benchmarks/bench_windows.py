@@ -11,8 +11,10 @@ slowest way the library allows:
 - the Sun and the Moon computed once per site for all that site's grid times (``get_body``), with the
   JPL DE421 ephemeris set through ``astropy.coordinates.solar_system_ephemeris`` to the same bundled
   file phasewise reads (skyfield-data; nothing is downloaded);
-- the target's alt/az from ``Observer.altaz`` once per site; separations from the Sun and the Moon
-  with numpy on the unit vectors (no SkyCoord per comparison);
+- the target's apparent alt/az from ``Observer.altaz`` once per site, the Observer given the site's air
+  (ERFA refraction there, as phasewise's apparent altitudes); twilight from an airless Observer (the
+  Sun's airless altitude, as phasewise's darkness limit); separations from the Sun and the Moon with
+  numpy on the unit vectors (no SkyCoord per comparison);
 - the site's horizon mask, Moon rule (separation limit growing with illumination while the Moon is
   up), hour-angle and declination limits applied as arrays.
 
@@ -40,6 +42,8 @@ import numpy as np  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+#: The bundled demo inputs (package data).
+DEMO = ROOT / "planner" / "data" / "demo"
 
 from benchutil import repetitions, spread  # noqa: E402
 
@@ -47,6 +51,7 @@ from planner.core.timegrid import time_grid  # noqa: E402
 from planner.inputs.sites import load_site  # noqa: E402
 from planner.inputs.targets import load_target  # noqa: E402
 from planner.sky.geometry import geometry  # noqa: E402
+from planner.sky.refraction import site_air  # noqa: E402
 from planner.sky.skydata import no_iers_download  # noqa: E402
 from planner.visibility.intervals import true_runs  # noqa: E402
 from planner.visibility.limits import in_granted  # noqa: E402
@@ -76,14 +81,20 @@ def astroplan_windows(target, sites, de421: str):
     out = []
     with solar_system_ephemeris.set(de421):
         for s in sites:
+            location = EarthLocation(lat=s.latitude_deg * u.deg, lon=s.longitude_deg * u.deg, height=s.height_m * u.m)
+            airless = Observer(location=location)  # twilight: the Sun's airless altitude
+            pressure_hpa, temperature_c = site_air(s)  # apparent altitudes on both sides (ERFA refraction there)
             obs = Observer(
-                location=EarthLocation(lat=s.latitude_deg * u.deg, lon=s.longitude_deg * u.deg, height=s.height_m * u.m)
+                location=location,
+                pressure=pressure_hpa * u.hPa,
+                temperature=temperature_c * u.deg_C,
+                relative_humidity=0.0,
             )
             which = _TWILIGHT[s.night_sun_alt_deg]
             bounds = night_bounds_utc(s, FIRST, NIGHTS)
             noon = Time(bounds[:-1], scale="utc")
-            dusk = getattr(obs, f"twilight_evening_{which}")(noon, which="next")
-            dawn = getattr(obs, f"twilight_morning_{which}")(dusk, which="next")
+            dusk = getattr(airless, f"twilight_evening_{which}")(noon, which="next")
+            dawn = getattr(airless, f"twilight_morning_{which}")(dusk, which="next")
             grids, night_of = [], []
             for k in range(NIGHTS):
                 if dusk[k].masked or dawn[k].masked:
@@ -130,8 +141,8 @@ def main() -> None:
     iers.conf.iers_degraded_accuracy = "warn"  # 2034 lies past the bundled IERS table: UT1 ≈ UTC
     warnings.simplefilter("ignore")
     de421 = str(Path(get_skyfield_data_path()) / "de421.bsp")
-    sites = [load_site(p) for p in sorted((ROOT / "sites").glob("*.toml"))]
-    target = load_target(next(iter(sorted((ROOT / "demo_targets").glob("*.toml")))))
+    sites = [load_site(p) for p in sorted((DEMO / "sites").glob("*.toml"))]
+    target = load_target(next(iter(sorted(DEMO.glob("c*.toml")))))
 
     observable_windows(target, sites, FIRST, 1)  # warm-up both routes (ephemeris files, caches)
     astroplan_windows(target, sites[:1], de421)

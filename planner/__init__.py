@@ -12,7 +12,14 @@ Geometry and windows
 Diagnostics of any list of times
     :func:`check_times`.
 Planning
-    :func:`plan_campaign`, :func:`write_plan_folder`, :func:`write_report`.
+    :func:`plan_campaign` (a :class:`Campaign` loaded from a file or built from :class:`Site` and
+    :class:`Target` objects), :func:`write_plan_folder`, :func:`write_report`.
+Tables
+    :func:`as_qtable`: any table as an astropy ``QTable`` with the units its column names carry.
+
+Times may be astropy ``Time``, numpy datetime64, ``datetime`` or ISO text; angles and durations
+astropy ``Quantity`` (converted to the unit a name carries); a site may come from an ``EarthLocation``
+(:meth:`Site.from_earth_location`).
 
 Bad input raises :class:`InputError` (file, field, message). See docs/architecture.md for the stages.
 """
@@ -50,6 +57,7 @@ _EXPORTS = {
     "PlanResult": "planner.pipeline",
     "write_plan_folder": "planner.outputs.planfolder",
     "write_report": "planner.outputs.report",
+    "as_qtable": "planner.outputs.tablefiles",
 }
 
 __all__ = ["InputError", "__version__", *_EXPORTS]

@@ -1,4 +1,4 @@
-"""Shared test set-up: no network, astropy kept offline, paths to the bundled demo files."""
+"""Shared test set-up: no network, astropy kept offline, paths to the bundled demo files (DEMO_DIR)."""
 
 from __future__ import annotations
 
@@ -10,6 +10,8 @@ from hypothesis import settings
 from planner.sky.skydata import no_iers_download
 
 ROOT = Path(__file__).resolve().parent.parent
+#: The bundled demo inputs (package data: target, campaign and sites/), as planner.demo.DEMO_DIR finds them.
+DEMO_DIR = ROOT / "planner" / "data" / "demo"
 
 no_iers_download()
 
@@ -29,19 +31,42 @@ def demo_plan():
     from planner.inputs.campaign import load_campaign
     from planner.pipeline import plan_campaign
 
-    campaign = load_campaign(ROOT / "demo_targets" / "demo-campaign.toml")
+    campaign = load_campaign(DEMO_DIR / "demo-campaign.toml")
     return campaign, plan_campaign(campaign, campaign.load_target())
 
 
 @pytest.fixture(scope="session")
-def demo_folder(demo_plan, tmp_path_factory) -> Path:
-    """The demo's folder as ``phasewise demo`` writes it (run_demo on the session's plan), written once:
-    read it, or copy it before changing anything."""
+def demo_replan(demo_plan):
+    """The demo campaign re-planned once for the whole session from the invented first-nights log with
+    magnitudes (planner/data/demo/demo-first-nights.csv): the PlanResult, its light-curve fit included."""
+    from planner.inputs.donelog import read_done_log
+    from planner.pipeline import plan_campaign
+
+    campaign = demo_plan[0]
+    done = read_done_log(ROOT / "planner" / "data" / "demo" / "demo-first-nights.csv", campaign.sites)
+    return plan_campaign(campaign, campaign.load_target(), done)
+
+
+@pytest.fixture(scope="session")
+def demo_run(demo_plan, demo_replan, tmp_path_factory):
+    """``phasewise demo``'s run (run_demo on the session's plan and re-plan), written once: its
+    DemoResult. Read its folder, or copy it before changing anything."""
     import planner.demo
 
     out = tmp_path_factory.mktemp("demo") / "phasewise-demo"
     with pytest.MonkeyPatch.context() as mp:
-        mp.setattr(planner.demo, "plan_campaign", lambda *args, **kwargs: demo_plan[1])
+        mp.setattr(
+            planner.demo,
+            "plan_campaign",
+            lambda campaign, target, done=None, **kwargs: demo_plan[1] if done is None else demo_replan,
+        )
         result = planner.demo.run_demo(out)
     assert result.report_path == out / "report.html"
-    return out
+    return result
+
+
+@pytest.fixture(scope="session")
+def demo_folder(demo_run) -> Path:
+    """The demo's folder as ``phasewise demo`` writes it (the first plan at the top, the re-plan in
+    ``replan/``): read it, or copy it before changing anything."""
+    return demo_run.out_dir

@@ -44,6 +44,34 @@ def rotation_cycles(tau_d: np.ndarray, period_h: float, pdot_h_per_day: float) -
     return 24.0 / pdot_h_per_day * np.log1p(pdot_h_per_day * tau / period_h)
 
 
+def ellipsoid_rotation_mag(
+    tau_d: np.ndarray,
+    period_h: float,
+    *,
+    axes: tuple[float, float, float] = (1.6, 1.0, 0.85),
+    aspect_deg: float = 70.0,
+    albedo_contrast: float = 0.10,
+    nucleus_fraction: float = 1.0,
+    phase0_rad: float = 0.4,
+    pdot_h_per_day: float = 0.0,
+) -> np.ndarray:
+    """Rotational magnitude (0 at the projected area seen side-on) at emission times ``tau_d`` (days from
+    the reference epoch): the ellipsoid's area times the albedo term, diluted by unvarying light
+    (a coma) so the nucleus gives ``nucleus_fraction`` of the flux at that reference."""
+    th = np.radians(aspect_deg)
+    nucleus = rotating_flux(tau_d, period_h, pdot_h_per_day, axes, aspect_deg, albedo_contrast, phase0_rad)
+    nucleus = nucleus / ellipsoid_area(axes, np.array([np.sin(th), 0.0, np.cos(th)]))
+    return -2.5 * np.log10(1.0 - nucleus_fraction + nucleus_fraction * nucleus)
+
+
+def rotating_flux(tau_d, period_h, pdot_h_per_day, axes, aspect_deg, albedo_contrast, phase0_rad) -> np.ndarray:
+    """Projected area times the albedo term (1 + contrast · cos ψ) at rotation angle ψ = 2π·cycles + ψ0."""
+    psi = 2 * np.pi * rotation_cycles(tau_d, period_h, pdot_h_per_day) + phase0_rad
+    th = np.radians(aspect_deg)
+    view = np.stack([np.sin(th) * np.cos(psi), -np.sin(th) * np.sin(psi), np.full_like(psi, np.cos(th))], axis=-1)
+    return ellipsoid_area(axes, view) * (1.0 + albedo_contrast * np.cos(psi))
+
+
 @dataclass
 class Campaign:
     """The points as the fit takes them, and the truth that made them."""
@@ -98,10 +126,7 @@ def campaign(
     tau = t_emit - T0_JD
     r = r0_au + rdot_au_per_day * tau
     delta = delta0_au + deltadot_au_per_day * tau
-    psi = 2 * np.pi * rotation_cycles(tau, period_h, pdot_h_per_day) + 0.7
-    th = np.radians(aspect_deg)
-    view = np.stack([np.sin(th) * np.cos(psi), -np.sin(th) * np.sin(psi), np.full_like(psi, np.cos(th))], axis=-1)
-    flux = ellipsoid_area(axes, view) * (1.0 + albedo_contrast * np.cos(psi))
+    flux = rotating_flux(tau, period_h, pdot_h_per_day, axes, aspect_deg, albedo_contrast, 0.7)
     sigma = rng.uniform(*sigma_range_mag, tau.size)
     mag = (
         m1

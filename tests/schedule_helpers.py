@@ -10,8 +10,8 @@ import pandas as pd
 from planner.inputs.settings import BlockRules, Weights
 from planner.inputs.sites import Allocation, Site
 from planner.schedule.objective import alias_freq_grid
+from planner.schedule.planmodel import Done, PlanModel
 from planner.schedule.slots import build_slots
-from planner.schedule.state import Done, PlanModel
 
 T_REF = np.datetime64("2034-03-15T00:00", "ns")
 

@@ -9,6 +9,7 @@ import pytest
 from planner.cli import main
 from planner.core.errors import InputError
 from planner.inputs.campaign import load_campaign
+from tests.conftest import DEMO_DIR
 
 GOOD = """
 name = "t"
@@ -22,9 +23,7 @@ seed = 1
 
 def _write(tmp_path, root, extra="", **over):
     text = (
-        GOOD.format(
-            target=root / "demo_targets" / "c2034-b3-quillfeather.toml", site=root / "sites" / "karoo-ridge.toml"
-        )
+        GOOD.format(target=DEMO_DIR / "c2034-b3-quillfeather.toml", site=DEMO_DIR / "sites" / "karoo-ridge.toml")
         + extra
     )
     for k, v in over.items():
@@ -35,7 +34,7 @@ def _write(tmp_path, root, extra="", **over):
 
 
 def test_demo_campaign_loads_with_the_fixed_week_and_overrides(root):
-    c = load_campaign(root / "demo_targets" / "demo-campaign.toml")
+    c = load_campaign(DEMO_DIR / "demo-campaign.toml")
     assert c.first_night == date(2034, 3, 16) and c.nights == 7
     assert len(c.sites) == 4
     assert (c.rotation.min_period_h, c.rotation.max_period_h) == (2.0, 30.0) and c.rotation.double_peaked
@@ -47,8 +46,8 @@ def test_paths_are_relative_to_the_campaign_file(tmp_path, root):
     import shutil
 
     (tmp_path / "t").mkdir()
-    shutil.copy(root / "demo_targets" / "c2034-b3-quillfeather.toml", tmp_path / "t" / "comet.toml")
-    shutil.copy(root / "sites" / "karoo-ridge.toml", tmp_path / "site.toml")
+    shutil.copy(DEMO_DIR / "c2034-b3-quillfeather.toml", tmp_path / "t" / "comet.toml")
+    shutil.copy(DEMO_DIR / "sites" / "karoo-ridge.toml", tmp_path / "site.toml")
     p = tmp_path / "t" / "c.toml"
     p.write_text(
         'name = "x"\ntarget = "comet.toml"\nsites = ["../site.toml"]\nfirst_night = "2034-03-16"\nnights = 1\n'

@@ -11,6 +11,7 @@ from clirun import run_cli
 from planner.cli import main
 from planner.core.errors import InputError
 from planner.inputs.obslog import read_observation_log
+from tests.conftest import DEMO_DIR
 
 
 def _write_log(path, hours, sites=None, extra=""):
@@ -135,7 +136,7 @@ def test_target_adds_geometric_trend_and_synodic_drift(root, tmp_path, capsys):
         "check",
         log,
         "--target",
-        root / "demo_targets" / "c2034-b3-quillfeather.toml",
+        DEMO_DIR / "c2034-b3-quillfeather.toml",
         "--trials",
         "20",
         "--format",
@@ -158,17 +159,31 @@ def test_site_instruments_set_the_noise_where_the_log_is_silent(capsys, tmp_path
     # gives it; only points without a prediction (target down, Sun up) fall back to --mag-err.
     from planner.inputs.sites import load_site
     from planner.inputs.targets import load_target
-    from planner.photometry.tables import mag_err_for_times
+    from planner.photometry.frames import mag_err_for_times
 
-    target = root / "demo_targets/c2034-b3-quillfeather.toml"
-    site_file = root / "sites/karoo-ridge.toml"
+    target = DEMO_DIR / "c2034-b3-quillfeather.toml"
+    site_file = DEMO_DIR / "sites/karoo-ridge.toml"
     log = tmp_path / "karoo.csv"
     times = [f"2034-03-17T{h:02d}:{m:02d}:00Z" for h in (19, 20, 21, 22) for m in (0, 20, 40)]
     rows = [f"{t},Karoo Ridge,{'0.005' if i < 3 else ''}" for i, t in enumerate(times)]
     rows.append("2034-03-17T12:00:00Z,Karoo Ridge,")  # local 14:00: Sun up, no prediction
     log.write_text("time_utc,site,mag_err\n" + "\n".join(rows) + "\n")
+    # Points 20 min apart stay single frames; --sys-err 0 leaves the frames' own σ (no extinction term).
     code, out, err = _call(
-        capsys, log, "--target", target, "--site", site_file, "--trials", "0", "--mag-err", "0.3", "--format", "json"
+        capsys,
+        log,
+        "--target",
+        target,
+        "--site",
+        site_file,
+        "--trials",
+        "0",
+        "--mag-err",
+        "0.3",
+        "--format",
+        "json",
+        "--sys-err",
+        "0",
     )
     assert code == 0, err
     d = json.loads(out)

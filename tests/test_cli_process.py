@@ -8,7 +8,7 @@ import sys
 
 import pytest
 
-DEMO = "demo_targets/c2034-b3-quillfeather.toml"
+DEMO = "planner/data/demo/c2034-b3-quillfeather.toml"
 
 
 @pytest.mark.slow

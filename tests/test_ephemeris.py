@@ -96,9 +96,11 @@ def _astropy_route(target: Target, times_utc: np.ndarray, site: Site | None):
 
 
 def _target(e: float, q: float, tp: float, name="check") -> Target:
+    # Two-body motion: these checks compare the geometry pipeline (frames, light time, aberration) with
+    # an independent two-body route; the perturbed propagator has its own checks (tests/test_nbody*.py).
     orbit = Orbit(tp, q, e, 33.0, 150.0, 75.0, tp)
     law = Brightness(M1=10.0, K1=10.0, M2=15.0, K2=5.0, phase_coeff_mag_per_deg=0.035)
-    return Target(name, "comet", orbit, law)
+    return Target(name, "comet", orbit, law, propagation="two-body")
 
 
 SITE = Site(name="Test ridge", latitude_deg=-30.2, longitude_deg=-70.7, height_m=2200.0)
@@ -126,7 +128,7 @@ def test_meeus_comet_encke_example():
     # geometric light-time corrected, no aberration); confirmed by the independent astropy route above.
     a, e = 2.2091404, 0.8502196
     orbit = Orbit(2448170.5, a * (1 - e), e, 11.94524, 334.75006, 186.23352, 2448193.04502)
-    target = Target("2P/Encke", "comet", orbit)
+    target = Target("2P/Encke", "comet", orbit, propagation="two-body")  # Meeus computes two-body motion
     # 1990 Oct 6.0 TT = 1990 Oct 5 23:58:63.816 UTC (TT − UTC = 56.184 s in 1990).
     t = np.array(["1990-10-05T23:59:03.816"], dtype="datetime64[ns]")
     frame = geometry(target, t)["geocentre"]
@@ -140,7 +142,8 @@ def test_meeus_comet_encke_example():
 
 
 def test_altaz_and_hour_angle_match_astropy_frames():
-    # Independent route: astropy AltAz (pressure 0 = airless, like ours) and HADec frames, with IERS
+    # Independent route: astropy AltAz (pressure 0 = airless, like our alt_true_deg; the refracted alt_deg
+    # is checked in test_refraction.py) and HADec frames, with IERS
     # tables from astropy-iers-data (a 2024 date they cover). Tolerance 1": we neglect polar motion
     # (<= 0.5"), solar light deflection (<= 0.02" here) and use IAU 2000B nutation (~1 mas).
     from astropy import units as u
@@ -166,7 +169,7 @@ def test_altaz_and_hour_angle_match_astropy_frames():
     bary = (p + obs).T
     coord = SkyCoord(ICRS(CartesianRepresentation(bary * u.au)))
     altaz = coord.transform_to(AltAz(obstime=t, location=loc, pressure=0 * u.hPa))
-    d_alt = (frame["alt_deg"].to_numpy() - altaz.alt.deg) * 3600
+    d_alt = (frame["alt_true_deg"].to_numpy() - altaz.alt.deg) * 3600
     d_az = ((frame["az_deg"].to_numpy() - altaz.az.deg + 180) % 360 - 180) * 3600 * np.cos(altaz.alt.rad)
     assert np.abs(d_alt).max() < 1.0 and np.abs(d_az).max() < 1.0
     hadec = coord.transform_to(HADec(obstime=t, location=loc, pressure=0 * u.hPa))
@@ -178,7 +181,9 @@ def test_sun_and_moon_columns_match_astropy_and_astroplan():
     # Sun altitude vs astropy get_body('sun') in AltAz (we ignore the Sun's aberration and light time,
     # ≈ 20"); Moon illumination vs astroplan.moon_illumination (Meeus 1998, ch. 48), which is geocentric
     # while ours is topocentric: the Moon's parallax (<= 1°) moves the fraction by <= 0.009.
-    from astroplan import moon_illumination
+    moon_illumination = pytest.importorskip(
+        "astroplan", reason="astroplan (optional reference library) is not installed"
+    ).moon_illumination
     from astropy import units as u
     from astropy.coordinates import AltAz, EarthLocation, get_body
     from astropy.time import Time
@@ -308,7 +313,10 @@ def test_low_elongation_is_flagged_with_a_caution():
 
 
 def test_several_sites_give_one_frame_each_and_times_outside_de421_fail():
-    sites = [SITE, Site(name="North", latitude_deg=19.8, longitude_deg=-155.5, height_m=4200.0)]
+    sites = [
+        SITE,
+        Site(name="North", latitude_deg=19.8, longitude_deg=-155.5, height_m=4200.0, timezone="Pacific/Honolulu"),
+    ]
     frames = geometry(_target(2.5, 1.2, 2464000.5), TIMES, sites)
     assert list(frames) == ["Test ridge", "North"]
     assert all(len(f) == len(TIMES) for f in frames.values())

@@ -13,7 +13,8 @@ from planner.inputs.campaign import Campaign
 from planner.inputs.settings import BlockRules, Rotation, Weights
 from planner.pipeline import schedule_core
 from planner.schedule.nightnotes import night_notes
-from planner.schedule.state import PlanState, Visit
+from planner.schedule.planmodel import Visit
+from planner.schedule.state import PlanState
 from tests.schedule_helpers import T_REF, synthetic_windows
 
 BLOCKS = BlockRules(slot_minutes=10, min_block_h=1.0, max_block_h=3.0, setup_minutes=10, max_per_night=2)
@@ -119,3 +120,39 @@ def test_not_needed_and_unplaced_agree_with_every_placement():
     row = n2[(n2["site"] == p0.site) & (n2["night"] == p0.night.isoformat())].iloc[0]
     best = _exhaustive_best(core, kept, p0.site, p0.night.isoformat())
     assert best > 0 and row["status"] == "unplaced" and f"{best:+.4f}" in row["note"]
+
+
+def test_replan_notes_give_the_true_reason():
+    # Three sites on UTC clocks; the log's last exposure ends at 04:00:30 UTC (2034-03-17) at S1.
+    from planner.inputs.donelog import DoneLog
+    from planner.inputs.sites import Allocation, Site
+
+    sites = [Site(name=f"S{i}", latitude_deg=-30.0, longitude_deg=0.0, allocation=Allocation(2.0)) for i in range(3)]
+    spans = {"S0": ("19:00", "02:00"), "S1": ("22:00", "05:00"), "S2": ("20:00", "04:45")}
+    rows = []
+    for night in ("2034-03-16", "2034-03-17"):
+        for name, (a, b) in spans.items():
+            start = np.datetime64(f"{night}T{a}", "ns")
+            end = np.datetime64(f"{night}T{b}", "ns") + np.timedelta64(1, "D")
+            rows.append(
+                dict(site=name, night=night, start_utc=start, end_utc=end, hours=(end - start) / np.timedelta64(1, "h"))
+            )
+    w = pd.DataFrame(rows).assign(best_utc=lambda d: d["start_utc"] + (d["end_utc"] - d["start_utc"]) / 2)
+    w["max_alt_deg"] = 60.0
+    times = np.datetime64("2034-03-17T02:30:30", "ns") + np.arange(90) * np.timedelta64(60, "s")
+    done = DoneLog("log.csv", times, np.array(["S1"] * 90, dtype=object), np.full(90, 60.0), np.full(90, np.nan))
+    assert done.end_utc == np.datetime64("2034-03-17T04:00:00", "ns") and done.end_site == "S1"
+    core = schedule_core(_campaign(sites, 2), w, done, max_evaluations=300)
+    n = core.nights.set_index(["site", "night"])
+    cut = "nothing is planned before the log's last time, 04:00 UTC on 2034-03-17"
+    past = n.loc[("S0", "2034-03-16")]
+    assert past["status"] == "past" and past["note"] == f"{cut} (S1), and this night's window ends at 02:00 UTC"
+    logged = n.loc[("S1", "2034-03-16")]
+    assert logged["status"] == "observed" and logged["note"] == (
+        "observed: 1.50 h in the log; the 2 h this night's allocation gives leave under the shortest block (1 h)"
+    )
+    short = n.loc[("S2", "2034-03-16")]
+    assert short["status"] == "too short" and short["note"] == (
+        f"too short: {cut} (S1); what is left of the window after it (0.75 h at most) is under the shortest block (1 h)"
+    )
+    assert "no time left" not in " ".join(n["note"])

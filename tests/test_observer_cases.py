@@ -369,14 +369,14 @@ def test_check_notes_repeated_rows(tmp_path, capsys):
 
 
 def test_stacked_points_without_sigma_stay_unknown_quietly():
-    from planner.schedule.blocktable import binned_points
+    from planner.photometry.points import stack_frames
 
     t_ref = np.datetime64("2034-06-12T00:00:00", "ns")
     t = t_ref + (np.tile(np.arange(4), 2) * 60 + 30).astype("timedelta64[s]").astype("timedelta64[ns]")
     frames = pd.DataFrame({"time_utc": t, "site": ["A"] * 4 + ["B"] * 4, "mag_err": [0.02] * 4 + [np.nan] * 4})
     with warnings.catch_warnings():
         warnings.simplefilter("error")  # no divide-by-zero warning on the terminal
-        points = binned_points(frames, t_ref, 300.0)
+        points = stack_frames(frames, 300.0, t_ref)
     by_site = points.set_index("site")
     # Four frames of σ 0.02 mag averaged: σ/√4 = 0.01 mag (standard error of a mean, common practice).
     assert by_site.loc["A", "mag_err"] == pytest.approx(0.01)
@@ -390,7 +390,9 @@ def test_out_into_a_folder_or_under_a_file_is_one_line(tmp_path, capsys):
     (tmp_path / "afile").write_text("x")
     common = ["ephem", "--target", str(ORBITS), "--object", "qa1", "--start", "2034-06-10", "--stop", "2034-06-10"]
     code, _, err = call(capsys, *common, "--out", str(tmp_path))
-    assert code == 2 and err.strip() == f"error: {tmp_path}: out: is a folder; give a file name (e.g. a name inside it)"
+    assert (
+        code == 2 and err.strip() == f"error: {tmp_path}: --out: is a folder; give a file name (e.g. a name inside it)"
+    )
     code, _, err = call(capsys, *common, "--out", str(tmp_path / "afile" / "e.txt"))
     assert code == 2 and "a file of that name is in the way" in err and "Traceback" not in err
     assert (tmp_path / "afile").read_text() == "x"

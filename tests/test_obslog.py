@@ -63,6 +63,45 @@ def test_bad_cells_name_column_and_row(tmp_path, row, column, message):
     assert str(exc.value).startswith(f"{f}: {column}: ") and message in str(exc.value)
 
 
+MAG_HEADER = "time_utc,site,mag,mag_err,band"
+
+
+def test_magnitudes_and_bands_are_read_and_rows_without_them_stay_times(tmp_path):
+    f = tmp_path / "lc.csv"
+    f.write_text(
+        f"{MAG_HEADER},status,night\n"
+        "2034-03-10T20:00:00Z,hilltop,14.213,0.012,R,,\n"
+        "2034-03-10T20:10:00Z,hilltop,,,,,\n"
+        "2034-03-10T20:20:00Z,hilltop,-1.5,,sdss_r,,\n"
+        ",hilltop,,,,lost,2034-03-11\n"
+    )
+    log = read_observation_log(f)
+    assert log.times_utc.size == 3 and len(log.lost) == 1
+    np.testing.assert_array_equal(log.has_mag, [True, False, True])
+    assert log.mag[0] == 14.213 and log.mag[2] == -1.5 and np.isnan(log.mag[1])
+    assert list(log.band) == ["R", "", "sdss_r"]
+    # A log without the columns has no magnitudes at all.
+    plain = read_observation_log(_done_log(tmp_path / "done.csv"))
+    assert plain.mag is None and plain.band is None and not plain.has_mag.any()
+
+
+@pytest.mark.parametrize(
+    "row, column, message",
+    [
+        ("2034-03-10T20:00:00Z,hilltop,bright,0.02,R", "mag (row 2)", "'bright' is not a number"),
+        ("2034-03-10T20:00:00Z,hilltop,99.9,0.02,R", "mag (row 2)", "outside [-30, 40]"),
+        ("2034-03-10T20:00:00Z,hilltop,nan,0.02,R", "mag (row 2)", "outside [-30, 40]"),
+        ("2034-03-10T20:00:00Z,hilltop,14.1,0.02,R band", "band (row 2)", "not a band name"),
+    ],
+)
+def test_bad_magnitude_cells_name_column_and_row(tmp_path, row, column, message):
+    f = tmp_path / "bad.csv"
+    f.write_text(f"{MAG_HEADER}\n2034-03-10T19:00:00Z,hilltop,14.0,0.02,R\n{row}\n")
+    with pytest.raises(InputError) as exc:
+        read_observation_log(f)
+    assert str(exc.value).startswith(f"{f}: {column}: ") and message in str(exc.value)
+
+
 def test_replan_reader_is_the_same_reader(tmp_path):
     f = _done_log(tmp_path / "done.csv")
     sites = [
@@ -92,3 +131,20 @@ def test_check_uses_observed_rows_and_says_what_it_skipped(tmp_path, capsys):
         main(["check", str(only_lost)])
     assert exc.value.code == 2
     assert capsys.readouterr().err.startswith(f"error: {only_lost}: status: no observed rows")
+
+
+def test_check_and_replan_read_a_log_with_magnitudes(tmp_path, capsys):
+    f = tmp_path / "lc.csv"
+    rows = [f"{MAG_HEADER}"]
+    base = np.datetime64("2034-03-10T20:00", "s")
+    for k in range(30):
+        mag = "" if k % 7 == 0 else f"{14 + 0.1 * np.sin(k):.3f}"
+        rows.append(f"{base + np.timedelta64(k * 900, 's')}Z,hilltop,{mag},0.02,R")
+    f.write_text("\n".join(rows) + "\n")
+    with pytest.raises(SystemExit) as done:
+        main(["check", str(f), "--trials", "0", "--min-period", "3h", "--max-period", "12h"])
+    assert not done.value.code and "30 frames stacked into 30 points" in capsys.readouterr().out
+    site = Site(name="hilltop", latitude_deg=30.0, longitude_deg=0.0, height_m=0.0, timezone="UTC")
+    log = read_done_log(f, [site])
+    assert log.times_utc.size == 30 and log.has_magnitudes
+    assert not read_done_log(_done_log(tmp_path / "done.csv"), [site]).has_magnitudes

@@ -67,11 +67,19 @@ def test_demo_plan_folder_has_the_agreed_files(demo, demo_folder, tmp_path, monk
             "windows.csv",
             "geometry.csv",
             "nights.csv",
+            "plan.ecsv",
+            "baseline.ecsv",
+            "windows.ecsv",
+            "geometry.ecsv",
+            "nights.ecsv",
             "campaign.toml",
             "target.toml",
             "sheets",
+            "calendars",
             "report.html",
             ".figures",
+            "replan",  # the re-plan from the first nights' log, and that log's fit
+            "first-nights-fit.html",
         ]
     )
     plan = pd.read_csv(out / "plan.csv")

@@ -18,11 +18,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from planner.inputs.settings import BlockRules, Weights
+from planner.photometry.points import point_sigma_mag
 from planner.schedule.greedy import greedy_lazy, greedy_plain
 from planner.schedule.objective import arc_mask_slow
 from planner.schedule.optimise import optimise
-from planner.schedule.quality import point_sigma_mag, slot_quality, slot_quality_slow
-from planner.schedule.state import PlanModel, PlanState, Visit
+from planner.schedule.planmodel import PlanModel, Visit
+from planner.schedule.quality import slot_quality, slot_quality_slow
+from planner.schedule.state import PlanState
 from planner.sky.geometry import airmass
 from tests.schedule_helpers import model_for
 

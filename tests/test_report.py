@@ -415,11 +415,11 @@ def test_check_report_for_a_log_of_times():
 
 def test_coverage_map_bins_are_the_checks_own(plan_dir):
     # The map must show what the check counted: each period's share of occupied bins equals the
-    # coverage number in diagnostics.json (same times, same bins).
+    # coverage number in diagnostics.json (same times, light-time corrected as the check's, same bins).
     diag = json.loads((plan_dir / "diagnostics.json").read_text())
     for kind in ("plan", "baseline"):
         check = diag[kind]
-        times = figstyle.check_times_utc(check, np.array([], dtype="datetime64[ns]"))
+        times = figstyle.check_times_utc(check, np.array([], dtype="datetime64[ns]"), emission=True)
         assert times.size == check["input"]["n_times"]
         occupied = figstyle.phase_occupancy(times, np.array(check["periods_h"]), check["settings"]["phase_bins"])
         np.testing.assert_allclose(occupied.mean(axis=1), check["coverage"], atol=1e-12)

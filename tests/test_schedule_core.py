@@ -10,8 +10,9 @@ from planner.inputs.settings import BlockRules
 from planner.schedule.baseline import baseline_visits
 from planner.schedule.localsearch import fits
 from planner.schedule.optimise import optimise, total_slots
+from planner.schedule.planmodel import Done, Visit
 from planner.schedule.robustness import weather_monte_carlo
-from planner.schedule.state import Done, PlanState, Visit
+from planner.schedule.state import PlanState
 from tests.schedule_helpers import T_REF, model_for
 
 BLOCKS = BlockRules(slot_minutes=5, min_block_h=1.0, max_block_h=3.0, setup_minutes=10, max_per_night=2)

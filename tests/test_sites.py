@@ -7,6 +7,7 @@ import pytest
 
 from planner.core.errors import InputError
 from planner.inputs.sites import Site, load_site
+from tests.conftest import DEMO_DIR
 
 GOOD = """
 name = "Test Ridge"
@@ -23,7 +24,7 @@ def _write(tmp_path, text, name="site.toml"):
 
 
 def test_demo_sites_load(root):
-    names = {load_site(p).name for p in sorted((root / "sites").glob("*.toml"))}
+    names = {load_site(p).name for p in sorted((DEMO_DIR / "sites").glob("*.toml"))}
     assert names == {"Kahili Summit", "Karoo Ridge", "Quebrada Alta", "Salmon Gum"}
 
 
@@ -105,7 +106,7 @@ def test_cli_bad_site_exits_2_with_one_line(tmp_path, root, capsys):
         "--nights",
         "1",
         "--target",
-        root / "demo_targets" / "c2034-b3-quillfeather.toml",
+        DEMO_DIR / "c2034-b3-quillfeather.toml",
     )
     assert r.returncode == 2
     lines = r.stderr.strip().splitlines()

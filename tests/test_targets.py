@@ -14,6 +14,7 @@ from planner.core.constants import GM_SUN_AU3_D2
 from planner.core.errors import InputError
 from planner.inputs.targets import load_target
 from planner.sky.kepler import propagate
+from tests.conftest import DEMO_DIR
 
 DATA = Path(__file__).parent / "data"
 
@@ -41,7 +42,7 @@ def _write(tmp_path: Path, text: str, name: str = "t.toml") -> Path:
 
 
 def test_demo_target_loads(root):
-    t = load_target(root / "demo_targets" / "c2034-b3-quillfeather.toml")
+    t = load_target(DEMO_DIR / "c2034-b3-quillfeather.toml")
     assert t.kind == "comet" and t.orbit.conic == "hyperbolic"
     assert 2.0 <= t.orbit.eccentricity <= 4.0 and 0.8 <= t.orbit.perihelion_dist_au <= 2.0
     # 2034-02-20T12:00 TDB = JD 2464014.0 (Meeus 1998, ch. 7 algorithm, checked by astropy below).

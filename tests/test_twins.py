@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from schedule_helpers import model_for
 
-from planner.diagnostics import coverage, periodogram, sensitivity, specwindow
+from planner.diagnostics import coverage, periodogram, sensitivity, specwindow, trialpower
 from planner.inputs.targets import Orbit
 from planner.photometry import ccd
 from planner.schedule import greedy, objective, quality
@@ -49,6 +49,22 @@ def _kepler(rng):
     )
     t = T0_JD + np.linspace(-200.0, 200.0, 25)
     return kepler.propagate(orbit, t)[0], kepler.propagate_reference(orbit, t)[0]
+
+
+def _perturbed(rng):
+    from planner.sky import nbody
+
+    orbit = Orbit(
+        epoch_tdb_jd=T0_JD,
+        perihelion_dist_au=2.1,
+        eccentricity=0.15,
+        inclination_deg=8.0,
+        ascending_node_deg=80.0,
+        arg_perihelion_deg=140.0,
+        perihelion_tdb_jd=T0_JD - 300.0,
+    )
+    t = T0_JD + np.sort(rng.uniform(1.0, 20.0, 4))
+    return nbody.propagate_perturbed(orbit, t)[0], nbody.propagate_perturbed_exact(orbit, t)[0]
 
 
 def _true_runs(rng):
@@ -101,6 +117,16 @@ def _periodogram(rng):
     f = np.linspace(0.8, 12.0, 40)
     kw = dict(nterms=2, sigma=0.02, trend_degree=1)
     return periodogram.multiharmonic_power(t, y, f, **kw), periodogram.multiharmonic_power_slow(t, y, f, **kw)
+
+
+def _trial_power(rng):
+    # Each trial at its own frequencies (recovery's P-versus-P/2 step) against the lstsq periodogram.
+    t = _times(rng, 80)
+    y = 0.2 * np.sin(2 * np.pi * t * 24 / 7.3)[:, None] + rng.normal(0, 0.02, (t.size, 3))
+    f = rng.uniform(0.8, 12.0, (3, 5))
+    kw = dict(nterms=2, sigma=0.02, trend_degree=1)
+    slow = np.stack([periodogram.multiharmonic_power_slow(t, y[:, j], f[j], **kw) for j in range(3)])
+    return trialpower.trial_power(t, y, f, **kw), slow
 
 
 def _fading(rng):
@@ -167,25 +193,27 @@ def _harmonic_chi2(rng):
     return (harmonic_lsq.harmonic_chi2(t, y, w, f, **kw).chi2, harmonic_lsq.harmonic_chi2_slow(t, y, w, f, **kw).chi2)
 
 
-def _discrimination(rng):
-    from planner.lightcurve.discriminate import (
-        CandidateModel,
-        expected_min_delta_chi2,
-        expected_min_delta_chi2_slow,
-    )
+def _candidate_models(rng, periods, mean_step=0.0):
+    from planner.lightcurve.discriminate import CandidateModel
 
-    models = [
+    return [
         CandidateModel(
             period_h=p,
             delta_chi2=0.0,
             t_ref_jd=T0_JD,
-            mean_mag=15.0,
+            mean_mag=15.0 + mean_step * k,
             k1=10.0,
             log10_r_ref=0.1,
             harmonics=rng.normal(0, 0.1, 4),
         )
-        for p in (6.0, 8.0, 12.0)
+        for k, p in enumerate(periods)
     ]
+
+
+def _discrimination(rng):
+    from planner.lightcurve.discriminate import expected_min_delta_chi2, expected_min_delta_chi2_slow
+
+    models = _candidate_models(rng, (6.0, 8.0, 12.0))
     t, r = _times(rng, 40), rng.uniform(1.2, 1.3, 40)
     return (expected_min_delta_chi2(t, 0.02, models, r), expected_min_delta_chi2_slow(t, 0.02, models, r))
 
@@ -250,6 +278,42 @@ def _fading_gridded(rng):
     return fast, sensitivity.fading_rate_sigma_slow(t, p, s, 2)
 
 
+def _discrimination_groups(rng):
+    from planner.lightcurve.discriminate import expected_min_delta_chi2, expected_min_delta_chi2_slow
+
+    models = _candidate_models(rng, (7.0, 9.5, 13.0), mean_step=0.05)
+    t, r = _times(rng, 40), rng.uniform(1.2, 1.3, 40)
+    sigma, groups = rng.uniform(0.01, 0.05, 40), rng.integers(0, 4, 40)
+    return (
+        expected_min_delta_chi2(t, sigma, models, r, groups),
+        expected_min_delta_chi2_slow(t, sigma, models, r, groups),
+    )
+
+
+def _visit_moments(rng):
+    from planner.schedule.discrimination import SlotMoments
+
+    model, _, _ = model_for(n_sites=2, n_nights=2, n_periods=20, n_bins=10, seed=int(rng.integers(100)))
+    n = model.grid.part_spans()[2]
+    model.slot_moments = SlotMoments([rng.normal(0, 0.1, (3, n))], [rng.uniform(100, 3000, n)])
+    fast, slow = [], []
+    for p, sn in enumerate(model.grid.site_nights):
+        a, b = sn.intervals[0]
+        length = max(4, (b - a) // 2)
+        s0, s1, s2 = model.visit_moments(np.array([p]), np.array([a]), np.array([length]))
+        t0, t1, t2 = model.visit_moments_slow(p, a, length)
+        fast.append(np.r_[s0, s1[0], s2[0]])
+        slow.append(np.r_[t0, t1, t2])
+    return np.concatenate(fast), np.concatenate(slow)
+
+
+def _soft_minimum(rng):
+    d = rng.uniform(0.0, 60.0, (6, 5))
+    fast = [objective.discrimination(row) for row in d]
+    slow = [objective.discrimination_slow(row) for row in d]
+    return np.array(fast), np.array(slow)
+
+
 def _greedy(rng):
     model, _, _ = model_for(n_sites=2, n_nights=2, n_periods=24, n_bins=10, seed=int(rng.integers(100)))
     cells, start = model.element_cells(), model.done_cells
@@ -259,6 +323,7 @@ def _greedy(rng):
 
 TWINS = [
     Twin("kepler.propagate", _kepler, rtol=1e-10, atol=1e-10),
+    Twin("nbody.propagate_perturbed", _perturbed, rtol=0.0, atol=1e-10),
     Twin("intervals.true_runs", _true_runs),
     Twin("intervals.refine_edges", _refine_edges, atol=1.0),
     Twin("ccd.exposure_for_snr_s", _exposure, rtol=1e-9),
@@ -266,6 +331,7 @@ TWINS = [
     Twin("specwindow.spectral_window", _window, rtol=1e-9, atol=1e-12),
     Twin("specwindow.nyquist_freq_per_day", _nyquist),
     Twin("periodogram.multiharmonic_power", _periodogram, rtol=1e-8, atol=1e-10),
+    Twin("trialpower.trial_power", _trial_power, rtol=1e-8, atol=1e-10),
     Twin("sensitivity.fading_rate_sigma", _fading, rtol=1e-6),
     Twin("sensitivity.frequency_sigma", _frequency, rtol=1e-6),
     Twin("quality.slot_quality", _slot_quality),
@@ -273,7 +339,7 @@ TWINS = [
     Twin("cells.arc_gains", _arc_gains),
     Twin("objective.window_sum", _window_sum, rtol=1e-9, atol=1e-9),
     Twin("objective.excess_gap_h", _excess_gap, rtol=1e-12),
-    Twin("state.PlanModel.visit_phasors", _visit_phasors, rtol=1e-9, atol=1e-9),
+    Twin("planmodel.PlanModel.visit_phasors", _visit_phasors, rtol=1e-9, atol=1e-9),
     Twin("greedy.greedy_lazy", _greedy),
     Twin("trigsums.trig_sums (gridded)", _trig_sums, rtol=0.0, atol=1e-11),
     Twin("harmonic_lsq.harmonic_chi2 (gridded sums)", _harmonic_chi2_gridded, rtol=1e-8, atol=1e-8),
@@ -281,6 +347,9 @@ TWINS = [
     Twin("sensitivity.fading_rate_sigma (gridded)", _fading_gridded, rtol=1e-6),
     Twin("harmonic_lsq.harmonic_chi2", _harmonic_chi2, rtol=1e-8, atol=1e-8),
     Twin("discriminate.expected_min_delta_chi2", _discrimination, rtol=1e-9),
+    Twin("discriminate.expected_min_delta_chi2 (free zero point per group)", _discrimination_groups, rtol=1e-9),
+    Twin("planmodel.PlanModel.visit_moments", _visit_moments, rtol=1e-9, atol=1e-9),
+    Twin("objective.discrimination", _soft_minimum, rtol=1e-12),
 ]
 
 

@@ -29,6 +29,7 @@ from planner.visibility.intervals import true_runs
 from planner.visibility.limits import limit_masks, moon_limit_deg
 from planner.visibility.nights import dark_intervals, night_bounds_utc
 from planner.visibility.windows import find_windows
+from tests.conftest import DEMO_DIR
 
 SIDEREAL_H_PER_SOLAR_H = 0.99727  # (common practice; 86164.1 s sidereal day / 86400 s)
 
@@ -72,7 +73,10 @@ def test_windows_match_astroplan_constraints_on_a_fine_grid(ra_deg, dec_deg):
     # astroplan AltitudeConstraint(25°) & AtNightConstraint(−12°) & (MoonSeparationConstraint(40°) or Moon
     # below the horizon) on a 60 s grid: same intervals, each edge within one grid step + our 10 s tolerance.
     import astropy.units as u
-    from astroplan import AltitudeConstraint, AtNightConstraint, FixedTarget, MoonSeparationConstraint, Observer
+
+    ap = pytest.importorskip("astroplan", reason="astroplan (optional reference library) is not installed")
+    AltitudeConstraint, AtNightConstraint, FixedTarget = ap.AltitudeConstraint, ap.AtNightConstraint, ap.FixedTarget
+    MoonSeparationConstraint, Observer = ap.MoonSeparationConstraint, ap.Observer
     from astropy.coordinates import EarthLocation, SkyCoord
     from astropy.time import Time
 
@@ -226,9 +230,13 @@ def test_edges_are_refined_below_the_grid_step():
 def test_demo_comet_windows_match_astroplan_with_its_ephemeris(root):
     # The library call on the moving demo comet: astroplan's constraints evaluated on a 60 s grid at the
     # comet's per-epoch RA/Dec (from geometry; astroplan has no small-body ephemeris). Same intervals,
-    # edges within one grid step + our 10 s tolerance. Moon rule as above.
+    # edges within one grid step + our 10 s tolerance. Moon rule as above. Altitudes are apparent: the
+    # Observer gets the site's air (standard atmosphere at its height), so astropy refracts them (ERFA's
+    # model) while the night constraint stays on the Sun's airless altitude (force_pressure_zero).
     import astropy.units as u
-    from astroplan import AltitudeConstraint, AtNightConstraint, Observer
+
+    ap = pytest.importorskip("astroplan", reason="astroplan (optional reference library) is not installed")
+    AltitudeConstraint, AtNightConstraint, Observer = ap.AltitudeConstraint, ap.AtNightConstraint, ap.Observer
     from astropy.coordinates import EarthLocation, SkyCoord, get_body
     from astropy.time import Time
 
@@ -237,18 +245,24 @@ def test_demo_comet_windows_match_astroplan_with_its_ephemeris(root):
     from planner.sky.geometry import geometry
     from planner.visibility.windows import observable_windows
 
-    site = load_site(root / "sites" / "karoo-ridge.toml")
-    target = load_target(root / "demo_targets" / "c2034-b3-quillfeather.toml")
+    site = load_site(DEMO_DIR / "sites" / "karoo-ridge.toml")
+    target = load_target(DEMO_DIR / "c2034-b3-quillfeather.toml")
     first = date(2034, 3, 17)
     ours = observable_windows(target, [site], first, 1)
     bounds = night_bounds_utc(site, first, 1)
     grid = time_grid(bounds[0], bounds[-1], 60.0)
     geo = geometry(target, grid, [site])[site.name]
     coords = SkyCoord(geo["ra_deg"].to_numpy() * u.deg, geo["dec_deg"].to_numpy() * u.deg)
+    from planner.sky.refraction import site_air
+
+    pressure_hpa, temperature_c = site_air(site)
     obs = Observer(
         location=EarthLocation(
             lat=site.latitude_deg * u.deg, lon=site.longitude_deg * u.deg, height=site.height_m * u.m
-        )
+        ),
+        pressure=pressure_hpa * u.hPa,
+        temperature=temperature_c * u.deg_C,
+        relative_humidity=0.0,
     )
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
@@ -281,11 +295,11 @@ def test_command_table_csv_json_and_atomic_out(root, tmp_path, capsys, monkeypat
 
     base = [
         "--target",
-        "demo_targets/c2034-b3-quillfeather.toml",
+        "planner/data/demo/c2034-b3-quillfeather.toml",
         "--site",
-        "sites/kahili-summit.toml",
+        "planner/data/demo/sites/kahili-summit.toml",
         "--site",
-        "sites/salmon-gum.toml",
+        "planner/data/demo/sites/salmon-gum.toml",
         "--start",
         "2034-03-16",
         "--nights",
@@ -305,7 +319,7 @@ def test_command_table_csv_json_and_atomic_out(root, tmp_path, capsys, monkeypat
 
     for _, w in df.iterrows():
         inst = load_site(
-            root / ("sites/kahili-summit.toml" if w["site"] == "Kahili Summit" else "sites/salmon-gum.toml")
+            DEMO_DIR / "sites" / ("kahili-summit.toml" if w["site"] == "Kahili Summit" else "salmon-gum.toml")
         ).instrument
         usable_s = min(w["hours"], w["night_budget_h"]) * 3600.0 - inst.overhead_s
         assert w["n_exposures_window"] == int(usable_s // (w["exposure_s"] + inst.readout_s))

@@ -1,5 +1,5 @@
 """One module per command; each exposes ``register(app)``. Add new commands to COMMAND_MODULES."""
 
-from planner.commands import check, demo, ephem, plan, report, windows
+from planner.commands import check, demo, ephem, fit, init, plan, report, validate, windows
 
-COMMAND_MODULES = [ephem, windows, check, plan, report, demo]
+COMMAND_MODULES = [ephem, windows, check, fit, plan, report, demo, init, validate]

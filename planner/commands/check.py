@@ -4,17 +4,26 @@ from __future__ import annotations
 
 import json
 import sys
+from enum import StrEnum
 from pathlib import Path
 from typing import Annotated
 
 import typer
 
+from planner.commands.common import StageProgress, show_progress, stamped
 from planner.core.errors import InputError
-from planner.core.timegrid import parse_duration_s
+from planner.inputs.settings import BlockRules, ExposureRules
+
+
+class CheckFormat(StrEnum):
+    table = "table"
+    json = "json"
 
 
 def _hours(text: str, field: str) -> float:
     """``'2h'``, ``'90m'``, ``'1.5d'`` or a bare number of hours."""
+    from planner.core.timegrid import parse_duration_s
+
     try:
         value = float(text)
     except ValueError:
@@ -22,6 +31,14 @@ def _hours(text: str, field: str) -> float:
     if not value > 0:
         raise InputError("command line", field, f"{text!r} must be longer than zero")
     return value
+
+
+def period_range_h(min_text: str, max_text: str) -> tuple[float, float]:
+    """``--min-period`` and ``--max-period`` in hours, checked (the shorter first)."""
+    p_min, p_max = _hours(min_text, "--min-period"), _hours(max_text, "--max-period")
+    if p_max < p_min:
+        raise InputError("command line", "--max-period", "is shorter than --min-period")
+    return p_min, p_max
 
 
 def _amplitudes(text: str) -> tuple[float, float]:
@@ -33,26 +50,6 @@ def _amplitudes(text: str) -> tuple[float, float]:
     if not (0 < lo <= hi):
         raise InputError("command line", "--amplitude", f"{text!r}: need 0 < low <= high (mag)")
     return lo, hi
-
-
-class _Progress:
-    """A one-line progress bar on stderr."""
-
-    def __init__(self, label: str) -> None:
-        self.label = label
-        self.last = -1
-
-    def __call__(self, fraction: float) -> None:
-        pct = int(100 * fraction)
-        if pct != self.last:
-            self.last = pct
-            bar = "#" * (pct // 4)
-            sys.stderr.write(f"\r{self.label} [{bar:<25}] {pct:3d}%")
-            sys.stderr.flush()
-
-    def close(self) -> None:
-        if self.last >= 0:
-            sys.stderr.write("\n")
 
 
 def _f(x, fmt: str = ".3g", none: str = "n/a") -> str:
@@ -69,13 +66,24 @@ def _duration(hours: float | None) -> str:
     return f"{hours:.3g} h"
 
 
+#: Nyquist frequency of times kept to the second on no common grid, c/d (1 / (2 × 1 s)).
+TIMESTAMP_NYQUIST_PER_DAY = 86400.0 / 2.0
+
+
 def render_table(d: dict) -> str:
     """The short readable summary of a check (``d`` is ``CheckResult.to_dict()``)."""
     s, inp = d["settings"], d["input"]
     lines = [f"CAUTION: {note.removeprefix('caution: ')}" for note in d["notes"] if note.startswith("caution")]
     sites = ", ".join(f"{k} {v}" for k, v in inp["sites"].items()) or "not given"
+    points = f"{inp['n_times']} times"
+    if s.get("stack_s"):
+        floor = f", plus {s['sys_err_mag_per_airmass']:g} mag per airmass" if s["sys_err_mag_per_airmass"] else ""
+        points = (
+            f"{inp['n_frames']} frames stacked into {inp['n_times']} points (one per site and "
+            f"{_duration(s['stack_s'] / 3600.0)} slot{floor})"
+        )
     lines.append(
-        f"{inp['n_times']} times, {inp['first_utc']} to {inp['last_utc']} (span {inp['span_h']:.1f} h); sites: {sites}"
+        f"{points}, {inp['first_utc']} to {inp['last_utc']} (span {inp['span_h']:.1f} h); points per site: {sites}"
     )
     src = inp.get("mag_err_sources")
     if src and inp.get("median_mag_err") is not None:
@@ -88,8 +96,14 @@ def render_table(d: dict) -> str:
             )
             if src.get(k)
         ]
-        lines.append(f"photometric σ per point: median {inp['median_mag_err']:.4f} mag ({', '.join(parts)})")
-    shape = "double-peaked (rotation = 2 × photometric period)" if s["double_peaked"] else "single-peaked"
+        frames = "frames" if s.get("stack_s") else "points"
+        lines.append(
+            f"photometric σ per point: median {inp['median_mag_err']:.4f} mag ({frames}' σ: {', '.join(parts)})"
+        )
+    if inp.get("light_time_corrected"):
+        lines.append("periods computed on light-time corrected times (t − Δ/c, from the target's geometry)")
+    shape = "double-peaked (rotation = 2 × photometric period; found at P/2 is not recovered)"
+    shape = shape if s["double_peaked"] else "single-peaked"
     lines.append(
         f"rotation periods {s['min_period_h']:g}–{s['max_period_h']:g} h, {len(d['periods_h'])} trial "
         f"periods, {s['phase_bins']} phase bins; light curve {shape}, amplitude "
@@ -100,21 +114,25 @@ def render_table(d: dict) -> str:
     lines.append("Verdict by period band")
     lines.append(
         f"  {'band (h)':<13} {'verdict':<14} {'coverage min/med':>16} {'max gap':>8} "
-        f"{'alias':>6} {'recovered':>9}  confusable periods (h)"
+        f"{'alias':>6} {'recovered':>9} {'at P/2':>6}  confusable periods (h)"
     )
     for b in d["bands"]:
         rec = "—" if b["recovery_fraction"] is None else f"{100 * b['recovery_fraction']:.0f} %"
+        half = "—" if b.get("half_period_fraction") is None else f"{100 * b['half_period_fraction']:.0f} %"
         conf = ", ".join(f"{p:g}" for p in b["confusable_periods_h"][:6])
         if len(b["confusable_periods_h"]) > 6:
             conf += ", …"
         lines.append(
             f"  {b['min_period_h']:5.2f}–{b['max_period_h']:<6.2f} {b['verdict']:<14} "
             f"{_f(b['min_coverage'], '.2f')} / {_f(b['median_coverage'], '.2f'):<6} "
-            f"{_f(b['max_phase_gap'], '.2f'):>8} {b['max_alias_height']:6.2f} {rec:>9}  {conf}"
+            f"{_f(b['max_phase_gap'], '.2f'):>8} {b['max_alias_height']:6.2f} {rec:>9} {half:>6}  {conf}"
         )
     lines.append("")
-    worst = ", ".join(f"{w['period_h']:.2f} h ({100 * w['coverage']:.0f} %)" for w in d["worst_periods"][:6])
-    lines.append(f"Worst-covered periods: {worst or 'none'}")
+    if d["coverage"] and min(d["coverage"]) >= 1.0:
+        lines.append(f"Phase coverage: every trial period has all {s['phase_bins']} phase bins covered.")
+    else:
+        worst = ", ".join(f"{w['period_h']:.2f} h ({100 * w['coverage']:.0f} %)" for w in d["worst_periods"][:6])
+        lines.append(f"Worst-covered periods: {worst or 'none'}")
     daily = [c for c in d["commensurate"] if c["coverage"] < s["coverage_threshold"]]
     if daily:
         lines.append(
@@ -122,9 +140,16 @@ def render_table(d: dict) -> str:
             + ", ".join(f"{c['period_h']:.3g} h ({100 * c['coverage']:.0f} %)" for c in daily)
         )
     peaks = ", ".join(f"{p['freq_per_day']:.3f} c/d ({p['height']:.2f})" for p in d["window_peaks"][:5])
+    nyquist = d["nyquist_freq_per_day"]
+    # Times on no common grid give the limit of one-second timestamps (43200 c/d): no news, not shown.
+    shown = nyquist is not None and nyquist < TIMESTAMP_NYQUIST_PER_DAY * (1.0 - 1e-9)
     lines.append(
-        f"Spectral window peaks: {peaks or 'none above 0.1'}; Nyquist frequency "
-        f"{_f(d['nyquist_freq_per_day'], '.4g')} c/d"
+        f"Spectral window peaks: {peaks or 'none above 0.1'}"
+        + (
+            f"; Nyquist frequency {_f(nyquist, '.4g')} c/d (the times share a {86400 / (2 * nyquist):g} s step)"
+            if shown
+            else ""
+        )
     )
     flagged = [a for a in d["aliases"] if a["flagged"]]
     if flagged:
@@ -186,40 +211,72 @@ def register(app: typer.Typer) -> None:
     def check(
         times_csv: Annotated[
             Path,
-            typer.Argument(help="observation log CSV: time_utc, optional site, exposure_s, mag_err, status, night"),
+            typer.Argument(
+                metavar="LOG.csv",
+                help="observation log CSV: time_utc, optional site, exposure_s, mag_err, status, night",
+            ),
         ],
-        min_period: Annotated[str, typer.Option("--min-period", help="shortest rotation period (2h, 90m)")] = "2h",
-        max_period: Annotated[str, typer.Option("--max-period", help="longest rotation period (30h, 2d)")] = "30h",
+        min_period: Annotated[
+            str, typer.Option("--min-period", metavar="PERIOD", help="shortest rotation period (2h, 90m)")
+        ] = "2h",
+        max_period: Annotated[
+            str, typer.Option("--max-period", metavar="PERIOD", help="longest rotation period (30h, 2d)")
+        ] = "30h",
         target: Annotated[
             Path | None,
-            typer.Option("--target", help="target file: adds the geometric trend and the synodic–sidereal drift"),
+            typer.Option(
+                "--target",
+                metavar="FILE",
+                help="target file: adds the geometric trend and the synodic–sidereal drift",
+            ),
         ] = None,
         object_name: Annotated[
-            str | None, typer.Option("--object", help="which line of a multi-line MPC .txt target file")
+            str | None,
+            typer.Option("--object", metavar="NAME", help="which line of a multi-line MPC .txt target file"),
         ] = None,
         site: Annotated[
             list[Path] | None,
-            typer.Option("--site", help="site file (repeatable; with --target): σ per point from its instrument"),
+            typer.Option(
+                "--site", metavar="FILE", help="site file (repeatable; with --target): σ per point from its instrument"
+            ),
         ] = None,
-        trials: Annotated[int, typer.Option("--trials", min=0, help="injected light curves (0: none)")] = 200,
-        seed: Annotated[int, typer.Option("--seed", help="random seed of the injections")] = 0,
-        mag_err: Annotated[float, typer.Option("--mag-err", min=1e-6, help="σ (mag) where the log gives none")] = 0.02,
-        amplitude: Annotated[str, typer.Option("--amplitude", help="peak-to-peak range, mag (0.1-0.5)")] = "0.1-0.5",
+        trials: Annotated[
+            int, typer.Option("--trials", min=0, metavar="N", help="injected light curves (0: none)")
+        ] = 200,
+        seed: Annotated[int, typer.Option("--seed", metavar="N", help="random seed of the injections")] = 0,
+        mag_err: Annotated[
+            float, typer.Option("--mag-err", min=1e-6, metavar="MAG", help="σ (mag) where the log gives none")
+        ] = 0.02,
+        amplitude: Annotated[
+            str, typer.Option("--amplitude", metavar="LOW-HIGH", help="peak-to-peak range, mag (0.1-0.5)")
+        ] = "0.1-0.5",
         single_peaked: Annotated[bool, typer.Option("--single-peaked", help="assume one maximum per rotation")] = False,
         extra_fading: Annotated[
-            float, typer.Option("--extra-fading", help="fading added to injections, mag/day")
+            float, typer.Option("--extra-fading", metavar="MAG/DAY", help="fading added to injections, mag/day")
         ] = 0.0,
-        fmt: Annotated[str, typer.Option("--format", help="table or json")] = "table",
-        out: Annotated[Path | None, typer.Option("--out", help="write here instead of stdout")] = None,
-        plot: Annotated[Path | None, typer.Option("--plot", help="folder for PNG figures")] = None,
+        fmt: Annotated[CheckFormat, typer.Option("--format", help="table or json")] = CheckFormat.table,
+        out: Annotated[Path | None, typer.Option("--out", metavar="FILE", help="write here instead of stdout")] = None,
+        plot: Annotated[Path | None, typer.Option("--plot", metavar="DIR", help="folder for PNG figures")] = None,
         report: Annotated[
             Path | None,
-            typer.Option("--report", help="also write a self-contained HTML report of the check to this file"),
+            typer.Option(
+                "--report", metavar="FILE", help="also write a self-contained HTML report of the check to this file"
+            ),
         ] = None,
         progress: Annotated[
             bool | None,
-            typer.Option("--progress/--no-progress", help="progress bar on stderr (default: on a terminal)"),
+            typer.Option("--progress/--no-progress", help="progress on stderr (default: only on a terminal)"),
         ] = None,
+        stack: Annotated[
+            str,
+            typer.Option(
+                "--stack", help="frames of one site within one slot of this length make one point (as a plan)"
+            ),
+        ] = f"{BlockRules.slot_minutes:g}m",
+        sys_err: Annotated[
+            float,
+            typer.Option("--sys-err", min=0.0, help="extinction error per airmass added to each point, mag"),
+        ] = ExposureRules.sys_err_mag_per_airmass,
         dask: Annotated[
             str | None,
             typer.Option(
@@ -230,15 +287,14 @@ def register(app: typer.Typer) -> None:
         ] = None,
     ) -> None:
         """Coverage, alias and trend diagnostics for a list of observation times."""
-        from planner.core.fileio import write_text_atomic
+        from planner.core.fileio import check_writable, write_text_atomic
         from planner.diagnostics.check import check_times
         from planner.inputs.obslog import read_observation_log
 
-        if fmt not in ("table", "json"):
-            raise InputError("command line", "--format", f"{fmt!r}: choose table or json")
-        p_min, p_max = _hours(min_period, "--min-period"), _hours(max_period, "--max-period")
-        if p_max < p_min:
-            raise InputError("command line", "--max-period", "is shorter than --min-period")
+        p_min, p_max = period_range_h(min_period, max_period)
+        for dest, option in ((out, "--out"), (report, "--report"), (plot and plot / "check_coverage.png", "--plot")):
+            if dest is not None:
+                check_writable(dest, field=option)
         log = read_observation_log(times_csv)
         if log.times_utc.size == 0:
             raise InputError(str(times_csv), "status", f"no observed rows to check ({len(log.lost)} lost rows only)")
@@ -256,9 +312,11 @@ def register(app: typer.Typer) -> None:
             sites = [load_site(p) for p in site]
             if log.site is None and len(sites) > 1:
                 raise InputError("command line", "--site", "the log has no site column, so give exactly one --site")
-        from planner.photometry.tables import log_mag_err
+        from planner.core.timegrid import parse_duration_s
+        from planner.photometry.frames import log_frame_model
 
-        err, err_sources = log_mag_err(
+        stack_s = parse_duration_s(stack, "command line", "--stack")
+        err, airmass, err_sources = log_frame_model(
             tgt,
             log.times_utc,
             log.site,
@@ -267,9 +325,9 @@ def register(app: typer.Typer) -> None:
             exposure_s=log.exposure_s,
             fallback_mag_err=mag_err,
         )
-        show = sys.stderr.isatty() if progress is None else progress
-        bar = _Progress("injection–recovery") if show and trials > 0 else None
-        try:
+        stages = {"injection–recovery and diagnostics" if trials else "diagnostics": 1.0}
+        with StageProgress(stages, show_progress(progress), "phasewise check") as bar:
+            bar(next(iter(stages)))
             result = check_times(
                 log.times_utc,
                 min_period_h=p_min,
@@ -277,20 +335,20 @@ def register(app: typer.Typer) -> None:
                 mag_err=err,
                 sites=log.site,
                 exposure_s=log.exposure_s,
+                airmass=airmass,
+                stack_s=stack_s,
+                sys_err_mag_per_airmass=sys_err,
                 target=tgt,
                 trials=trials,
                 seed=seed,
                 amplitude_range_mag=_amplitudes(amplitude),
                 double_peaked=not single_peaked,
                 extra_fading_mag_per_day=extra_fading,
-                progress=bar,
+                progress=bar.fraction if trials else None,
                 workers=None,
                 dask_address=dask,
             )
-        finally:
-            if bar is not None:
-                bar.close()
-        d = result.to_dict()
+        d = stamped(result.to_dict())
         if log.lost:
             d["notes"].append(f"the log's {len(log.lost)} lost site-night row(s) were skipped (no times to check)")
         d["input"]["mag_err_sources"] = err_sources

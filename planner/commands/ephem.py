@@ -6,25 +6,17 @@ import json
 import math
 import sys
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
-import numpy as np
-import pandas as pd
 import typer
 
+from planner.commands.common import TableFormat, exposure_rules, stamped, table_format
 from planner.core.errors import InputError
-from planner.core.fileio import write_text_atomic
-from planner.core.textfmt import dec_dms, ra_hms
-from planner.core.timegrid import iso_utc, parse_duration_s, parse_utc, time_grid
 from planner.inputs.settings import ExposureRules
-from planner.inputs.sites import load_site
-from planner.inputs.targets import load_target
-from planner.photometry.tables import add_photometry
-from planner.sky.brightness import format_law
-from planner.sky.geometry import MIN_SOLAR_ELONG_DEG, geometry, safety_warning
-from planner.sky.skydata import utc_times
 
-FORMATS = ("table", "csv", "json")
+if TYPE_CHECKING:
+    import pandas as pd
+
 MAX_ROWS = 200_000
 
 # (column, header, unit, format) for the people's table; site-only columns at the end.
@@ -52,6 +44,7 @@ _SITE_TABLE_COLUMNS = [
 ]
 # Photometry columns, for sites with an [instrument] (docs/formats.md "Photometry columns").
 _PHOT_TABLE_COLUMNS = [
+    ("mag_band_pred", "mag band", "mag", "{:6.2f}"),
     ("sky_mag_arcsec2", "sky", 'mag/"2', "{:5.2f}"),
     ("aperture_arcsec", "aper", '"', "{:5.1f}"),
     ("exposure_s", "exp", "s", "{:6.1f}"),
@@ -70,6 +63,10 @@ def _cell(fmt: str, value: float) -> str:
 
 def render_table(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
     """Aligned text for people: units in the header, RA/Dec also in sexagesimal."""
+    from planner.core.textfmt import dec_dms, ra_hms
+    from planner.core.timegrid import iso_utc
+    from planner.sky.brightness import format_law
+
     blocks = []
     for name, frame in frames.items():
         cols = list(_TABLE_COLUMNS) + (list(_SITE_TABLE_COLUMNS) if "alt_deg" in frame else [])
@@ -91,7 +88,9 @@ def render_table(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
         law = format_law(frame.attrs.get("mag_law", ""), frame.attrs.get("mag_params", {}))
         lines = [
             f"# {frame.attrs.get('target', '')} from {name}; predicted magnitude: "
-            f"{law}; RA/Dec astrometric ICRF; alt/az airless (no refraction)"
+            f"{law} in {frame.attrs.get('law_band', 'V')}; RA/Dec astrometric ICRF"
+            + (f"; {frame.attrs['air']}" if "air" in frame.attrs else "")
+            + (f"; mag band = {_band_words(frame)}" if "band" in frame else "")
         ]
         lines.append("  ".join(h.rjust(w) for h, w in zip(headers, widths, strict=True)).rstrip())
         lines.append("  ".join(u.rjust(w) for u, w in zip(units, widths, strict=True)).rstrip())
@@ -104,7 +103,18 @@ def render_table(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
     return text
 
 
+def _band_words(frame: pd.DataFrame) -> str:
+    """``R, colours solar (comet default)``: the instrument's band and the colours that reach it."""
+    colours = frame.attrs.get("colour_indices") or {}
+    shown = ", ".join(f"{k} {v:.2f}" for k, v in colours.items())
+    return f"{frame['band'].iloc[0]} (colours {shown}: {frame.attrs.get('colour_source', '')})"
+
+
 def _long_frame(frames: dict[str, pd.DataFrame]) -> pd.DataFrame:
+    import pandas as pd
+
+    from planner.core.timegrid import iso_utc
+
     parts = []
     for name, frame in frames.items():
         part = frame.copy()
@@ -127,24 +137,51 @@ def render_json(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
         "target": first.attrs.get("target"),
         "mag_law": first.attrs.get("mag_law"),
         "mag_params": first.attrs.get("mag_params", {}),
+        "law_band": first.attrs.get("law_band"),
+        "colour_indices": first.attrs.get("colour_indices"),
+        "colour_source": first.attrs.get("colour_source"),
         "min_solar_elong_deg": first.attrs.get("min_solar_elong_deg"),
         "caution": caution,
         "rows": rows,
     }
-    return json.dumps(doc, indent=1, ensure_ascii=False) + "\n"
+    return json.dumps(stamped(doc), indent=1, ensure_ascii=False) + "\n"
 
 
-_Target = Annotated[Path, typer.Option("--target", help="Target file: TOML, or .txt of MPC orbit lines.")]
-_Start = Annotated[str, typer.Option("--start", help="First epoch, UTC ISO 8601.")]
-_Stop = Annotated[str, typer.Option("--stop", help="Last epoch, UTC ISO 8601.")]
-_Object = Annotated[str | None, typer.Option("--object", help="Which line of a multi-line MPC .txt file.")]
-_Sites = Annotated[list[Path] | None, typer.Option("--site", help="Site file (repeatable); none: geocentre.")]
-_Step = Annotated[str, typer.Option("--step", help="Grid step: 30s, 5m, 1h, 1d.")]
-_Format = Annotated[str, typer.Option("--format", help="table (for people), csv or json.")]
-_Out = Annotated[Path | None, typer.Option("--out", help="Write here (atomically), not to stdout.")]
-_MinElong = Annotated[float, typer.Option("--min-elong", help="Solar-elongation caution limit, deg.")]
-_Snr = Annotated[float, typer.Option("--snr", min=1.0, help="S/N goal per exposure (sites with an instrument).")]
-_MinExp = Annotated[str, typer.Option("--min-exposure", help="Shortest exposure worth taking (trailing may cut it).")]
+def render_ecsv(frames: dict[str, pd.DataFrame], caution: str | None) -> str:
+    """The same rows as the CSV, with units, UTC times and the header's facts as metadata (ECSV)."""
+    from planner.outputs.tablefiles import ecsv_text
+
+    return ecsv_text(frames, stamped({"caution": caution}), "%.10g")
+
+
+_Target = Annotated[
+    Path, typer.Option("--target", metavar="FILE", help="Target file: TOML, or .txt of MPC orbit lines.")
+]
+_Start = Annotated[str, typer.Option("--start", metavar="TIME", help="First epoch, UTC ISO 8601.")]
+_Stop = Annotated[str, typer.Option("--stop", metavar="TIME", help="Last epoch, UTC ISO 8601.")]
+_Object = Annotated[
+    str | None, typer.Option("--object", metavar="NAME", help="Which line of a multi-line MPC .txt file.")
+]
+_Sites = Annotated[
+    list[Path] | None, typer.Option("--site", metavar="FILE", help="Site file (repeatable); none: geocentre.")
+]
+_Step = Annotated[str, typer.Option("--step", metavar="DURATION", help="Grid step: 30s, 5m, 1h, 1d.")]
+_Format = Annotated[
+    TableFormat | None,
+    typer.Option("--format", help="table (for people), csv, json or ecsv (default: table, or --out's extension)."),
+]
+_Out = Annotated[Path | None, typer.Option("--out", metavar="FILE", help="Write here (atomically), not to stdout.")]
+_MinElong = Annotated[
+    float | None,
+    typer.Option("--min-elong", metavar="DEG", help="Solar-elongation caution limit, deg (default 30)."),
+]
+_Snr = Annotated[
+    float, typer.Option("--snr", min=1.0, metavar="S/N", help="S/N goal per exposure (sites with an instrument).")
+]
+_MinExp = Annotated[
+    str,
+    typer.Option("--min-exposure", metavar="DURATION", help="Shortest exposure worth taking (trailing may cut it)."),
+]
 
 
 def register(app: typer.Typer) -> None:
@@ -156,15 +193,27 @@ def register(app: typer.Typer) -> None:
         object_name: _Object = None,
         site: _Sites = None,
         step: _Step = "1h",
-        fmt: _Format = "table",
+        fmt: _Format = None,
         out: _Out = None,
-        min_elong: _MinElong = MIN_SOLAR_ELONG_DEG,
+        min_elong: _MinElong = None,
         snr: _Snr = ExposureRules.snr_target,
         min_exposure: _MinExp = f"{ExposureRules.min_exposure_s:g}s",
     ) -> None:
         """Geometry table: RA/Dec, r, Delta, phase, elongation, motion, magnitude; alt/az per site."""
-        if fmt not in FORMATS:
-            raise InputError("command line", "format", f"{fmt!r} is not one of {', '.join(FORMATS)}")
+        import numpy as np
+
+        from planner.core.fileio import check_writable, write_text_atomic
+        from planner.core.safety import DEFAULT_MIN_SOLAR_ELONG_DEG
+        from planner.core.timegrid import parse_duration_s, parse_utc, time_grid
+        from planner.inputs.sites import load_site
+        from planner.inputs.targets import load_target
+        from planner.photometry.tables import add_photometry
+        from planner.sky.geometry import geometry, safety_warning
+        from planner.sky.propagation import approach_warnings_utc
+        from planner.sky.skydata import utc_times
+
+        fmt = table_format(fmt, out)
+        min_elong = DEFAULT_MIN_SOLAR_ELONG_DEG if min_elong is None else min_elong
         if not (0.0 <= min_elong <= 180.0):
             raise InputError("command line", "min-elong", f"{min_elong:g} is outside [0, 180]")
         t0 = parse_utc(start, field="start")
@@ -176,18 +225,24 @@ def register(app: typer.Typer) -> None:
         if (t1 - t0) / np.timedelta64(1, "s") / step_s + 1 > MAX_ROWS:
             raise InputError("command line", "step", f"{step} gives more than {MAX_ROWS} epochs; use a longer step")
         utc_times(np.array([t0, t1]), "command line", "start/stop")  # inside DE421's span?
+        if out is not None:
+            check_writable(out)
         tgt = load_target(target, object_name)
         sites = [load_site(p) for p in (site or [])]
         frames = add_photometry(
             geometry(tgt, time_grid(t0, t1, step_s), sites, min_solar_elong_deg=min_elong),
             sites,
-            rules=ExposureRules(snr_target=snr, min_exposure_s=min_exposure_s),
+            rules=exposure_rules(snr, min_exposure_s),
         )
         caution = safety_warning(frames)
+        for note in approach_warnings_utc(tgt, t0, t1):
+            print(f"note: {note}", file=sys.stderr)
         if fmt == "table":
             text = render_table(frames, caution)
         elif fmt == "csv":
             text = render_csv(frames)
+        elif fmt == "ecsv":
+            text = render_ecsv(frames, caution)
         else:
             text = render_json(frames, caution)
         if caution:

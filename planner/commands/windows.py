@@ -3,20 +3,18 @@
 from __future__ import annotations
 
 import json
+import sys
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
-import numpy as np
-import pandas as pd
 import typer
 
-from planner.core.errors import InputError
-from planner.core.fileio import write_text_atomic
-from planner.core.safety import SUN_SAFETY_TEXT
-from planner.core.timegrid import iso_utc, parse_date, parse_duration_s
+from planner.commands.common import TableFormat, exposure_rules, stamped, table_format
 from planner.inputs.settings import ExposureRules
 
-FORMATS = ("table", "csv", "json")
+if TYPE_CHECKING:
+    import pandas as pd
+
 _TIME_COLUMNS = ("start_utc", "end_utc", "best_utc")
 
 _EDGE_WORD = {
@@ -33,6 +31,10 @@ _EDGE_WORD = {
 
 def _plain(df: pd.DataFrame) -> pd.DataFrame:
     """Times as ISO 8601 UTC strings to the second ('' for none); numbers rounded for reading."""
+    import numpy as np
+
+    from planner.core.timegrid import iso_utc
+
     out = df.copy()
     for c in _TIME_COLUMNS:
         t = out[c].to_numpy(dtype="datetime64[ns]")
@@ -45,9 +47,19 @@ def render_csv(df: pd.DataFrame) -> str:
 
 
 def render_json(df: pd.DataFrame) -> str:
+    from planner.core.safety import SUN_SAFETY_TEXT
+
     rows = json.loads(_plain(df).to_json(orient="records", double_precision=6))
-    caution = SUN_SAFETY_TEXT
-    return json.dumps({"caution": caution, "windows": rows}, indent=1, ensure_ascii=False) + "\n"
+    doc = stamped({"caution": SUN_SAFETY_TEXT, "windows": rows})
+    return json.dumps(doc, indent=1, ensure_ascii=False) + "\n"
+
+
+def render_ecsv(df: pd.DataFrame) -> str:
+    """The CSV's rows with units and UTC times (ECSV); the Sun-safety caution in the metadata."""
+    from planner.core.safety import SUN_SAFETY_TEXT
+    from planner.outputs.tablefiles import ecsv_text
+
+    return ecsv_text(df, stamped({"caution": SUN_SAFETY_TEXT}), "%.6g")
 
 
 def _hhmm(iso_local: str) -> str:
@@ -56,6 +68,8 @@ def _hhmm(iso_local: str) -> str:
 
 def _exposures(r: pd.Series) -> str:
     """``n × t s`` for the window's allowed hours, or blank where the site has no instrument."""
+    import pandas as pd
+
     n, t = r.get("n_exposures_window"), r.get("exposure_s")
     if n is None or t is None or pd.isna(n) or pd.isna(t):
         return ""
@@ -63,12 +77,19 @@ def _exposures(r: pd.Series) -> str:
 
 
 def _snr(r: pd.Series) -> str:
+    import pandas as pd
+
     v = r.get("snr_pred")
     return "" if v is None or pd.isna(v) else f"{v:.0f}"
 
 
 def render_table(df: pd.DataFrame, sites) -> str:
     """One block per site: local and UTC times, hours, the night's budget, best moment and a short note."""
+    import numpy as np
+
+    from planner.core.safety import SUN_CAUTION_MARGIN_DEG, SUN_SAFETY_TEXT, TWILIGHT_CAUTION_SUN_ALT_DEG
+    from planner.core.timegrid import iso_utc
+
     lines = []
     for s in sites:
         rows = df[df["site"] == s.name]
@@ -111,8 +132,9 @@ def render_table(df: pd.DataFrame, sites) -> str:
             )
         if flagged:
             lines.append(
-                "  ! opens or closes in twilight, or the Sun is within 10° of the site's elongation limit: "
-                "keep clear of the Sun's side of the sky. " + SUN_SAFETY_TEXT
+                f"  ! opens or closes in twilight with the Sun above {TWILIGHT_CAUTION_SUN_ALT_DEG:g}°, or the Sun is "
+                f"within {SUN_CAUTION_MARGIN_DEG:g}° of the site's elongation limit: keep clear of the Sun's side "
+                "of the sky. " + SUN_SAFETY_TEXT
             )
         lines.append("")
     lines.append(
@@ -128,52 +150,77 @@ def render_table(df: pd.DataFrame, sites) -> str:
 def register(app: typer.Typer) -> None:
     @app.command("windows")
     def windows(
-        target: Annotated[Path, typer.Option("--target", help="target file (TOML or MPC one-line orbit)")],
-        site: Annotated[list[Path], typer.Option("--site", help="site file; repeat for several sites")],
-        start: Annotated[str, typer.Option("--start", help="first night, by the local date it begins")],
-        nights: Annotated[int, typer.Option("--nights", min=1, max=366, help="number of nights")] = 7,
-        step: Annotated[str, typer.Option("--step", help="coarse grid step; edges are then refined")] = "5m",
-        fmt: Annotated[str, typer.Option("--format", help="table, csv or json")] = "table",
-        out: Annotated[Path | None, typer.Option("--out", help="write here (atomically), not to the screen")] = None,
+        target: Annotated[
+            Path, typer.Option("--target", metavar="FILE", help="target file (TOML or MPC one-line orbit)")
+        ],
+        site: Annotated[list[Path], typer.Option("--site", metavar="FILE", help="site file; repeat for several sites")],
+        start: Annotated[str, typer.Option("--start", metavar="DATE", help="first night, by the local date it begins")],
+        nights: Annotated[int, typer.Option("--nights", min=1, max=366, metavar="N", help="number of nights")] = 7,
+        step: Annotated[
+            str, typer.Option("--step", metavar="DURATION", help="coarse grid step; edges are then refined")
+        ] = "5m",
+        fmt: Annotated[
+            TableFormat | None,
+            typer.Option("--format", help="table, csv, json or ecsv (default: table, or --out's extension)"),
+        ] = None,
+        out: Annotated[
+            Path | None, typer.Option("--out", metavar="FILE", help="write here (atomically), not to the screen")
+        ] = None,
         snr: Annotated[
-            float, typer.Option("--snr", min=1.0, help="S/N goal per exposure (sites with an instrument)")
+            float,
+            typer.Option("--snr", min=1.0, metavar="S/N", help="S/N goal per exposure (sites with an instrument)"),
         ] = ExposureRules.snr_target,
         min_exposure: Annotated[
-            str, typer.Option("--min-exposure", help="shortest exposure worth taking (trailing may cut it)")
+            str,
+            typer.Option(
+                "--min-exposure", metavar="DURATION", help="shortest exposure worth taking (trailing may cut it)"
+            ),
         ] = f"{ExposureRules.min_exposure_s:g}s",
         object_name: Annotated[
-            str | None, typer.Option("--object", help="which line of a multi-line MPC .txt file")
+            str | None, typer.Option("--object", metavar="NAME", help="which line of a multi-line MPC .txt file")
         ] = None,
     ) -> None:
         """Observable windows per site and night, with the reason when there is none.
 
         Sites with an instrument table also get the exposure plan at each window's best moment."""
+        import numpy as np
+
+        from planner.core.fileio import check_writable, write_text_atomic
+        from planner.core.timegrid import check_nights_in_span, parse_date, parse_duration_s
         from planner.inputs.sites import load_site
         from planner.inputs.targets import load_target
         from planner.photometry.tables import window_photometry
+        from planner.sky.propagation import approach_warnings_utc
         from planner.visibility.windows import observable_windows
 
-        if fmt not in FORMATS:
-            raise InputError("command line", "format", f"{fmt!r} is not one of {', '.join(FORMATS)}")
+        fmt = table_format(fmt, out)
         first = parse_date(start, field="start")
+        check_nights_in_span(first, nights, "command line", "start")
         step_s = parse_duration_s(step, field="step")
+        if out is not None:
+            check_writable(out)
         sites = [load_site(p) for p in site]
         tgt = load_target(target, object_name)
         df = observable_windows(tgt, sites, first, nights, step_s=step_s)
+        span = (
+            np.datetime64(first.isoformat(), "ns") - np.timedelta64(12, "h"),
+            np.datetime64(first.isoformat(), "ns") + np.timedelta64(nights + 1, "D"),
+        )
+        for note in approach_warnings_utc(tgt, *span):
+            print(f"note: {note}", file=sys.stderr)
         df = df.join(
             window_photometry(
                 df,
                 tgt,
                 sites,
-                rules=ExposureRules(
-                    snr_target=snr, min_exposure_s=parse_duration_s(min_exposure, field="min-exposure")
-                ),
+                rules=exposure_rules(snr, parse_duration_s(min_exposure, field="min-exposure")),
             )
         )
         text = {
             "table": lambda: render_table(df, sites),
             "csv": lambda: render_csv(df),
             "json": lambda: render_json(df),
+            "ecsv": lambda: render_ecsv(df),
         }[fmt]()
         if out is None:
             typer.echo(text, nl=False)

@@ -8,6 +8,7 @@ truncating.
 from __future__ import annotations
 
 import math
+import re
 
 
 def _sexagesimal(value: float, decimals: int) -> tuple[int, int, float]:
@@ -65,3 +66,18 @@ def readable(value: float, digits: int = 3) -> str:
         return f"{v:.{max(digits - 1, 2)}g}"
     text = f"{v:.{digits}f}"
     return text.rstrip("0").rstrip(".") if "." in text else text
+
+
+#: C0 and C1 control characters and DEL: they move the cursor, ring bells or end lines on a terminal.
+_CONTROL_CHARS = re.compile("[\x00-\x1f\x7f-\x9f]")
+_CONTROL_NAMES = {"\x07": "BEL", "\x08": "BS", "\t": "TAB", "\n": "newline", "\r": "CR", "\x1b": "ESC", "\x7f": "DEL"}
+
+
+def control_char(text: str) -> str | None:
+    """The first control character in ``text``, named for a message (``'ESC (U+001B)'``), or None."""
+    m = _CONTROL_CHARS.search(text)
+    if m is None:
+        return None
+    ch = m.group()
+    name = _CONTROL_NAMES.get(ch)
+    return f"{name} (U+{ord(ch):04X})" if name else f"U+{ord(ch):04X}"

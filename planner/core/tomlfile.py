@@ -6,26 +6,26 @@ stay short and every message says what to fix.
 
 from __future__ import annotations
 
-import math
-from collections.abc import Iterable
+import tomllib
+from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
-import tomllib
-
 from planner.core.errors import InputError
+from planner.core.fileio import read_text
+from planner.core.limits import PYTHON, Limit
+from planner.core.textfmt import control_char
 
 
 def read_toml(path: str | Path) -> dict[str, Any]:
-    """Parse a TOML file; a missing file or a syntax error becomes an :class:`InputError`."""
+    """Parse a TOML file; a missing, binary or non-UTF-8 file or a syntax error becomes an :class:`InputError`.
+
+    A UTF-8 byte-order mark (Windows editors write one) is accepted, as the CSV reader accepts it.
+    """
     p = Path(path)
+    text = read_text(p, "TOML file")
     try:
-        with p.open("rb") as fh:
-            return tomllib.load(fh)
-    except FileNotFoundError:
-        raise InputError(str(p), "-", "file not found") from None
-    except IsADirectoryError:
-        raise InputError(str(p), "-", "is a folder, expected a TOML file") from None
+        return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(str(p), "-", f"not valid TOML ({exc})") from None
 
@@ -91,23 +91,7 @@ class Fields:
         lo_open: bool = False,
         hi_open: bool = False,
     ) -> float | None:
-        value = self._get(key, required, default)
-        if value is None:
-            return None
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise self.error(key, f"{value!r} is not a number")
-        value = float(value)
-        if not math.isfinite(value):
-            raise self.error(key, f"{value} is not finite")
-        lo_bad = lo is not None and (value <= lo if lo_open else value < lo)
-        hi_bad = hi is not None and (value >= hi if hi_open else value > hi)
-        if lo_bad or hi_bad:
-            left = "(" if lo_open else "["
-            right = ")" if hi_open else "]"
-            lo_s = "-inf" if lo is None else f"{lo:g}"
-            hi_s = "inf" if hi is None else f"{hi:g}"
-            raise self.error(key, f"{value:g} is outside {left}{lo_s}, {hi_s}{right}")
-        return value
+        return self.limited(key, Limit(lo, hi, lo_open, hi_open), default, required=required)
 
     def int(
         self,
@@ -118,14 +102,38 @@ class Fields:
         lo: int | None = None,
         hi: int | None = None,
     ) -> int | None:
+        return self.limited(key, Limit(lo, hi, whole=True), default, required=required)
+
+    def limited(self, key: str, limit: Limit, default: Any = None, *, required: bool = False) -> Any:
+        """A number checked against its :class:`Limit` (type, finiteness, range): the one table of limits."""
         value = self._get(key, required, default)
         if value is None:
             return None
-        if isinstance(value, bool) or not isinstance(value, int):
-            raise self.error(key, f"{value!r} is not a whole number")
-        if (lo is not None and value < lo) or (hi is not None and value > hi):
-            raise self.error(key, f"{value} is outside [{lo}, {hi}]")
-        return value
+        message = limit.problem(value)
+        if message is not None:
+            raise self.error(key, message)
+        return int(value) if limit.whole else float(value)
+
+    def values(self, limits: Mapping[str, Limit], required: Iterable[str] = ()) -> dict[str, Any]:
+        """The numbers this table holds for the keys of ``limits``, each checked against its limit.
+
+        Keys absent from the table are left out, so the type's own defaults apply.
+        """
+        required = set(required)
+        return {
+            key: self.limited(key, limit, required=key in required)
+            for key, limit in limits.items()
+            if key in self.table or key in required
+        }
+
+    def build(self, cls: type, /, **kwargs: Any) -> Any:
+        """``cls(**kwargs)``; an error its ``__post_init__`` raises about a field names this file and key."""
+        try:
+            return cls(**kwargs)
+        except InputError as exc:
+            if exc.file != PYTHON:
+                raise
+            raise self.error(exc.field, exc.message) from None
 
     def str(
         self, key: str, default: str | None = None, *, required: bool = False, choices: Iterable[str] | None = None
@@ -135,6 +143,9 @@ class Fields:
             return None
         if not isinstance(value, str):
             raise self.error(key, f"{value!r} is not a string")
+        bad = control_char(value)
+        if bad is not None:
+            raise self.error(key, f"{value!r} holds a control character ({bad}); write plain text on one line")
         if choices is not None:
             choices = list(choices)
             if value not in choices:

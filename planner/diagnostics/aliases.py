@@ -91,13 +91,16 @@ def alias_failures(
     peak_freq_per_day: np.ndarray,
     tolerance_freq_per_day: float,
     double_peaked: bool = True,
+    half_apart: bool = False,
 ) -> np.ndarray:
     """True where a wrong winner lies on an alias of the injected signal.
 
     The light curve carries power at g = f (and 2f); a trial frequency φ fits harmonics φ and 2φ.
     A win is an alias when k·φ lands on g ± f_w for a window peak f_w (k = 1, 2; VanderPlas 2018,
     §4) or on g itself (a harmonic confusion, e.g. twice the period), within the tolerance.
-    ``found_freq_per_day`` may be (n,) or (n, m) (m trial frequencies per injected signal).
+    ``half_apart``: a win at φ = 2f (half the rotation period of a double-peaked curve) is not an
+    alias here; the caller reports it on its own. ``found_freq_per_day`` may be (n,) or (n, m)
+    (m trial frequencies per injected signal).
     """
     f = np.asarray(true_freq_per_day, dtype=float).reshape(-1, 1, 1)
     phi = np.asarray(found_freq_per_day, dtype=float)
@@ -106,9 +109,13 @@ def alias_failures(
     pk = np.asarray(peak_freq_per_day, dtype=float)
     shifts = np.concatenate([[0.0], pk, -pk])
     targets = (signal[..., None] + shifts).reshape(f.shape[0], 1, -1)  # (n, 1, g·s)
+    keep = np.ones(targets.shape[2], dtype=bool)
+    if half_apart and double_peaked:
+        keep[shifts.size] = False  # signal 2f, no shift: φ = 2f for k = 1
     hit = np.zeros(phi.shape[:2], dtype=bool)
     for k in (1, 2):
-        hit |= np.any(np.abs(k * phi - targets) <= k * tolerance_freq_per_day, axis=2)
+        near = np.abs(k * phi - targets) <= k * tolerance_freq_per_day
+        hit |= np.any(near[..., keep] if k == 1 else near, axis=2)
     return hit.reshape(np.shape(found_freq_per_day))
 
 
@@ -118,11 +125,13 @@ def alias_chance(
     peak_freq_per_day: np.ndarray,
     tolerance_freq_per_day: float,
     double_peaked: bool = True,
+    half_apart: bool = False,
 ) -> np.ndarray:
     """Per injected signal: the probability that a winner drawn uniformly from the search grid
     would pass :func:`alias_failures` by chance (the baseline that noise alone reaches)."""
     out = np.empty(np.size(true_freq_per_day))
     grid = np.asarray(search_freq_per_day, dtype=float)[None, :]
     for i, f in enumerate(np.ravel(true_freq_per_day)):
-        out[i] = alias_failures(np.array([f]), grid, peak_freq_per_day, tolerance_freq_per_day, double_peaked).mean()
+        hits = alias_failures(np.array([f]), grid, peak_freq_per_day, tolerance_freq_per_day, double_peaked, half_apart)
+        out[i] = hits.mean()
     return out

@@ -6,6 +6,10 @@ spectral window and the aliases it creates (:mod:`planner.diagnostics.specwindow
 (:mod:`planner.diagnostics.recovery`), a verdict per period band, and how well the times pin down the fading
 rate, the period and a change of period (:mod:`planner.diagnostics.sensitivity`), with the synodic–sidereal
 drift when the target's geometry is known.
+
+With the target's geometry every period computation runs on light-time corrected times, t − Δ/c, so
+rotational phase is counted at the body as photometrists count it (Harris et al. 1989, Icarus 77,
+171); the JSON says so (``input.light_time_corrected``).
 """
 
 from __future__ import annotations
@@ -15,11 +19,12 @@ from collections.abc import Callable
 
 import numpy as np
 
+from planner.core import units
 from planner.core.safety import DEFAULT_MIN_SOLAR_ELONG_DEG, SUN_SAFETY_TEXT, near_sun, sun_caution_limit_deg
 from planner.core.timegrid import iso_utc, to_jd_utc
 from planner.diagnostics.aliases import alias_chance, alias_failures, partners_in_range
 from planner.diagnostics.coverage import period_grid_h, phase_coverage
-from planner.diagnostics.recovery import injection_recovery
+from planner.diagnostics.recovery import DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG, injection_recovery
 from planner.diagnostics.result import CheckResult, CheckSettings
 from planner.diagnostics.sensitivity import (
     fading_rate_sigma,
@@ -39,9 +44,11 @@ from planner.diagnostics.verdicts import (
     band_verdict,
     geometric_trend_mag,
     geometry_arrays,
+    light_time_minutes,
     repeated_times,
     worst_covered,
 )
+from planner.photometry.points import SLOT_EPOCH, stack_arrays
 
 
 def _partners(freq_per_day: float, peaks_f: np.ndarray, peaks_h: np.ndarray, s: CheckSettings) -> list[dict]:
@@ -80,7 +87,12 @@ def check_times(
     window_max_freq_per_day: float = 5.0,
     n_candidates: int = 16,
     n_bands: int = 10,
+    amplitude_phase_slope_per_deg: float = DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG,
     progress: Callable[[float], None] | None = None,
+    stack_s: float | None = None,
+    sys_err_mag_per_airmass: float = 0.0,
+    airmass: np.ndarray | None = None,
+    stack_ref_utc: np.datetime64 = SLOT_EPOCH,
     workers: int | None = 1,
     dask_address: str | None = None,
 ) -> CheckResult:
@@ -93,13 +105,35 @@ def check_times(
     ``planner.sky.geometry.geometry`` (or a DataFrame / mapping with its columns) at the same
     times; with ``target`` instead, it is computed here. ``trials`` = 0 skips injection–recovery.
     With geometry, times within the Sun caution margin of the default Sun limit (planner.core.safety) raise a
-    caution note.
+    caution note, every period computation uses the emission times t − Δ/c (``light_time_minutes``,
+    else ``obs_dist_au``), and injected amplitudes follow each time's phase angle with the slope
+    ``amplitude_phase_slope_per_deg`` (Zappalà et al. 1990; planner.diagnostics.recovery).
     The period range is cut into ``n_bands`` log-spaced bands, each with a verdict; injected
     periods are shared out evenly over the same bands. ``workers`` and ``dask_address`` say where the
     injection trials run (planner.diagnostics.recovery); the results depend on ``seed`` only.
+
+    With ``stack_s``, the times are frames: the frames of one site inside one ``stack_s`` slot
+    (counted from ``stack_ref_utc``) become one light-curve point, whose σ adds
+    ``sys_err_mag_per_airmass`` × the frames' mean ``airmass`` (where given) in quadrature
+    (:func:`planner.photometry.points.light_curve_points`, the plan's error model); frames with a
+    NaN σ take the median of the points. Give ``target`` rather than ``geometry`` then. Times may also
+    be astropy ``Time``, datetime or ISO text; periods, σ and exposures astropy Quantities.
     """
+    times_utc = units.utc_times(times_utc, "times_utc")
+    min_period_h = units.hours(min_period_h, "min_period_h")
+    max_period_h = units.hours(max_period_h, "max_period_h")
+    mag_err = units.to_unit(mag_err, "mag", "mag_err")
+    exposure_s = None if exposure_s is None else units.to_unit(exposure_s, "s", "exposure_s")
     if not (0 < min_period_h <= max_period_h):
         raise ValueError("need 0 < min_period_h <= max_period_h")
+    n_repeated = repeated_times(np.asarray(times_utc, dtype="datetime64[ns]"), sites)
+    n_frames = int(np.size(times_utc))
+    if stack_s is not None:
+        if geometry is not None:
+            raise ValueError("stacked frames need the target, not a geometry at the frames' times")
+        times_utc, mag_err, sites = stack_arrays(
+            times_utc, mag_err, sites, airmass, stack_s, sys_err_mag_per_airmass, stack_ref_utc
+        )
     order = np.argsort(np.asarray(times_utc, dtype="datetime64[ns]"), kind="stable")
     times = np.asarray(times_utc, dtype="datetime64[ns]")[order]
     t = to_jd_utc(times)
@@ -125,6 +159,9 @@ def check_times(
         alias_threshold=alias_threshold,
         recovery_threshold=recovery_threshold,
         window_max_freq_per_day=window_max_freq_per_day,
+        amplitude_phase_slope_per_deg=amplitude_phase_slope_per_deg,
+        stack_s=stack_s,
+        sys_err_mag_per_airmass=sys_err_mag_per_airmass if stack_s is not None else 0.0,
     )
     notes: list[str] = []
     if geometry is None and target is not None:
@@ -137,6 +174,10 @@ def check_times(
             k: np.asarray(v)[order] if np.size(v) == n else np.asarray(v) for k, v in geometry_arrays(geometry).items()
         }
     trend_mag = geometric_trend_mag(geo, k1) if geo else None
+    t_obs = t
+    light_min = light_time_minutes(geo)
+    if light_min is not None:
+        t = t_obs - light_min / 1440.0  # emission times: phase is counted at the body
 
     span_h = float(np.ptp(t) * 24.0) if n else 0.0
     periods = period_grid_h(s.min_period_h, s.max_period_h, span_h, oversample)
@@ -160,7 +201,7 @@ def check_times(
         {"freq_per_day": float(f), "period_h": 24.0 / float(f), "height": float(h)}
         for f, h in zip(pk_f, pk_h, strict=True)
     ]
-    nyq = nyquist_freq_per_day(t)
+    nyq = nyquist_freq_per_day(t_obs)  # a property of the sampling's steps, taken on the clock that made them
     # Below 2/T a peak is a sidelobe of the central lobe (for an unbroken span of length T the first
     # lies near 1.43/T at height 0.22, the sinc sidelobe): every campaign of that span has it and no
     # schedule removes it. The alias that sampling decides is the strongest peak beyond it.
@@ -207,6 +248,8 @@ def check_times(
                 fading_mag_per_day=extra_fading_mag_per_day,
                 oversample=oversample,
                 n_bands=n_bands,
+                phase_angle_deg=geo.get("phase_angle_deg"),
+                amplitude_phase_slope_per_deg=amplitude_phase_slope_per_deg,
                 progress=progress,
                 workers=workers,
                 dask_address=dask_address,
@@ -217,6 +260,7 @@ def check_times(
     rec_trials = []
     if recovery is not None:
         wrong = recovery.match == "wrong"
+        half = recovery.match == "half"
         strong_pk = pk_f[pk_h >= 0.25]
         explained = wrong & alias_failures(
             24.0 / recovery.true_period_h,
@@ -224,6 +268,7 @@ def check_times(
             strong_pk,
             recovery.tolerance_freq_per_day,
             double_peaked,
+            half_apart=True,
         )
         chance = np.zeros(wrong.size)
         chance[wrong] = alias_chance(
@@ -232,6 +277,7 @@ def check_times(
             strong_pk,
             recovery.tolerance_freq_per_day,
             double_peaked,
+            half_apart=True,
         )
         for i, b in enumerate(recovery.bins):
             inside = recovery.bin_index == i
@@ -245,6 +291,7 @@ def check_times(
                     "fraction_at_period": b.fraction_at_period,
                     "fraction_at_half_period": b.fraction_at_half_period,
                     "failures_alias": int(np.sum(inside & explained)),
+                    "failures_half": int(np.sum(inside & half)),
                     "failures_other": int(np.sum(inside & wrong & ~explained)),
                     "failures_alias_expected": float(np.sum(chance[inside])),
                     "confusions": b.confusions,
@@ -330,7 +377,9 @@ def check_times(
                 "max_phase_gap": float(gb.max()) if gb.size else None,
                 "max_alias_height": alias_max,
                 "recovery_fraction": rec["fraction"] if rec else None,
+                "half_period_fraction": rec["fraction_at_half_period"] if rec else None,
                 "failures_alias": rec["failures_alias"] if rec else 0,
+                "failures_half": rec["failures_half"] if rec else 0,
                 "failures_other": rec["failures_other"] if rec else 0,
                 "failures_alias_expected": rec["failures_alias_expected"] if rec else 0.0,
                 "n_trials": rec["n_trials"] if rec else 0,
@@ -353,7 +402,6 @@ def check_times(
             )
     if n and span_h < max_period_h:
         notes.append(f"the span ({span_h:.1f} h) is shorter than the longest period searched")
-    n_repeated = repeated_times(times, site_arr)
     if n_repeated:
         notes.append(
             f"{n_repeated} time(s) repeat an earlier row at the same site and instant: each counts as a "
@@ -363,6 +411,8 @@ def check_times(
         settings=s,
         times_utc=times,
         times_jd=t,
+        light_time_minutes=light_min,
+        amplitude_ref_phase_deg=None if recovery is None else recovery.amplitude_ref_phase_deg,
         sites=site_arr,
         mag_err=err,
         periods_h=periods,
@@ -383,4 +433,5 @@ def check_times(
         period_change=period_change,
         synodic=synodic,
         notes=notes,
+        n_frames=n_frames,
     )

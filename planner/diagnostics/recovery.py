@@ -6,9 +6,15 @@ plus the secular trend: the geometric magnitude from r and Δ and an optional ex
 are sampled at the given times and searched with the batched multi-harmonic periodogram that fits
 the trend at the same time (Schwarzenberg-Czerny 1996, ApJ 460, L107). A trial counts as
 recovered when the highest peak lies within half a peak width (1/(2T), T the baseline;
-VanderPlas 2018, ApJS 236, 16, §7.1) of the true rotation frequency — or, for the double-peaked
-light curve of an elongated body, of twice it: an observer finds the dominant photometric period
-P/2 and doubles it (common practice), so the search covers rotation frequencies up to 2/P_min.
+VanderPlas 2018, ApJS 236, 16, §7.1) of the true rotation frequency. For the double-peaked light
+curve of an elongated body the search covers rotation frequencies up to 2/P_min, and a win at twice
+the true frequency (the photometric period P/2) is reported apart, as "half": the data did not tell
+the rotation from its half, so it is not a recovery.
+
+The amplitude grows with the phase angle α: A(α) = A(0)(1 + m α) (Zappalà et al. 1990, A&A 231, 548).
+With the phase angle of every time, each point's injected amplitude follows it; the drawn amplitude is
+the one at the times' median phase angle, so a campaign sweeping α sees its light curve's amplitude
+change as a real one would, which a constant-amplitude search fits less well.
 
 Trials are drawn in blocks, each from its own child of ``numpy.random.SeedSequence(seed)``: the same
 seed gives the same trials wherever and in whatever grouping the blocks run.
@@ -24,11 +30,29 @@ import numpy as np
 from planner.core.parallel import FLOPS_PER_S, TrialBlock, run_blocks, trial_blocks, workers_for
 from planner.diagnostics.coverage import period_grid_h
 from planner.diagnostics.periodogram import best_frequencies
+from planner.diagnostics.trialpower import prefer_longer_period
 
 #: Relative weights of the harmonics 1, 2, 3 of the rotation frequency: (low, high) ranges.
 #: Double-peaked: the second harmonic dominates (two maxima per rotation, common practice).
 SHAPE_DOUBLE = ((0.0, 0.3), (1.0, 1.0), (0.0, 0.3))
 SHAPE_SINGLE = ((1.0, 1.0), (0.0, 0.4), (0.0, 0.2))
+
+#: Amplitude–phase slopes m of A(α) = A(0)(1 + m α), per degree of phase angle, by taxonomic type:
+#: Zappalà et al. (1990), A&A 231, 548 (values from memory): S 0.030, C 0.015, M 0.013.
+AMPLITUDE_PHASE_SLOPE_BY_TYPE = {"S": 0.030, "C": 0.015, "M": 0.013}
+#: The slope used when the type is unknown: 0.03 per degree (the S-type value, ≈ the mean slope
+#: Zappalà et al. 1990 quote for asteroids in general; memory).
+DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG = 0.03
+
+
+def amplitude_phase_factor(
+    phase_angle_deg: np.ndarray, slope_per_deg: float = DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG, ref_phase_deg=None
+) -> tuple[np.ndarray, float]:
+    """Per time, the amplitude relative to that at ``ref_phase_deg`` (default: the median phase angle):
+    (1 + m α) / (1 + m α_ref), Zappalà et al. (1990). Returns the factors and α_ref."""
+    alpha = np.asarray(phase_angle_deg, dtype=float)
+    ref = float(np.median(alpha)) if ref_phase_deg is None else float(ref_phase_deg)
+    return (1.0 + slope_per_deg * alpha) / (1.0 + slope_per_deg * ref), ref
 
 
 def search_frequencies_per_day(
@@ -78,12 +102,14 @@ def synthetic_light_curves(
     n_harmonics: int = 3,
     trend_mag: np.ndarray | None = None,
     fading_mag_per_day: float = 0.0,
+    amplitude_factor: np.ndarray | None = None,
 ) -> np.ndarray:
     """Magnitudes (N times, M trials): Fourier series in rotational phase + trend + noise.
 
     Harmonic weights are drawn from :data:`SHAPE_DOUBLE` or :data:`SHAPE_SINGLE` (first
     ``n_harmonics`` of them), each with a random phase; the series is scaled so that its
-    peak-to-peak range is ``amplitude_mag``. ``trend_mag`` (N,) is added to every trial (e.g.
+    peak-to-peak range is ``amplitude_mag``, times ``amplitude_factor`` (N,) at each time when given
+    (the amplitude–phase relation, :func:`amplitude_phase_factor`). ``trend_mag`` (N,) is added to every trial (e.g.
     5 log Δ + K1 log r), as is ``fading_mag_per_day`` × days since the first time. Noise is
     Gaussian with per-point (N,) or common ``sigma_mag``.
     """
@@ -104,6 +130,8 @@ def synthetic_light_curves(
     mags = np.zeros((t.size, m))
     for j, kk in enumerate(k):
         mags += (weights[:, j] * scale)[None, :] * np.cos(kk * rot_phase + phases[None, :, j])
+    if amplitude_factor is not None:
+        mags *= np.asarray(amplitude_factor, dtype=float).reshape(-1, 1)
     if trend_mag is not None:
         mags += np.asarray(trend_mag, dtype=float).reshape(-1, 1)
     mags += fading_mag_per_day * days[:, None]
@@ -136,11 +164,13 @@ class RecoveryResult:
     true_period_h: np.ndarray
     found_period_h: np.ndarray
     amplitude_mag: np.ndarray
-    match: np.ndarray  # "period", "half" or "wrong"
+    match: np.ndarray  # "period" (recovered), "half" (found P/2, reported apart) or "wrong"
     bins: list[RecoveryBin]
     tolerance_freq_per_day: float
     search_freq_per_day: np.ndarray
     bin_index: np.ndarray  # per trial: index into ``bins``
+    #: Phase angle at which ``amplitude_mag`` holds (None: no phase angles, constant amplitudes).
+    amplitude_ref_phase_deg: float | None = None
 
 
 def classify_matches(
@@ -149,7 +179,10 @@ def classify_matches(
     tolerance_freq_per_day: float,
     double_peaked: bool = True,
 ) -> np.ndarray:
-    """ "period" if found ≈ true, "half" if found ≈ 2·true (double-peaked only), else "wrong"."""
+    """ "period" if found ≈ true, "half" if found ≈ 2·true (double-peaked only), else "wrong".
+
+    Only "period" is a recovery; "half" (the photometric period P/2 of a double-peaked curve) is
+    counted apart."""
     at_p = np.abs(found_freq_per_day - true_freq_per_day) <= tolerance_freq_per_day
     at_half = np.abs(found_freq_per_day - 2 * true_freq_per_day) <= tolerance_freq_per_day
     at_half &= double_peaked
@@ -159,7 +192,8 @@ def classify_matches(
 def _confusions(
     true_f: np.ndarray, found_f: np.ndarray, double_peaked: bool, resolution_per_day: float, n_total: int, top: int = 4
 ) -> list[dict]:
-    """Group wrong winners by their offset from the nearer of f and 2f (the alias step)."""
+    """Group wrong winners by their offset from the nearer of f and 2f (the alias step; offset 0 from
+    2f is the half period itself)."""
     if true_f.size == 0:
         return []
     off_p = found_f - true_f
@@ -199,6 +233,8 @@ class _RecoveryTask:
     nterms: int
     trend_mag: np.ndarray | None
     fading_mag_per_day: float
+    #: Per time, the injected amplitude relative to the drawn one (amplitude–phase relation), or None.
+    amplitude_factor: np.ndarray | None
 
 
 #: Bytes of one periodogram's (frequencies × trials) power held at once within a block.
@@ -222,21 +258,18 @@ def _recovery_block(block: TrialBlock, progress=None) -> tuple[np.ndarray, np.nd
         n_harmonics=task.n_harmonics,
         trend_mag=task.trend_mag,
         fading_mag_per_day=task.fading_mag_per_day,
+        amplitude_factor=task.amplitude_factor,
     )
+    fit = dict(nterms=task.nterms, sigma=task.sigma_mag, trend_degree=1, trend_columns=task.trend_mag)
     step = max(1, _POWER_BYTES // max(8 * task.freqs.size, 1))
     best = np.empty(block.size)
     for a in range(0, block.size, step):
         sub = None if progress is None else (lambda f, a=a: progress((a + f * min(step, block.size - a)) / block.size))
-        best[a : a + step], _ = best_frequencies(
-            task.t,
-            mags[:, a : a + step],
-            task.freqs,
-            nterms=task.nterms,
-            sigma=task.sigma_mag,
-            trend_degree=1,
-            trend_columns=task.trend_mag,
-            progress=sub,
-        )
+        best[a : a + step], _ = best_frequencies(task.t, mags[:, a : a + step], task.freqs, progress=sub, **fit)
+    if task.double_peaked and task.freqs.size > 1:
+        # The photometrist's P-versus-P/2 step, trial by trial (so block by block).
+        step_f, low_f = float(task.freqs[1] - task.freqs[0]), float(task.freqs[0])
+        best = prefer_longer_period(task.t, mags, best, step_f, low_f, **fit)
     return periods, amps, best
 
 
@@ -256,15 +289,19 @@ def injection_recovery(
     fading_mag_per_day: float = 0.0,
     n_bands: int | None = None,
     oversample: float = 10.0,
+    phase_angle_deg: np.ndarray | None = None,
+    amplitude_phase_slope_per_deg: float = DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG,
     progress=None,
     workers: int | None = 1,
     dask_address: str | None = None,
 ) -> RecoveryResult:
     """Inject ``trials`` synthetic light curves at ``times_jd`` and search each one.
 
-    Periods are stratified over log-spaced bins (``n_bands``, default ``trials // 20`` within
-    [4, 20]); amplitudes are uniform in ``amplitude_range_mag``. The search fits an
-    ``nterms``-harmonic series with a linear trend, plus ``trend_mag`` as a free column when
+    ``times_jd`` should be light-time corrected (the times the light left the body). Periods are
+    stratified over log-spaced bins (``n_bands``, default ``trials // 20`` within [4, 20]);
+    amplitudes are uniform in ``amplitude_range_mag``, at the median of ``phase_angle_deg`` when
+    given, each point's amplitude following its own phase angle (Zappalà et al. 1990). The search fits
+    an ``nterms``-harmonic series with a linear trend, plus ``trend_mag`` as a free column when
     given, on the rotation-frequency grid of :func:`search_frequencies_per_day`.
 
     Trials run in blocks with independent random streams (``numpy.random.SeedSequence.spawn``,
@@ -282,6 +319,9 @@ def injection_recovery(
     span_h = baseline_d * 24.0
     freqs = search_frequencies_per_day(min_period_h, max_period_h, span_h, double_peaked, oversample)
     edges = np.geomspace(min_period_h, max_period_h, n_bands + 1)
+    factor, ref_phase = None, None
+    if phase_angle_deg is not None:
+        factor, ref_phase = amplitude_phase_factor(phase_angle_deg, amplitude_phase_slope_per_deg)
     task = _RecoveryTask(
         t=t,
         freqs=freqs,
@@ -295,6 +335,7 @@ def injection_recovery(
         nterms=nterms,
         trend_mag=trend_mag,
         fading_mag_per_day=fading_mag_per_day,
+        amplitude_factor=factor,
     )
     blocks = trial_blocks(trials, seed, task)
     cost_s = 8.0 * nterms * t.size * freqs.size * trials / FLOPS_PER_S
@@ -316,16 +357,16 @@ def injection_recovery(
     for b in range(n_bands):
         sel = which == b
         n = int(sel.sum())
-        wrong = sel & (match == "wrong")
+        missed = sel & (match != "period")
         bins.append(
             RecoveryBin(
                 min_period_h=float(edges[b]),
                 max_period_h=float(edges[b + 1]),
                 n_trials=n,
-                fraction=float(np.mean(match[sel] != "wrong")) if n else math.nan,
+                fraction=float(np.mean(match[sel] == "period")) if n else math.nan,
                 fraction_at_period=float(np.mean(match[sel] == "period")) if n else math.nan,
                 fraction_at_half_period=float(np.mean(match[sel] == "half")) if n else math.nan,
-                confusions=_confusions(true_f[wrong], best_f[wrong], double_peaked, 2 * tol, max(n, 1)),
+                confusions=_confusions(true_f[missed], best_f[missed], double_peaked, 2 * tol, max(n, 1)),
             )
         )
     return RecoveryResult(
@@ -337,4 +378,5 @@ def injection_recovery(
         tolerance_freq_per_day=tol,
         search_freq_per_day=freqs,
         bin_index=which,
+        amplitude_ref_phase_deg=ref_phase,
     )

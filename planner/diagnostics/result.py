@@ -9,6 +9,7 @@ import numpy as np
 
 from planner.core.jsonsafe import json_safe
 from planner.core.timegrid import iso_utc
+from planner.diagnostics.recovery import DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG
 
 VERDICTS = ("secure", "alias-prone", "under-covered")
 
@@ -32,6 +33,12 @@ class CheckSettings:
     recovery_threshold: float = 0.9
     window_max_freq_per_day: float = 5.0
     n_sigma: float = 3.0
+    #: Zappalà et al. (1990) slope m of A(α) = A(0)(1 + m α), per degree (planner.diagnostics.recovery).
+    amplitude_phase_slope_per_deg: float = DEFAULT_AMPLITUDE_PHASE_SLOPE_PER_DEG
+    #: Frames of one site inside one slot of this length are one light-curve point (None: no stacking).
+    stack_s: float | None = None
+    #: Extinction error per airmass added to each point's σ (planner.photometry.points).
+    sys_err_mag_per_airmass: float = 0.0
 
 
 @dataclass
@@ -61,6 +68,12 @@ class CheckResult:
     period_change: list[dict]
     synodic: dict | None = None
     notes: list[str] = field(default_factory=list)
+    #: Light time per (sorted) time, minutes, when the periods were computed on t − Δ/c; else None.
+    light_time_minutes: np.ndarray | None = None
+    #: Phase angle at which the injected amplitudes hold (None: no phase angles known).
+    amplitude_ref_phase_deg: float | None = None
+    #: Frames the points were stacked from (None: the times are the points themselves).
+    n_frames: int | None = None
 
     @property
     def span_h(self) -> float:
@@ -76,12 +89,15 @@ class CheckResult:
             {
                 "input": {
                     "n_times": int(self.times_jd.size),
+                    "n_frames": int(self.times_jd.size) if self.n_frames is None else self.n_frames,
                     "first_utc": iso_utc(self.times_utc[:1], seconds=True)[0] if self.times_jd.size else None,
                     "last_utc": iso_utc(self.times_utc[-1:], seconds=True)[0] if self.times_jd.size else None,
                     "span_h": self.span_h,
                     "sites": sites,
                     "median_mag_err": float(np.median(self.mag_err)) if self.mag_err.size else None,
                     "times_utc": iso_utc(self.times_utc, seconds=True),
+                    "light_time_corrected": self.light_time_minutes is not None,
+                    "light_time_minutes": self.light_time_minutes,
                 },
                 "settings": {
                     "min_period_h": s.min_period_h,
@@ -98,6 +114,10 @@ class CheckResult:
                     "alias_threshold": s.alias_threshold,
                     "recovery_threshold": s.recovery_threshold,
                     "n_sigma": s.n_sigma,
+                    "amplitude_phase_slope_per_deg": s.amplitude_phase_slope_per_deg,
+                    "amplitude_ref_phase_deg": self.amplitude_ref_phase_deg,
+                    "stack_s": s.stack_s,
+                    "sys_err_mag_per_airmass": s.sys_err_mag_per_airmass,
                 },
                 "periods_h": self.periods_h,
                 "coverage": self.coverage,

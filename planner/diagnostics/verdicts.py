@@ -6,6 +6,7 @@ from collections.abc import Mapping
 
 import numpy as np
 
+from planner.core.constants import C_AU_PER_DAY
 from planner.diagnostics.recovery import RecoveryResult
 from planner.diagnostics.result import CheckSettings
 
@@ -41,6 +42,7 @@ def geometry_arrays(geometry) -> dict[str, np.ndarray]:
         "pab_lat_deg",
         "mag_pred",
         "solar_elong_deg",
+        "light_time_minutes",
     ):
         try:
             cols[name] = np.asarray(geometry[name], dtype=float)
@@ -62,6 +64,16 @@ def geometric_trend_mag(geometry: Mapping[str, np.ndarray], k1: float = 10.0) ->
     return m - m.mean()
 
 
+def light_time_minutes(geometry: Mapping[str, np.ndarray]) -> np.ndarray | None:
+    """One-way light time per time, minutes: the geometry's ``light_time_minutes``, else Δ/c from
+    ``obs_dist_au`` (c and the au of IAU 2009/2012); None without either (times stay uncorrected)."""
+    if "light_time_minutes" in geometry and np.all(np.isfinite(geometry["light_time_minutes"])):
+        return np.asarray(geometry["light_time_minutes"], dtype=float)
+    if "obs_dist_au" in geometry and np.all(np.isfinite(geometry["obs_dist_au"])):
+        return np.asarray(geometry["obs_dist_au"], dtype=float) / C_AU_PER_DAY * 1440.0
+    return None
+
+
 def band_edges_h(settings: CheckSettings, recovery: RecoveryResult | None, n_bands: int) -> np.ndarray:
     """Log-spaced period bands; the injection–recovery bins are the same bands."""
     if recovery is not None:
@@ -72,7 +84,8 @@ def band_edges_h(settings: CheckSettings, recovery: RecoveryResult | None, n_ban
 
 def band_verdict(cov_band: np.ndarray, rec: dict | None, alias_max: float, s: CheckSettings) -> str:
     """under-covered if more than a quarter of the band's periods fall below the coverage
-    threshold; if recovery misses its threshold, alias-prone when aliases explain at least half
+    threshold; if recovery misses its threshold, alias-prone when aliases and the half period
+    (another period winning: a window alias, or P/2 of a double-peaked curve) explain at least half
     of the failures beyond what chance gives (κ = (observed − expected)/(failures − expected)
     ≥ 0.5), under-covered when noise or missing phases do; alias-prone if an alias partner
     reaches the alias threshold; otherwise secure."""
@@ -80,9 +93,10 @@ def band_verdict(cov_band: np.ndarray, rec: dict | None, alias_max: float, s: Ch
     if poor > 0.25:
         return "under-covered"
     if rec is not None and rec["n_trials"] and rec["fraction"] < s.recovery_threshold:
-        failures = rec["failures_alias"] + rec["failures_other"]
+        confused = rec["failures_alias"] + rec.get("failures_half", 0)
+        failures = confused + rec["failures_other"]
         expected = rec["failures_alias_expected"]
-        excess = (rec["failures_alias"] - expected) / (failures - expected) if failures > expected else 0.0
+        excess = (confused - expected) / (failures - expected) if failures > expected else 0.0
         return "alias-prone" if excess >= 0.5 else "under-covered"
     if alias_max >= s.alias_threshold:
         return "alias-prone"

@@ -15,10 +15,22 @@ from datetime import date
 from pathlib import Path
 
 from planner.core.errors import InputError
-from planner.core.timegrid import parse_date
+from planner.core.limits import PYTHON, Limit, check_instance, check_limits
+from planner.core.timegrid import check_nights_in_span, parse_date
 from planner.core.tomlfile import Fields, read_toml
-from planner.inputs.settings import BlockRules, Compute, ExposureRules, Rotation, Weights
-from planner.inputs.sites import Site, allocation_from, load_site
+from planner.core.units import calendar_date
+from planner.inputs.settings import (
+    BLOCK_LIMITS,
+    EXPOSURE_LIMITS,
+    ROTATION_LIMITS,
+    WEIGHT_LIMITS,
+    BlockRules,
+    Compute,
+    ExposureRules,
+    Rotation,
+    Weights,
+)
+from planner.inputs.sites import SITE_LIMITS, Site, allocation_from, load_site
 from planner.inputs.targets import Target, load_target
 
 _TOP_KEYS = {
@@ -41,20 +53,36 @@ _TOP_KEYS = {
 _ROTATION_KEYS = {"min_period_h", "max_period_h", "double_peaked", "amplitude_mag", "phase_bins", "oversample"}
 _BLOCK_KEYS = {"slot_minutes", "min_block_h", "max_block_h", "setup_minutes", "max_per_night"}
 _CADENCE_KEYS = {"max_gap_h"}
-_WEIGHT_KEYS = {"coverage", "robustness", "alias", "cadence", "hours", "quality"}
+_WEIGHT_KEYS = {"coverage", "robustness", "alias", "cadence", "hours", "quality", "discrimination"}
 _WEATHER_KEYS = {"trials"}
 _PHOTOMETRY_KEYS = {"snr_target", "min_exposure_s", "max_exposure_s", "max_airmass", "sys_err_mag_per_airmass"}
 _DIAGNOSTICS_KEYS = {"trials"}
+#: A site's whole-campaign budget (``[site."NAME"] total_hours``).
+TOTAL_HOURS_LIMIT = Limit(0.0, lo_open=True)
 #: Keys of the [blocks] table in earlier versions and their names now.
 _RENAMED_BLOCK_KEYS = {"slot_min": "slot_minutes", "setup_min": "setup_minutes"}
 
 
+#: Ranges of the campaign's own numbers (the settings types hold theirs: planner.inputs.settings).
+CAMPAIGN_LIMITS = {
+    "nights": Limit(1, 366, whole=True),
+    "seed": Limit(0, 2**63 - 1, whole=True),
+    "max_gap_h": Limit(0.5, 24.0 * 60),
+    "weather_trials": Limit(10, 100_000, whole=True),
+    "check_trials": Limit(0, 100_000, whole=True),
+}
+
+
 @dataclass(frozen=True)
 class Campaign:
+    """Which target, which sites, which nights, and what the schedule should optimise.
+
+    Read from a campaign file by :func:`load_campaign`, or built in Python from :class:`Site` and
+    :class:`Target` objects (``Campaign(name, sites, first_night, nights, target=...)``): no file is
+    needed, and every field is checked when built with the same words as the file loader.
+    """
+
     name: str
-    path: Path
-    target_path: Path
-    site_paths: tuple[Path, ...]
     #: Sites with the campaign's overrides applied.
     sites: tuple[Site, ...]
     first_night: date
@@ -72,11 +100,56 @@ class Campaign:
     total_hours: dict[str, float] = field(default_factory=dict)
     #: Which line of a multi-line MPC target file (``--object`` of the other commands).
     target_object: str | None = None
+    #: The target itself, for a campaign built in Python (a file's campaign loads it from ``target_path``).
+    target: Target | None = None
+    #: The campaign file, its target file and its site files (None and () for a campaign built in Python).
+    path: Path | None = None
+    target_path: Path | None = None
+    site_paths: tuple[Path, ...] = ()
     #: Where Monte Carlo trials run (not a file key: ``plan --dask ADDRESS``).
     compute: Compute = field(default_factory=Compute)
 
+    def __post_init__(self) -> None:
+        file = self.source
+        if not isinstance(self.name, str) or not self.name.strip():
+            raise InputError(file, "name", f"{self.name!r} must be a non-empty string")
+        sites = tuple(self.sites) if isinstance(self.sites, (list, tuple)) else ()
+        if not sites or not all(isinstance(s, Site) for s in sites):
+            raise InputError(file, "sites", "must be a non-empty list of Site objects")
+        names = [s.name for s in sites]
+        dup = sorted({n for n in names if names.count(n) > 1})
+        if dup:
+            raise InputError(file, "sites", f"two sites share the name {dup[0]!r}")
+        object.__setattr__(self, "sites", sites)
+        object.__setattr__(self, "first_night", calendar_date(self.first_night, "first_night", file))
+        check_limits(self, CAMPAIGN_LIMITS, file)
+        for name, cls in (("rotation", Rotation), ("block_rules", BlockRules), ("weights", Weights)):
+            check_instance(self, name, cls, f"a {cls.__name__}", file)
+        check_instance(self, "photometry", ExposureRules, "an ExposureRules", file)
+        check_instance(self, "compute", Compute, "a Compute", file)
+        budgets = {}
+        for site_name, hours in dict(self.total_hours).items():
+            if site_name not in names:
+                raise InputError(file, "total_hours", f"no campaign site is named {site_name!r}")
+            message = TOTAL_HOURS_LIMIT.problem(hours)
+            if message is not None:
+                raise InputError(file, f"total_hours.{site_name}", message)
+            budgets[site_name] = float(hours)
+        object.__setattr__(self, "total_hours", budgets)
+        if self.target is not None:
+            check_instance(self, "target", Target, "a Target", file)
+        elif self.target_path is None:
+            raise InputError(file, "target", "missing: give target=Target(...) or load the campaign from a file")
+
+    @property
+    def source(self) -> str:
+        """The campaign file, or ``python`` for a campaign built in code (the FILE of its errors)."""
+        return PYTHON if self.path is None else str(self.path)
+
     def load_target(self) -> Target:
-        """The target file named by the campaign."""
+        """The campaign's target: the one it was built with, or the target file it names."""
+        if self.target is not None:
+            return self.target
         try:
             return load_target(self.target_path, self.target_object)
         except InputError as e:
@@ -84,11 +157,6 @@ class Campaign:
                 raise
             message = e.message.replace("with --object NAME", 'with the campaign key object = "NAME"')
             raise InputError(str(self.path), "object", f"{self.target_path.name}: {message}") from None
-
-
-def _default(name: str):
-    """A Campaign field's default, the one place it is written."""
-    return Campaign.__dataclass_fields__[name].default
 
 
 def _path(f: Fields, key: str, base: Path, value: object) -> Path:
@@ -117,11 +185,17 @@ def _override(f: Fields, site: Site) -> tuple[Site, float | None]:
     allocation = allocation_from(f, extra_keys=("clear_fraction", "total_hours"))
     if allocation is not None:
         changes["allocation"] = allocation
-    clear = f.float("clear_fraction", None, lo=0.0, hi=1.0)
+    clear = f.limited("clear_fraction", SITE_LIMITS["clear_fraction"])
     if clear is not None:
         changes["clear_fraction"] = clear
-    total = f.float("total_hours", None, lo=0.0, lo_open=True)
+    total = f.limited("total_hours", TOTAL_HOURS_LIMIT)
     return dataclasses.replace(site, **changes), total
+
+
+def _table(f: Fields, key: str, known: set[str], renamed: dict[str, str] | None = None) -> Fields:
+    sub = f.sub(key) or Fields(f.file, {}, key)
+    sub.check_known(known, renamed=renamed)
+    return sub
 
 
 def load_campaign(path: str | Path) -> Campaign:
@@ -144,64 +218,32 @@ def load_campaign(path: str | Path) -> Campaign:
     if dup:
         raise f.error("sites", f"two site files share the name {sorted(dup)[0]!r}")
 
-    rot_f = f.sub("rotation") or Fields(path, {}, "rotation")
-    rot_f.check_known(_ROTATION_KEYS)
-    d_rot = Rotation()
-    min_p = rot_f.float("min_period_h", d_rot.min_period_h, lo=0.05, hi=2000.0)
-    max_p = rot_f.float("max_period_h", d_rot.max_period_h, lo=0.05, hi=2000.0)
-    if max_p <= min_p:
-        raise rot_f.error("max_period_h", f"{max_p:g} must be above min_period_h ({min_p:g})")
-    amp = rot_f.float_list("amplitude_mag", length=2) or list(d_rot.amplitude_mag)
-    if not (0.0 < amp[0] <= amp[1] <= 5.0):
-        raise rot_f.error("amplitude_mag", f"{amp} must be [low, high] with 0 < low <= high <= 5")
-    rotation = Rotation(
-        min_period_h=min_p,
-        max_period_h=max_p,
-        double_peaked=rot_f.bool("double_peaked", d_rot.double_peaked),
-        amplitude_mag=(amp[0], amp[1]),
-        phase_bins=rot_f.int("phase_bins", d_rot.phase_bins, lo=4, hi=200),
-        oversample=rot_f.float("oversample", d_rot.oversample, lo=1.0, hi=100.0),
-    )
-
-    blk_f = f.sub("blocks") or Fields(path, {}, "blocks")
-    blk_f.check_known(_BLOCK_KEYS, renamed=_RENAMED_BLOCK_KEYS)
-    d_blk = BlockRules()
-    slot_minutes = blk_f.float("slot_minutes", d_blk.slot_minutes, lo=1.0, hi=60.0)
-    min_block_h = blk_f.float("min_block_h", d_blk.min_block_h, lo=0.0, lo_open=True, hi=24.0)
-    max_block_h = blk_f.float("max_block_h", d_blk.max_block_h, lo=0.0, lo_open=True, hi=24.0)
-    setup_minutes = blk_f.float("setup_minutes", d_blk.setup_minutes, lo=0.0, hi=120.0)
-    if max_block_h < min_block_h:
-        raise blk_f.error("max_block_h", f"{max_block_h:g} is below min_block_h ({min_block_h:g})")
-    if min_block_h * 60.0 < slot_minutes:
-        raise blk_f.error("min_block_h", f"{min_block_h:g} h is shorter than one slot ({slot_minutes:g} min)")
-    if setup_minutes >= min_block_h * 60.0:
-        raise blk_f.error("setup_minutes", f"{setup_minutes:g} min leaves no science time in a {min_block_h:g} h block")
-    blocks = BlockRules(
-        slot_minutes=slot_minutes,
-        min_block_h=min_block_h,
-        max_block_h=max_block_h,
-        setup_minutes=setup_minutes,
-        max_per_night=blk_f.int("max_per_night", d_blk.max_per_night, lo=1, hi=20),
-    )
-
-    cad_f = f.sub("cadence") or Fields(path, {}, "cadence")
-    cad_f.check_known(_CADENCE_KEYS)
-    w_f = f.sub("weights") or Fields(path, {}, "weights")
-    w_f.check_known(_WEIGHT_KEYS)
-    weights = Weights(**{k: w_f.float(k, getattr(Weights, k), lo=0.0, hi=100.0) for k in sorted(_WEIGHT_KEYS)})
-    if weights.coverage <= 0.0:
-        raise w_f.error("coverage", "must be above 0 (coverage is what the plan is for)")
-    wx_f = f.sub("weather") or Fields(path, {}, "weather")
-    wx_f.check_known(_WEATHER_KEYS)
-    ph_f = f.sub("photometry") or Fields(path, {}, "photometry")
-    ph_f.check_known(_PHOTOMETRY_KEYS)
-    rules = ExposureRules()
-    min_exp = ph_f.float("min_exposure_s", rules.min_exposure_s, lo=0.1, hi=3600.0)
-    max_exp = ph_f.float("max_exposure_s", rules.max_exposure_s, lo=0.1, hi=3600.0)
-    if max_exp < min_exp:
-        raise ph_f.error("max_exposure_s", f"{max_exp:g} is below min_exposure_s ({min_exp:g})")
-    dg_f = f.sub("diagnostics") or Fields(path, {}, "diagnostics")
-    dg_f.check_known(_DIAGNOSTICS_KEYS)
+    rot_f = _table(f, "rotation", _ROTATION_KEYS)
+    rot = rot_f.values(ROTATION_LIMITS)
+    if rot_f.has("double_peaked"):
+        rot["double_peaked"] = rot_f.bool("double_peaked")
+    if rot_f.has("amplitude_mag"):
+        rot["amplitude_mag"] = tuple(rot_f.float_list("amplitude_mag", length=2))
+    blk_f = _table(f, "blocks", _BLOCK_KEYS, renamed=_RENAMED_BLOCK_KEYS)
+    w_f = _table(f, "weights", _WEIGHT_KEYS)
+    ph_f = _table(f, "photometry", _PHOTOMETRY_KEYS)
+    settings = {
+        "rotation": rot_f.build(Rotation, **rot),
+        "block_rules": blk_f.build(BlockRules, **blk_f.values(BLOCK_LIMITS)),
+        "weights": w_f.build(Weights, **w_f.values(WEIGHT_LIMITS)),
+        "photometry": ph_f.build(ExposureRules, **ph_f.values(EXPOSURE_LIMITS)),
+    }
+    # The campaign's own numbers, by (table, key in the file, field): absent keys keep the type's defaults.
+    for table, key, field_name in (
+        (f, "nights", "nights"),
+        (f, "seed", "seed"),
+        (_table(f, "cadence", _CADENCE_KEYS), "max_gap_h", "max_gap_h"),
+        (_table(f, "weather", _WEATHER_KEYS), "trials", "weather_trials"),
+        (_table(f, "diagnostics", _DIAGNOSTICS_KEYS), "trials", "check_trials"),
+    ):
+        value = table.limited(key, CAMPAIGN_LIMITS[field_name], required=field_name == "nights")
+        if value is not None:
+            settings[field_name] = value
 
     total_hours: dict[str, float] = {}
     ov_f = f.sub("site")
@@ -215,35 +257,22 @@ def load_campaign(path: str | Path) -> Campaign:
             if total is not None:
                 total_hours[key] = total
 
-    return Campaign(
+    first_night = _first_night(f)
+    check_nights_in_span(first_night, settings["nights"], f.file, "first_night")
+    return f.build(
+        Campaign,
         name=name,
         path=path,
         target_path=target_path,
         site_paths=site_paths,
         sites=tuple(sites),
-        first_night=_first_night(f),
-        nights=f.int("nights", required=True, lo=1, hi=366),
-        seed=f.int("seed", _default("seed"), lo=0, hi=2**63 - 1),
-        rotation=rotation,
-        block_rules=blocks,
-        max_gap_h=cad_f.float("max_gap_h", _default("max_gap_h"), lo=0.5, hi=24.0 * 60),
-        weights=weights,
-        weather_trials=wx_f.int("trials", _default("weather_trials"), lo=10, hi=100_000),
-        photometry=ExposureRules(
-            snr_target=ph_f.float("snr_target", rules.snr_target, lo=1.0, hi=10_000.0),
-            min_exposure_s=min_exp,
-            max_exposure_s=max_exp,
-            max_airmass=ph_f.float("max_airmass", rules.max_airmass, lo=1.0, hi=40.0),
-            sys_err_mag_per_airmass=ph_f.float(
-                "sys_err_mag_per_airmass", rules.sys_err_mag_per_airmass, lo=0.0, lo_open=True, hi=1.0
-            ),
-        ),
-        check_trials=dg_f.int("trials", _default("check_trials"), lo=0, hi=100_000),
+        first_night=first_night,
         total_hours=total_hours,
         target_object=f.str("object"),
+        **settings,
     )
 
 
 def campaign_error(campaign: Campaign, field_name: str, message: str) -> InputError:
     """An InputError pointing at the campaign file."""
-    return InputError(str(campaign.path), field_name, message)
+    return InputError(campaign.source, field_name, message)

@@ -1,10 +1,12 @@
 """Observation logs (CSV): what was observed, and which site-nights were lost.
 
-One format for every command that reads a log (``phasewise check`` and ``phasewise plan --done``):
-``time_utc`` (mid-exposure, ISO 8601 UTC) and optional ``site``, ``exposure_s``, ``mag_err``,
-``status`` (``observed``, the default, or ``lost``) and ``night`` (local date of the evening; a
-``lost`` row needs it and may leave ``time_utc`` empty; a ``lost`` row with no ``site`` stands
-for every site). Lines whose first cell starts with ``#`` are comments.
+One format for every command that reads a log (``phasewise check``, ``phasewise fit`` and
+``phasewise plan --done``): ``time_utc`` (mid-exposure, ISO 8601 UTC) and optional ``site``,
+``exposure_s``, ``mag`` (the measured magnitude, any calibrated band), ``mag_err``, ``band`` (the
+band's name, free text), ``status`` (``observed``, the default, or ``lost``) and ``night`` (local
+date of the evening; a ``lost`` row needs it and may leave ``time_utc`` empty; a ``lost`` row with
+no ``site`` stands for every site). Lines whose first cell starts with ``#`` are comments. Rows
+without ``mag`` are times only: ``check`` and ``plan --done`` read them as before.
 
 Every bad cell is reported as ``FILE: COLUMN (row N): message``, N counting data rows from 1
 (the header is row 0; comment and blank lines are not counted).
@@ -13,6 +15,7 @@ Every bad cell is reported as ``FILE: COLUMN (row N): message``, N counting data
 from __future__ import annotations
 
 import csv
+import io
 import math
 from dataclasses import dataclass, field
 from datetime import date
@@ -21,12 +24,19 @@ from pathlib import Path
 import numpy as np
 
 from planner.core.errors import InputError
+from planner.core.fileio import read_text
+from planner.core.textfmt import control_char
 from planner.core.timegrid import parse_date, parse_utc
 
-KNOWN_COLUMNS = ("time_utc", "site", "exposure_s", "mag_err", "status", "night")
+KNOWN_COLUMNS = ("time_utc", "site", "exposure_s", "mag", "mag_err", "band", "status", "night")
 STATUSES = ("observed", "lost")
 #: Longest exposure a log may give (one day): anything longer is a typing error.
 MAX_EXPOSURE_S = 86400.0
+#: Magnitudes a log may give: from the brightest comets seen in daylight to beyond the deepest
+#: surveys; anything outside is a typing error (or a flux, or a placeholder such as 99).
+MAG_RANGE = (-30.0, 40.0)
+#: Longest band name (a filter's name, e.g. ``R``, ``sdss_r``, ``clear``).
+MAX_BAND_CHARS = 20
 
 
 @dataclass
@@ -40,19 +50,28 @@ class LostNight:
 
 @dataclass
 class ObservationLog:
-    """The observed rows (datetime64[ns], file order) with optional per-row site, exposure and σ
-    (NaN = not given; ``None`` when the column is absent), plus the lost site-nights."""
+    """The observed rows (datetime64[ns], file order) with optional per-row site, exposure, magnitude,
+    σ and band (NaN or "" = not given; ``None`` when the column is absent), plus the lost site-nights."""
 
     path: str
     times_utc: np.ndarray
     site: np.ndarray | None
     exposure_s: np.ndarray | None
     mag_err: np.ndarray | None
+    mag: np.ndarray | None = None
+    band: np.ndarray | None = None
     #: Data-row number (from 1) of each observed time, for error messages downstream.
     rows: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
     #: Local evening date given in the ``night`` column of observed rows (``None`` where empty).
     night: list[date | None] = field(default_factory=list)
     lost: list[LostNight] = field(default_factory=list)
+
+    @property
+    def has_mag(self) -> np.ndarray:
+        """Which observed rows carry a magnitude (all False without a ``mag`` column)."""
+        if self.mag is None:
+            return np.zeros(self.times_utc.size, dtype=bool)
+        return np.isfinite(self.mag)
 
     def mag_err_or(self, default_mag: float) -> np.ndarray:
         """Per-point σ: the log's value where given, ``default_mag`` elsewhere."""
@@ -86,6 +105,34 @@ def _positive(text: str, file: str, field_name: str, upper: float = math.inf) ->
     return value
 
 
+def _site(cell: dict[str, str], file: str, n: int) -> str:
+    """A site cell: plain text (a control character would reach the terminal and the figures raw)."""
+    name = cell.get("site", "")
+    bad = control_char(name)
+    if bad is not None:
+        raise InputError(file, f"site (row {n})", f"{name!r} holds a control character ({bad})")
+    return name
+
+
+def _magnitude(text: str, file: str, field_name: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise InputError(file, field_name, f"{text!r} is not a number (a magnitude)") from None
+    lo, hi = MAG_RANGE
+    if not (lo <= value <= hi):
+        raise InputError(file, field_name, f"{text!r} is outside [{lo:g}, {hi:g}] (a magnitude)")
+    return value
+
+
+def _band(text: str, file: str, field_name: str) -> str:
+    if len(text) > MAX_BAND_CHARS or any(c.isspace() or c in ",;\"'" for c in text):
+        raise InputError(
+            file, field_name, f"{text[:30]!r} is not a band name (up to {MAX_BAND_CHARS} characters, no spaces)"
+        )
+    return text
+
+
 def _night(text: str, file: str, n: int) -> date:
     return parse_date(text, file, f"night (row {n})", "a local evening date such as 2034-03-17")
 
@@ -98,15 +145,11 @@ def read_observation_log(path: str | Path) -> ObservationLog:
     """
     p = Path(path)
     file = str(p)
+    text = read_text(p, "CSV file")
     try:
-        with p.open(newline="", encoding="utf-8-sig") as fh:
-            rows = list(csv.reader(fh))
-    except FileNotFoundError:
-        raise InputError(file, "-", "file not found") from None
-    except IsADirectoryError:
-        raise InputError(file, "-", "is a folder, expected a CSV file") from None
-    except UnicodeDecodeError:
-        raise InputError(file, "-", "not a UTF-8 text file") from None
+        rows = list(csv.reader(io.StringIO(text, newline="")))
+    except csv.Error as exc:
+        raise InputError(file, "-", f"not a readable CSV file ({exc})") from None
     rows = [r for r in rows if any(c.strip() for c in r) and not r[0].lstrip().startswith("#")]
     if not rows:
         raise InputError(file, "time_utc", "the file is empty (expected a header with time_utc)")
@@ -128,7 +171,7 @@ def read_observation_log(path: str | Path) -> ObservationLog:
     data = rows[1:]
     if not data:
         raise InputError(file, "time_utc", "no observation times (only a header)")
-    times, sites, exposures, errs, row_no, nights = [], [], [], [], [], []
+    times, sites, exposures, errs, row_no, nights, mags, bands = [], [], [], [], [], [], [], []
     lost: list[LostNight] = []
     for n, row in enumerate(data, start=1):
         if len(row) != len(header):
@@ -142,18 +185,20 @@ def read_observation_log(path: str | Path) -> ObservationLog:
                 raise InputError(
                     file, f"night (row {n})", "a lost row needs the local date of the evening, e.g. 2034-03-17"
                 )
-            lost.append(LostNight(site=cell.get("site", ""), night=_night(cell["night"], file, n), row=n))
+            lost.append(LostNight(site=_site(cell, file, n), night=_night(cell["night"], file, n), row=n))
             continue
         if not cell["time_utc"]:
             raise InputError(file, f"time_utc (row {n})", "empty; every observed row needs a time")
         times.append(parse_utc(cell["time_utc"], file, f"time_utc (row {n})"))
-        sites.append(cell.get("site", ""))
+        sites.append(_site(cell, file, n))
         exposures.append(
             _positive(cell["exposure_s"], file, f"exposure_s (row {n})", MAX_EXPOSURE_S)
             if cell.get("exposure_s")
             else math.nan
         )
         errs.append(_positive(cell["mag_err"], file, f"mag_err (row {n})") if cell.get("mag_err") else math.nan)
+        mags.append(_magnitude(cell["mag"], file, f"mag (row {n})") if cell.get("mag") else math.nan)
+        bands.append(_band(cell["band"], file, f"band (row {n})") if cell.get("band") else "")
         nights.append(_night(cell["night"], file, n) if cell.get("night") else None)
         row_no.append(n)
     return ObservationLog(
@@ -162,6 +207,8 @@ def read_observation_log(path: str | Path) -> ObservationLog:
         site=np.array(sites, dtype=object) if "site" in col else None,
         exposure_s=np.array(exposures, dtype=float) if "exposure_s" in col else None,
         mag_err=np.array(errs, dtype=float) if "mag_err" in col else None,
+        mag=np.array(mags, dtype=float) if "mag" in col else None,
+        band=np.array(bands, dtype=object) if "band" in col else None,
         rows=np.array(row_no, dtype=np.int64),
         night=nights,
         lost=lost,

@@ -5,28 +5,63 @@ Target file (TOML, schema in docs/formats.md): top-level ``name``, ``kind`` (``c
 Planet Center one-line orbits (the comet format of CometEls.txt or the minor-planet format of
 MPCORB.DAT); with several lines, ``object_name`` picks one.
 
-Everything is validated on load; bad input raises :class:`InputError` naming the file and field.
+Everything is validated on load; bad input raises :class:`InputError` naming the file and field. A
+:class:`Target`, :class:`Orbit` or :class:`Brightness` built in Python checks itself against the same
+limits (``ORBIT_LIMITS``, ``BRIGHTNESS_LIMITS``) with the same words.
 """
 
 from __future__ import annotations
 
 import math
-import re
 from dataclasses import dataclass, field
+from datetime import datetime
 from pathlib import Path
 
-import numpy as np
-
+from planner.core.bands import ASTEROID_MEAN_COLOURS, COLOUR_KEYS, SOLAR_COLOURS, SUN_MAG_BY_BAND
 from planner.core.constants import GM_SUN_AU3_D2
 from planner.core.errors import InputError
-from planner.core.timegrid import parse_utc, to_jd_utc
+from planner.core.fileio import read_text
+from planner.core.limits import PYTHON, Limit, check_choice, check_instance, check_limits, source_of
+from planner.core.timegrid import check_orbit_jd
 from planner.core.tomlfile import Fields, read_toml
+from planner.core.units import tdb_jd
+from planner.inputs import mpc
 
 KINDS = ("comet", "asteroid")
 #: Nucleus phase coefficient when a comet file gives M2 but none (common practice: 0.035 mag/deg).
 DEFAULT_PHASE_COEFF_MAG_PER_DEG = 0.035
 #: Asteroid slope parameter when none is given (Bowell et al. 1989 adopt G = 0.15 by default).
 DEFAULT_G = 0.15
+#: Colours of a comet without a ``[colour]`` table: the Sun's (its dust scatters sunlight; common practice).
+DEFAULT_COMET_COLOURS = dict(SOLAR_COLOURS)
+#: Colours of an asteroid without a ``[colour]`` table (planner.core.bands, with its source).
+DEFAULT_ASTEROID_COLOURS = dict(ASTEROID_MEAN_COLOURS)
+#: Bands a brightness law may be stated in (the Sun's table, planner.core.bands).
+LAW_BANDS = tuple(SUN_MAG_BY_BAND)
+#: Nucleus fading with heliocentric distance when a comet file gives M2 but no K2: a bare nucleus fades
+#: as r^-2 (K2 = 5), common practice.
+DEFAULT_K2 = 5.0
+
+ORBIT_LIMITS = {
+    "epoch_tdb_jd": Limit(2_000_000.0, 3_000_000.0),
+    "perihelion_dist_au": Limit(0.0, 1000.0, lo_open=True),
+    "eccentricity": Limit(0.0, 1000.0),
+    "inclination_deg": Limit(0.0, 180.0),
+    "ascending_node_deg": Limit(0.0, 360.0),
+    "arg_perihelion_deg": Limit(0.0, 360.0),
+    "perihelion_tdb_jd": Limit(2_000_000.0, 3_000_000.0),
+}
+BRIGHTNESS_LIMITS = {
+    "M1": Limit(-10.0, 35.0, optional=True),
+    "K1": Limit(0.0, 60.0, optional=True),
+    "M2": Limit(-10.0, 35.0, optional=True),
+    "K2": Limit(0.0, 60.0, optional=True),
+    "phase_coeff_mag_per_deg": Limit(0.0, 0.2, optional=True),
+    "H": Limit(-5.0, 35.0, optional=True),
+    "G": Limit(-0.5, 1.0, optional=True),
+}
+_COMET_LAW_KEYS = ("M1", "K1", "M2", "K2", "phase_coeff_mag_per_deg")
+_ASTEROID_LAW_KEYS = ("H", "G")
 
 
 @dataclass(frozen=True)
@@ -44,6 +79,11 @@ class Orbit:
     ascending_node_deg: float
     arg_perihelion_deg: float
     perihelion_tdb_jd: float
+
+    def __post_init__(self) -> None:
+        for name in ("epoch_tdb_jd", "perihelion_tdb_jd"):  # astropy Time, datetime or ISO text (TDB) too
+            object.__setattr__(self, name, tdb_jd(getattr(self, name), name))
+        check_limits(self, ORBIT_LIMITS, PYTHON)
 
     @property
     def semimajor_axis_au(self) -> float:
@@ -73,6 +113,43 @@ class Brightness:
     phase_coeff_mag_per_deg: float | None = None
     H: float | None = None
     G: float | None = None
+    #: The band the law's magnitudes are in: V for H,G (Bowell et al. 1989); a comet file may say otherwise.
+    law_band: str = "V"
+
+    def __post_init__(self) -> None:
+        check_limits(self, BRIGHTNESS_LIMITS, PYTHON)
+        if (self.M1 is None) != (self.K1 is None):
+            raise InputError(PYTHON, "K1" if self.K1 is None else "M1", "M1 and K1 go together (total magnitude law)")
+        if self.M2 is None and (self.K2 is not None or self.phase_coeff_mag_per_deg is not None):
+            raise InputError(PYTHON, "M2", "missing: K2 and phase_coeff_mag_per_deg need M2 (nuclear magnitude law)")
+        if self.H is None and self.G is not None:
+            raise InputError(PYTHON, "H", "missing: G needs H")
+        if self.M2 is not None:
+            if self.K2 is None:
+                object.__setattr__(self, "K2", DEFAULT_K2)
+            if self.phase_coeff_mag_per_deg is None:
+                object.__setattr__(self, "phase_coeff_mag_per_deg", DEFAULT_PHASE_COEFF_MAG_PER_DEG)
+        if self.H is not None and self.G is None:
+            object.__setattr__(self, "G", DEFAULT_G)
+
+
+@dataclass(frozen=True)
+class NonGrav:
+    """Comet non-gravitational parameters (Marsden, Sekanina & Yeomans 1973): radial A1, transverse A2,
+    normal A3, each in au/day² (the Minor Planet Center quotes them in units of 1e-8 au/day²)."""
+
+    a1_au_per_day2: float = 0.0
+    a2_au_per_day2: float = 0.0
+    a3_au_per_day2: float = 0.0
+
+    @property
+    def is_active(self) -> bool:
+        return bool(self.a1_au_per_day2 or self.a2_au_per_day2 or self.a3_au_per_day2)
+
+
+#: How a target's orbit is carried over the span: integrated under the planets and the Moon (default),
+#: or two-body motion about the Sun (fast, and exact enough far from planets and from the epoch).
+PROPAGATIONS = ("perturbed", "two-body")
 
 
 @dataclass(frozen=True)
@@ -82,6 +159,35 @@ class Target:
     orbit: Orbit
     brightness: Brightness = field(default_factory=Brightness)
     source: str = ""
+    nongrav: NonGrav | None = None
+    propagation: str = "perturbed"
+    #: Colour indices ``{"B-V", "V-R", "R-I"}`` given in the target file (Johnson–Cousins, Vega); None for
+    #: none given. :meth:`colours` fills the rest from the kind's defaults.
+    colour: dict[str, float] | None = None
+
+    def colours(self) -> tuple[dict[str, float], str]:
+        """The colour indices used and where they come from: the file's, else the kind's defaults
+        (:data:`DEFAULT_COMET_COLOURS`, :data:`DEFAULT_ASTEROID_COLOURS`), key by key."""
+        default = DEFAULT_COMET_COLOURS if self.kind == "comet" else DEFAULT_ASTEROID_COLOURS
+        given = self.colour or {}
+        source = "solar (comet default)" if self.kind == "comet" else "C/S-type mean (asteroid default)"
+        if given:
+            source = "target file" if set(given) == set(COLOUR_KEYS) else f"target file, the rest {source}"
+        return {k: float(given.get(k, default[k])) for k in COLOUR_KEYS}, source
+
+    def __post_init__(self) -> None:
+        file = source_of(self)
+        if not isinstance(self.name, str) or not self.name.strip():
+            raise InputError(file, "name", "must not be empty")
+        check_choice(self, "kind", KINDS)
+        check_instance(self, "orbit", Orbit, "an Orbit")
+        check_instance(self, "brightness", Brightness, "a Brightness")
+        foreign = _ASTEROID_LAW_KEYS if self.kind == "comet" else _COMET_LAW_KEYS
+        given = [k for k in foreign if getattr(self.brightness, k) is not None]
+        if given:
+            own = ", ".join(_COMET_LAW_KEYS if self.kind == "comet" else _ASTEROID_LAW_KEYS)
+            raise InputError(file, "brightness", f"a {self.kind} takes {own}, not {', '.join(given)}")
+        check_choice(self, "propagation", PROPAGATIONS)
 
 
 def load_target(path: str | Path, object_name: str | None = None) -> Target:
@@ -100,11 +206,14 @@ def load_target(path: str | Path, object_name: str | None = None) -> Target:
 
 # --------------------------------------------------------------------------------------------- TOML
 
-_TOP_KEYS = {"name", "kind", "orbit", "brightness", "designation", "notes"}
+_TOP_KEYS = {"name", "kind", "orbit", "brightness", "colour", "designation", "notes", "nongrav", "propagation"}
+_NONGRAV_KEYS = {"A1_au_per_day2", "A2_au_per_day2", "A3_au_per_day2"}
 _ORBIT_COMMON = {"epoch", "eccentricity", "inclination_deg", "ascending_node_deg", "arg_perihelion_deg"}
 _ORBIT_COMET = _ORBIT_COMMON | {"perihelion_time", "perihelion_dist_au"}
 _ORBIT_ASTEROID = _ORBIT_COMMON | {"semimajor_axis_au", "mean_anomaly_deg"}
-_BRIGHT_COMET = {"M1", "K1", "M2", "K2", "phase_coeff_mag_per_deg"}
+_BRIGHT_COMET = {"M1", "K1", "M2", "K2", "phase_coeff_mag_per_deg", "law_band"}
+#: Plausible ranges of the colour indices (Solar System bodies lie well inside them).
+_COLOUR_RANGE = {"B-V": (-0.5, 2.0), "V-R": (-0.5, 1.5), "R-I": (-0.5, 1.5)}
 _BRIGHT_ASTEROID = {"H", "G"}
 
 
@@ -112,12 +221,20 @@ def _tdb_jd(f: Fields, key: str) -> float:
     """A TDB instant: ISO 8601 text (read on the TDB scale) or a Julian date number."""
     value = f._get(key, True, None)
     if isinstance(value, (int, float)) and not isinstance(value, bool):
-        jd = f.float(key, required=True, lo=2_000_000.0, hi=3_000_000.0)
-        return jd
+        return check_orbit_jd(f.float(key, required=True), f.file, f.name(key))
     if not isinstance(value, str):
         value = str(value)  # TOML datetimes arrive as datetime objects
-    t = parse_utc(value, f.file, f.name(key))
-    return float(to_jd_utc(np.array([t]))[0])
+    text = value.strip().rstrip("Zz").replace(" ", "T", 1)
+    try:
+        dt = datetime.fromisoformat(text)
+    except ValueError:
+        raise f.error(key, f"{value!r} is not an ISO 8601 time such as 2034-03-10T22:15 or a Julian date") from None
+    if dt.tzinfo is not None:  # a TOML offset datetime: its clock reading, on the TDB scale
+        if dt.utcoffset():
+            raise f.error(key, f"{value!r}: give the instant on the TDB scale, without an offset")
+        dt = dt.replace(tzinfo=None)
+    jd = 2440587.5 + (dt - datetime(1970, 1, 1)).total_seconds() / 86400.0
+    return check_orbit_jd(jd, f.file, f.name(key), value)
 
 
 def _load_toml(path: Path) -> Target:
@@ -129,22 +246,46 @@ def _load_toml(path: Path) -> Target:
     kind = f.str("kind", required=True, choices=KINDS)
     of = f.sub("orbit", required=True)
     of.check_known(_ORBIT_COMET if kind == "comet" else _ORBIT_ASTEROID)
-    ecc = of.float("eccentricity", required=True, lo=0.0, hi=1000.0)
-    incl = of.float("inclination_deg", required=True, lo=0.0, hi=180.0)
-    node = of.float("ascending_node_deg", required=True, lo=0.0, hi=360.0)
-    peri = of.float("arg_perihelion_deg", required=True, lo=0.0, hi=360.0)
+    angles = of.values(
+        {k: ORBIT_LIMITS[k] for k in ("eccentricity", "inclination_deg", "ascending_node_deg", "arg_perihelion_deg")},
+        required=("eccentricity", "inclination_deg", "ascending_node_deg", "arg_perihelion_deg"),
+    )
     epoch = _tdb_jd(of, "epoch")
     if kind == "comet":
-        q = of.float("perihelion_dist_au", required=True, lo=0.0, lo_open=True, hi=1000.0)
+        q = of.limited("perihelion_dist_au", ORBIT_LIMITS["perihelion_dist_au"], required=True)
         tp = _tdb_jd(of, "perihelion_time")
     else:
         a = of.float("semimajor_axis_au", required=True)
         m = of.float("mean_anomaly_deg", required=True, lo=-360.0, hi=360.0)
-        q, tp = _from_mean_anomaly(of, a, ecc, m, epoch)
-    orbit = Orbit(epoch, q, ecc, incl, node, peri, tp)
+        q, tp = _from_mean_anomaly(of, a, angles["eccentricity"], m, epoch)
+    orbit = of.build(Orbit, epoch_tdb_jd=epoch, perihelion_dist_au=q, perihelion_tdb_jd=tp, **angles)
     bf = f.sub("brightness")
     brightness = _brightness_toml(bf, kind) if bf is not None else Brightness()
-    return Target(name=name, kind=kind, orbit=orbit, brightness=brightness, source=str(path))
+    nongrav = None
+    nf = f.sub("nongrav")
+    if nf is not None:
+        nf.check_known(_NONGRAV_KEYS)
+        nongrav = NonGrav(*(nf.float(k, 0.0, lo=-1e-5, hi=1e-5) for k in sorted(_NONGRAV_KEYS)))
+    propagation = f.str("propagation", "perturbed", choices=PROPAGATIONS)
+    cf = f.sub("colour")
+    colour = _colour_toml(cf) if cf is not None else None
+    return Target(
+        name=name,
+        kind=kind,
+        orbit=orbit,
+        brightness=brightness,
+        source=str(path),
+        nongrav=nongrav,
+        propagation=propagation,
+        colour=colour,
+    )
+
+
+def _colour_toml(f: Fields) -> dict[str, float] | None:
+    """``[colour]``: any of B-V, V-R, R-I (Johnson–Cousins, Vega magnitudes)."""
+    f.check_known(COLOUR_KEYS)
+    out = {k: f.float(k, lo=lo, hi=hi) for k, (lo, hi) in _COLOUR_RANGE.items()}
+    return {k: v for k, v in out.items() if v is not None} or None
 
 
 def _from_mean_anomaly(
@@ -178,9 +319,10 @@ def _brightness_toml(f: Fields, kind: str) -> Brightness:
         if m2 is None and (k2 is not None or beta is not None):
             raise f.error("M2", "missing: K2 and phase_coeff_mag_per_deg need M2 (nuclear magnitude law)")
         if m2 is not None:
-            k2 = 5.0 if k2 is None else k2  # a bare nucleus fades as r^-2 (K2 = 5), common practice
+            k2 = DEFAULT_K2 if k2 is None else k2
             beta = DEFAULT_PHASE_COEFF_MAG_PER_DEG if beta is None else beta
-        return Brightness(M1=m1, K1=k1, M2=m2, K2=k2, phase_coeff_mag_per_deg=beta)
+        band = f.str("law_band", "V", choices=LAW_BANDS)
+        return Brightness(M1=m1, K1=k1, M2=m2, K2=k2, phase_coeff_mag_per_deg=beta, law_band=band)
     f.check_known(_BRIGHT_ASTEROID)
     h = f.float("H", lo=-5.0, hi=35.0)
     g = f.float("G", lo=-0.5, hi=1.0)
@@ -193,128 +335,45 @@ def _brightness_toml(f: Fields, kind: str) -> Brightness:
 
 # ------------------------------------------------------------------------------------- MPC lines
 
-_PACKED_EPOCH = re.compile(r"^[IJK]\d\d[1-9A-C][1-9A-V]$")
-_CENTURY = {"I": 1800, "J": 1900, "K": 2000}
 
-
-def _unpack_day(ch: str) -> int:
-    return int(ch) if ch.isdigit() else ord(ch) - ord("A") + 10
-
-
-def _jd_from_calendar(year: int, month: int, day: float) -> float:
-    """Julian date of a Gregorian calendar date with fractional day (Meeus 1998, ch. 7)."""
-    if month <= 2:
-        year -= 1
-        month += 12
-    a = year // 100
-    b = 2 - a + a // 4
-    return math.floor(365.25 * (year + 4716)) + math.floor(30.6001 * (month + 1)) + day + b - 1524.5
-
-
-def _col(line: str, first: int, last: int) -> str:
-    """Columns ``first``–``last`` (1-based, inclusive) as in the MPC format descriptions."""
-    return line[first - 1 : last].strip()
-
-
-def _num(path: Path, line_no: int, line: str, first: int, last: int, what: str, required: bool = True) -> float | None:
-    text = _col(line, first, last)
-    if not text:
-        if required:
-            raise InputError(str(path), f"line {line_no}: {what}", f"columns {first}-{last} are blank")
-        return None
-    try:
-        value = float(text)
-    except ValueError:
-        raise InputError(
-            str(path), f"line {line_no}: {what}", f"{text!r} in columns {first}-{last} is not a number"
-        ) from None
-    if not math.isfinite(value):
-        raise InputError(str(path), f"line {line_no}: {what}", f"{text!r} is not finite")
-    return value
-
-
-def _is_minor_planet_line(line: str) -> bool:
-    return len(line) >= 103 and bool(_PACKED_EPOCH.match(line[20:25]))
-
-
-def _comet_line(path: Path, line_no: int, line: str) -> Target:
-    """MPC one-line comet orbit (the CometEls.txt layout).
-
-    Columns: 15–18 year, 20–21 month, 23–29 day (TT) of perihelion; 31–39 q (au); 42–49 e;
-    52–59 ω, 62–69 Ω, 72–79 i (deg, J2000 ecliptic); 82–89 epoch YYYYMMDD; 92–95 G and 97–100 k
-    with m = G + 5 log Δ + 2.5 k log r; 103–158 designation and name.
-    """
-
-    def num(a: int, b: int, what: str, required: bool = True) -> float | None:
-        return _num(path, line_no, line, a, b, what, required)
-
-    year = num(15, 18, "perihelion year")
-    month = num(20, 21, "perihelion month")
-    day = num(23, 29, "perihelion day")
-    if not (1 <= month <= 12 and 0.0 <= day < 32.0):
-        raise InputError(str(path), f"line {line_no}: perihelion date", f"{year:.0f}-{month:.0f}-{day} is not a date")
-    tp = _jd_from_calendar(int(year), int(month), day)
-    q = num(31, 39, "perihelion distance")
-    ecc = num(42, 49, "eccentricity")
-    peri = num(52, 59, "argument of perihelion")
-    node = num(62, 69, "ascending node")
-    incl = num(72, 79, "inclination")
-    epoch_text = _col(line, 82, 89)
-    if epoch_text:
-        if not re.fullmatch(r"\d{8}", epoch_text):
-            raise InputError(str(path), f"line {line_no}: epoch", f"{epoch_text!r} is not YYYYMMDD")
-        epoch = _jd_from_calendar(int(epoch_text[:4]), int(epoch_text[4:6]), float(epoch_text[6:8]))
+def _load_mpc(path: Path, object_name: str | None) -> Target:
+    """The target of one MPC one-line orbit (layouts and columns in :mod:`planner.inputs.mpc`)."""
+    file = str(path)
+    lines = mpc.orbit_lines(read_text(path, "text file of MPC orbit lines"), file)
+    rec = mpc.read_line(file, *mpc.pick_line(lines, object_name, file))
+    prefix = f"line {rec.line_no}"
+    if rec.layout == mpc.MINOR_PLANET:
+        ecc, a = rec.eccentricity, rec.semimajor_axis_au
+        if ecc < 0 or ecc >= 1.0:
+            raise InputError(
+                file, f"{prefix}: eccentricity", f"{ecc:g} must be in [0, 1) for a minor-planet orbit line"
+            )
+        if a <= 0:
+            raise InputError(file, f"{prefix}: semimajor axis", f"{a:g} must be > 0")
+        q, tp = _from_mean_anomaly(Fields(path, {}, prefix), a, ecc, rec.mean_anomaly_deg, rec.epoch_tdb_jd)
+        kind = "asteroid"
+        h, g = rec.mag_h, rec.mag_g
+        brightness = Brightness(H=h, G=DEFAULT_G if g is None else g) if h is not None else Brightness()
     else:
-        epoch = tp
-    g_mag = num(92, 95, "magnitude G", required=False)
-    k_slope = num(97, 100, "slope k", required=False)
-    name = _col(line, 103, 158) or _col(line, 1, 12)
-    field_prefix = f"line {line_no}"
-    _check_elements(path, field_prefix, q, ecc, incl, node, peri)
-    brightness = Brightness()
-    if g_mag is not None and k_slope is not None:
-        brightness = Brightness(M1=g_mag, K1=2.5 * k_slope)  # m = G + 5 log Δ + 2.5 k log r
-    orbit = Orbit(epoch, q, ecc, incl, node % 360.0, peri % 360.0, tp)
-    return Target(name=name, kind="comet", orbit=orbit, brightness=brightness, source=str(path))
+        q, tp = rec.perihelion_dist_au, rec.perihelion_tdb_jd
+        kind = "comet"
+        brightness = Brightness()
+        if rec.mag_g is not None and rec.slope_k is not None:
+            brightness = Brightness(M1=rec.mag_g, K1=2.5 * rec.slope_k)  # m = G + 5 log Δ + 2.5 k log r
+    incl, node, peri = rec.inclination_deg, rec.ascending_node_deg, rec.arg_perihelion_deg
+    _check_elements(path, prefix, q, rec.eccentricity, incl, node, peri)
+    orbit = Orbit(rec.epoch_tdb_jd, q, rec.eccentricity, incl, node % 360.0, peri % 360.0, tp)
+    return Target(name=rec.name, kind=kind, orbit=orbit, brightness=brightness, source=file)
 
 
-def _minor_planet_line(path: Path, line_no: int, line: str) -> Target:
-    """MPC one-line minor-planet orbit (the MPCORB.DAT layout).
-
-    Columns: 1–7 packed designation; 9–13 H; 15–19 G; 21–25 packed epoch (0h TT); 27–35 mean
-    anomaly M; 38–46 ω; 49–57 Ω; 60–68 i (deg, J2000 ecliptic); 71–79 e; 93–103 a (au);
-    167–194 readable designation.
-    """
-
-    def num(a: int, b: int, what: str, required: bool = True) -> float | None:
-        return _num(path, line_no, line, a, b, what, required)
-
-    h = num(9, 13, "H", required=False)
-    g = num(15, 19, "G", required=False)
-    packed = line[20:25]
-    epoch = _jd_from_calendar(
-        _CENTURY[packed[0]] + int(packed[1:3]), _unpack_day(packed[3]), float(_unpack_day(packed[4]))
-    )
-    m = num(27, 35, "mean anomaly")
-    peri = num(38, 46, "argument of perihelion")
-    node = num(49, 57, "ascending node")
-    incl = num(60, 68, "inclination")
-    ecc = num(71, 79, "eccentricity")
-    a = num(93, 103, "semimajor axis")
-    field_prefix = f"line {line_no}"
-    if ecc < 0 or ecc >= 1.0:
-        raise InputError(
-            str(path), f"{field_prefix}: eccentricity", f"{ecc:g} must be in [0, 1) for a minor-planet orbit line"
-        )
-    if a <= 0:
-        raise InputError(str(path), f"{field_prefix}: semimajor axis", f"{a:g} must be > 0")
-    fields = Fields(path, {}, field_prefix)
-    q, tp = _from_mean_anomaly(fields, a, ecc, m, epoch)
-    _check_elements(path, field_prefix, q, ecc, incl, node, peri)
-    name = _col(line, 167, 194) or _col(line, 1, 7)
-    brightness = Brightness(H=h, G=DEFAULT_G if g is None else g) if h is not None else Brightness()
-    orbit = Orbit(epoch, q, ecc, incl, node % 360.0, peri % 360.0, tp)
-    return Target(name=name, kind="asteroid", orbit=orbit, brightness=brightness, source=str(path))
+def _built(path: Path, line_no: int, cls: type, *args, **kwargs):
+    """``cls(...)`` for an orbit line; an error about one of its fields names the file and the line."""
+    try:
+        return cls(*args, **kwargs)
+    except InputError as exc:
+        if exc.file != PYTHON:
+            raise
+        raise InputError(str(path), f"line {line_no}: {exc.field}", exc.message) from None
 
 
 def _check_elements(path: Path, prefix: str, q: float, ecc: float, incl: float, node: float, peri: float) -> None:
@@ -328,49 +387,3 @@ def _check_elements(path: Path, prefix: str, q: float, ecc: float, incl: float, 
     for what, ok, message in checks:
         if not ok:
             raise InputError(str(path), f"{prefix}: {what}", message)
-
-
-def _load_mpc(path: Path, object_name: str | None) -> Target:
-    try:
-        text = path.read_text(encoding="utf-8", errors="replace")
-    except FileNotFoundError:
-        raise InputError(str(path), "-", "file not found") from None
-    except IsADirectoryError:
-        raise InputError(str(path), "-", "is a folder, expected a text file of MPC orbit lines") from None
-    lines = [
-        (i + 1, ln.rstrip("\r\n"))
-        for i, ln in enumerate(text.splitlines())
-        if ln.strip() and not ln.lstrip().startswith("#")
-    ]
-    if not lines:
-        raise InputError(str(path), "-", "no orbit lines (expected MPC one-line comet or minor-planet orbits)")
-    if object_name is not None:
-        wanted = object_name.strip().lower()
-        picked = [(n, ln) for n, ln in lines if wanted in ln.lower()]
-        exact = [(n, ln) for n, ln in picked if _line_name(ln).lower() == wanted]
-        picked = exact or picked
-        if not picked:
-            raise InputError(str(path), "object", f"no line mentions {object_name!r}")
-        if len(picked) > 1:
-            names = ", ".join(_line_name(ln) for _, ln in picked[:5])
-            raise InputError(
-                str(path), "object", f"{object_name!r} matches {len(picked)} lines ({names}); be more specific"
-            )
-        lines = picked
-    elif len(lines) > 1:
-        names = ", ".join(_line_name(ln) for _, ln in lines[:5]) + (", ..." if len(lines) > 5 else "")
-        raise InputError(
-            str(path), "object", f"the file holds {len(lines)} orbit lines ({names}); pick one with --object NAME"
-        )
-    line_no, line = lines[0]
-    if _is_minor_planet_line(line):
-        return _minor_planet_line(path, line_no, line)
-    if len(line) < 79:
-        raise InputError(str(path), f"line {line_no}", "too short for an MPC one-line comet or minor-planet orbit")
-    return _comet_line(path, line_no, line)
-
-
-def _line_name(line: str) -> str:
-    if _is_minor_planet_line(line):
-        return _col(line, 167, 194) or _col(line, 1, 7)
-    return _col(line, 103, 158) or _col(line, 1, 12)

@@ -4,8 +4,11 @@ Each candidate period keeps its own fitted model (M, K1 and harmonics at its fre
 times the models predict different magnitudes; the Δχ² a pair would give, Σ (m_i − m_j)²/σ², is
 the design criterion of Atkinson & Fedorov (1975), Biometrika 62, 57 (T-optimality) with the
 parameters held at their fitted values. The least of it over all pairs says how well the worst-
-separated pair would be told apart. Zero points of new nights are left out (the models are at the
-reference site and zero nightly offset).
+separated pair would be told apart. The models are at the reference site and zero nightly offset.
+With ``groups`` (one label per new point, e.g. its site-night) each group has a free zero point of
+its own, as a new night's offset in the fit: the weighted mean of m_i − m_j within each group is
+removed before squaring (the nuisance offset profiled out), so a constant difference between two
+models, which such an offset absorbs, counts for nothing.
 """
 
 from __future__ import annotations
@@ -57,11 +60,19 @@ def candidate_mags(
     return out
 
 
-def pairwise_delta_chi2(model_mags: np.ndarray, sigma_mag: np.ndarray | float) -> np.ndarray:
-    """(C, C) Σ_t (m_i − m_j)²/σ² from one Gram matrix of the models centred on their mean."""
+def pairwise_delta_chi2(
+    model_mags: np.ndarray, sigma_mag: np.ndarray | float, groups: np.ndarray | None = None
+) -> np.ndarray:
+    """(C, C) Σ_t (m_i − m_j)²/σ² from one Gram matrix of the models centred on their mean; with
+    ``groups``, each model is first centred on its weighted mean within every group (free offsets)."""
     m = np.atleast_2d(np.asarray(model_mags, dtype=float))
     w = 1.0 / np.broadcast_to(np.asarray(sigma_mag, dtype=float), m.shape[1:]) ** 2
     c = m - m.mean(axis=0, keepdims=True)
+    if groups is not None:
+        _, index = np.unique(np.asarray(groups, dtype=str), return_inverse=True)
+        sw = np.bincount(index, weights=w)
+        means = np.stack([np.bincount(index, weights=w * row) for row in c]) / sw
+        c = c - means[:, index]
     g = (c * w) @ c.T
     d = np.diag(g)
     return np.maximum(d[:, None] + d[None, :] - 2 * g, 0.0)
@@ -72,11 +83,13 @@ def expected_min_delta_chi2(
     sigma_mag: np.ndarray | float,
     models: Sequence[CandidateModel],
     helio_dist_au: np.ndarray | float,
+    groups: np.ndarray | None = None,
 ) -> float:
-    """min over candidate pairs of Σ (m_i − m_j)²/σ² at the new times (∞ with fewer than two)."""
+    """min over candidate pairs of Σ (m_i − m_j)²/σ² at the new times (∞ with fewer than two);
+    ``groups``: a free zero point per group (module docstring)."""
     if len(models) < 2:
         return math.inf
-    d = pairwise_delta_chi2(candidate_mags(models, emission_jd, helio_dist_au), sigma_mag)
+    d = pairwise_delta_chi2(candidate_mags(models, emission_jd, helio_dist_au), sigma_mag, groups)
     return float(d[np.triu_indices(len(models), 1)].min())
 
 
@@ -85,11 +98,14 @@ def expected_min_delta_chi2_slow(
     sigma_mag: np.ndarray | float,
     models: Sequence[CandidateModel],
     helio_dist_au: np.ndarray | float,
+    groups: np.ndarray | None = None,
 ) -> float:
-    """Slow twin: every pair, every time, each model evaluated term by term."""
+    """Slow twin: every pair, every group, every time, each model evaluated term by term; a group's
+    weighted mean difference is subtracted before squaring."""
     t = np.atleast_1d(np.asarray(emission_jd, dtype=float))
     s = np.broadcast_to(np.asarray(sigma_mag, dtype=float), t.shape)
     r = np.broadcast_to(np.asarray(helio_dist_au, dtype=float), t.shape)
+    labels = [None] * t.size if groups is None else [str(x) for x in np.ravel(groups)]
 
     def mag(m: CandidateModel, ti: float, ri: float) -> float:
         value = m.mean_mag + (m.k1 if math.isfinite(m.k1) else 0.0) * (math.log10(ri) - m.log10_r_ref)
@@ -102,9 +118,12 @@ def expected_min_delta_chi2_slow(
     best = math.inf
     for i in range(len(models)):
         for j in range(i + 1, len(models)):
-            total = sum(
-                (mag(models[i], ti, ri) - mag(models[j], ti, ri)) ** 2 / si**2
-                for ti, ri, si in zip(t, r, s, strict=True)
-            )
+            total = 0.0
+            for label in dict.fromkeys(labels):
+                rows = [k for k, x in enumerate(labels) if x == label]
+                diff = [mag(models[i], t[k], r[k]) - mag(models[j], t[k], r[k]) for k in rows]
+                weight = [1.0 / s[k] ** 2 for k in rows]
+                mean = 0.0 if groups is None else sum(a * b for a, b in zip(diff, weight, strict=True)) / sum(weight)
+                total += sum(b * (a - mean) ** 2 for a, b in zip(diff, weight, strict=True))
             best = min(best, total)
     return best

@@ -40,6 +40,16 @@ SITE_STYLES: list[tuple[str, str]] = [
     ("#b9c4a0", "++"),
 ]
 
+#: Marker per site for scattered points (light-curve figures), in the order of SITE_STYLES: shape and
+#: colour both differ, so sites stay apart in greyscale.
+SITE_MARKERS = ("o", "s", "D", "^", "v", "P")
+
+
+def site_style(i: int) -> tuple[str, str]:
+    """(colour, marker) of the i-th site of a figure."""
+    return SITE_STYLES[i % len(SITE_STYLES)][0], SITE_MARKERS[i % len(SITE_MARKERS)]
+
+
 #: Sun-altitude levels (deg) and the grey used below each: day, civil, nautical, astronomical, night.
 DARKNESS_LEVELS_DEG = (-0.833, -6.0, -12.0, -18.0)
 DARKNESS_GREYS = ("#ffffff", "#ececec", "#d9d9d9", "#c4c4c4", "#b0b0b0")
@@ -136,12 +146,21 @@ def svg_bytes(fig: Figure) -> bytes:
     return buf.getvalue()
 
 
-def check_times_utc(check: dict, fallback: np.ndarray) -> np.ndarray:
-    """The observation times a check result was computed from (its ``input.times_utc``), else ``fallback``."""
-    listed = (check.get("input") or {}).get("times_utc")
-    if listed:
-        return np.array([str(t).rstrip("Z") for t in listed], dtype="datetime64[ns]")
-    return np.asarray(fallback, dtype="datetime64[ns]")
+def check_times_utc(check: dict, fallback: np.ndarray, *, emission: bool = False) -> np.ndarray:
+    """The observation times a check result was computed from (its ``input.times_utc``), else ``fallback``.
+
+    ``emission``: minus the light time the check subtracted (``input.light_time_minutes``), i.e. the
+    times its periods were computed on.
+    """
+    inp = check.get("input") or {}
+    listed = inp.get("times_utc")
+    if not listed:
+        return np.asarray(fallback, dtype="datetime64[ns]")
+    times = np.array([str(t).rstrip("Z") for t in listed], dtype="datetime64[ns]")
+    light = inp.get("light_time_minutes")
+    if emission and light and len(light) == times.size:
+        times = times - np.round(np.asarray(light, dtype=float) * 60e9).astype("int64").astype("timedelta64[ns]")
+    return times
 
 
 def phase_occupancy(times_utc: np.ndarray, periods_h: np.ndarray, n_bins: int) -> np.ndarray:

@@ -62,7 +62,7 @@ def coverage_figure(series: Sequence[Series]) -> Figure:
         edges = period_edges(periods[rows])
         lo, hi = min(lo, edges[0]), max(hi, edges[-1])
         n_bins = int((s.check.get("settings") or {}).get("phase_bins", 20))
-        occupied = phase_occupancy(check_times_utc(s.check, s.times_utc), periods[rows], n_bins)
+        occupied = phase_occupancy(check_times_utc(s.check, s.times_utc, emission=True), periods[rows], n_bins)
         ax.pcolormesh(
             np.linspace(0, 1, n_bins + 1),
             edges,
@@ -110,7 +110,7 @@ def spectral_window_figure(series: Sequence[Series], max_freq_per_day: float = 5
         if window.get("freq_per_day") and window.get("height"):
             f, w = floats(window["freq_per_day"]), floats(window["height"])
         else:
-            f, w = grid, spectral_window(to_jd_utc(check_times_utc(s.check, s.times_utc)), grid)
+            f, w = grid, spectral_window(to_jd_utc(check_times_utc(s.check, s.times_utc, emission=True)), grid)
         top = s.check.get("highest_alias") or {}
         if top.get("min_freq_per_day"):
             # Below 2/span the peaks are the central lobe's sidelobes, shared by any campaign of that span.
@@ -164,13 +164,18 @@ _VERDICT_STYLE = {
 def recovery_figure(
     series: Sequence[Series], min_period_h: float | None = None, max_period_h: float | None = None
 ) -> Figure:
-    """Injection–recovery fraction against period, one line per schedule, band verdicts as strips below."""
+    """Injection–recovery fraction against period, one line per schedule (dotted: the share found at P/2,
+    not counted as recovered), band verdicts as strips below."""
     fig = new_figure(8.5, 4.4)
     ax, strip = fig.subplots(2, 1, sharex=True, gridspec_kw=dict(height_ratios=[4, 0.35 * len(series) + 0.3]))
     for s in series:
         rec = s.check.get("recovery", [])
         if rec:
-            ax.plot(floats([r["period_h"] for r in rec]), floats([r["fraction"] for r in rec]), **s.line_kw())
+            periods = floats([r["period_h"] for r in rec])
+            ax.plot(periods, floats([r["fraction"] for r in rec]), **s.line_kw())
+            half = floats([r.get("fraction_at_half_period") for r in rec])
+            if np.nansum(half) > 0:  # found at P/2: reported apart, not a recovery
+                ax.plot(periods, half, color=s.color, linestyle=":", linewidth=1.2, label=f"{s.label}: found P/2")
     ax.set_xscale("log")
     ax.set_ylim(-0.02, 1.05)
     ax.set_ylabel("recovered fraction")

@@ -43,7 +43,8 @@ def num(value, src: str, digits: int = 3, unit: str = "") -> str:
     )
 
 
-def json_num(diag: dict, path: str, digits: int = 3, unit: str = "") -> str:
+def json_num(diag: dict, path: str, digits: int = 3, unit: str = "", file: str = "diagnostics.json") -> str:
+    """The number at dotted ``path`` of a JSON document, its origin ``FILE:path``; a dash when absent."""
     value: object = diag
     for key in path.split("."):
         if isinstance(value, dict) and key in value:
@@ -52,7 +53,7 @@ def json_num(diag: dict, path: str, digits: int = 3, unit: str = "") -> str:
             value = value[int(key)]
         else:
             return '<span class="missing">—</span>'
-    return num(value, f"diagnostics.json:{path}", digits, unit)
+    return num(value, f"{file}:{path}", digits, unit)
 
 
 def figure_html(fig, fig_id: str, caption: str, alt: str) -> str:
@@ -144,7 +145,9 @@ ul.key li { display: flex; align-items: center; gap: .4rem; }
 """
 
 
-def page(title: str, subtitle: str, toc: Sequence[tuple[str, str]], body: str) -> str:
+def page(title: str, subtitle: str, toc: Sequence[tuple[str, str]], body: str, version: str | None = None) -> str:
+    """The report page; ``version`` is the phasewise version that wrote the files (shown in the footer)."""
+    by = f"Written by phasewise {html.escape(str(version))}; rendered" if version else "Rendered by phasewise"
     nav = "".join(f'<li><a href="#{a}">{html.escape(t)}</a></li>' for a, t in toc)
     return (
         '<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
@@ -153,6 +156,6 @@ def page(title: str, subtitle: str, toc: Sequence[tuple[str, str]], body: str) -
         f'<header><h1>{html.escape(title)}</h1><p class="sub">{subtitle}</p>'
         f'<div class="caution" role="note"><strong>Sun safety.</strong> {html.escape(SUN_SAFETY_TEXT)}</div>'
         f"<nav><ol>{nav}</ol></nav></header><main>{body}</main>"
-        '<footer><p class="sub">Rendered by phasewise from the files in this folder. Times are UTC unless '
+        f'<footer><p class="sub">{by} from the files in this folder. Times are UTC unless '
         "marked local.</p></footer></body></html>\n"
     )

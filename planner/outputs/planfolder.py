@@ -12,34 +12,46 @@ import json
 import os
 import shutil
 import tempfile
+from datetime import UTC, datetime
 from pathlib import Path
 
 from planner.core.errors import InputError
+from planner.core.fileio import PART_SUFFIX, check_writable, signals_held, temp_prefix
 from planner.core.jsonsafe import json_safe
 from planner.core.version import __version__
 from planner.outputs import layout
+from planner.outputs.calendar import site_calendar
+from planner.outputs.fitdoc import fit_document
 from planner.outputs.report import write_report
 from planner.outputs.sheets import site_sheet
-from planner.outputs.tablefiles import PLAN_CSV_FLOAT_FORMAT, csv_text, records, table_for_files
+from planner.outputs.tablefiles import PLAN_CSV_FLOAT_FORMAT, csv_text, ecsv_text, records, table_for_files
 from planner.pipeline import PlanResult
 from planner.sky.brightness import law_name, law_params
 
 
 def diagnostics_json(result: PlanResult) -> dict:
-    """diagnostics.json: both checks, the objective, weather robustness, comparison, re-plan, timings."""
-    return json_safe(
-        {
-            "schema_version": layout.SCHEMA_VERSION,
-            "phasewise_version": __version__,
-            "plan": result.checks["plan"].to_dict(),
-            "baseline": result.checks["baseline"].to_dict(),
-            "objective": result.objective.to_dict(),
-            "robustness": {k: v.to_dict() for k, v in result.robustness.items()},
-            "comparison": result.comparison.to_dict(),
-            "replan": None if result.replan is None else result.replan.to_dict(),
-            "timings_s": result.timings_s,
-        }
-    )
+    """diagnostics.json: both checks, the objective, weather robustness, comparison, re-plan, timings, and
+    (re-planning from a log with magnitudes) how well plan and baseline tell the candidate periods apart."""
+    doc = {
+        "schema_version": layout.SCHEMA_VERSION,
+        "phasewise_version": __version__,
+        "plan": result.checks["plan"].to_dict(),
+        "baseline": result.checks["baseline"].to_dict(),
+        "objective": result.objective.to_dict(),
+        "robustness": {k: v.to_dict() for k, v in result.robustness.items()},
+        "comparison": result.comparison.to_dict(),
+        "replan": None if result.replan is None else result.replan.to_dict(),
+        "timings_s": result.timings_s,
+    }
+    if result.discrimination is not None:
+        doc["discrimination"] = result.discrimination.to_dict()
+    return json_safe(doc)
+
+
+def lightcurve_json(result: PlanResult) -> dict | None:
+    """lightcurve.json: the fit of the re-plan's log with its arrays (None without magnitudes)."""
+    lc = result.light_curve
+    return None if lc is None else fit_document(lc.fit, lc.curve, lc.settings)
 
 
 def plan_manifest(result: PlanResult) -> dict:
@@ -54,7 +66,7 @@ def plan_manifest(result: PlanResult) -> dict:
                 "first_night": c.first_night.isoformat(),
                 "nights": c.nights,
                 "seed": c.seed,
-                "file": layout.CAMPAIGN_COPY,
+                "file": layout.CAMPAIGN_COPY if c.path is not None else None,
             },
             "target": {
                 "name": t.name,
@@ -73,14 +85,18 @@ def plan_manifest(result: PlanResult) -> dict:
                     "min_alt_deg": s.min_alt_deg,
                     "min_solar_elong_deg": s.min_solar_elong_deg,
                     "twilight": s.twilight,
-                    "sheet": f"{layout.SHEETS_DIR}/{layout.sheet_name(s.name)}",
+                    "sheet": f"{layout.SHEETS_DIR}/{layout.sheet_name(s.name, [x.name for x in c.sites])}",
                 }
                 for s in c.sites
             ],
             "settings": {
                 "rotation": dataclasses.asdict(c.rotation),
                 "blocks": dataclasses.asdict(c.block_rules),
-                "weights": dataclasses.asdict(c.weights),
+                "weights": {
+                    k: v
+                    for k, v in dataclasses.asdict(c.weights).items()
+                    if k != "discrimination" or result.light_curve is not None
+                },
                 "photometry": dataclasses.asdict(c.photometry),
                 "max_gap_h": c.max_gap_h,
                 "weather_trials": c.weather_trials,
@@ -88,6 +104,7 @@ def plan_manifest(result: PlanResult) -> dict:
                 "total_hours": dict(c.total_hours),
             },
             "replan": None if result.replan is None else result.replan.to_dict(),
+            "notes": list(result.notes),
             "blocks": records(result.blocks),
         }
     )
@@ -97,23 +114,54 @@ def _write_json(path: Path, doc: dict) -> None:
     path.write_text(json.dumps(doc, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
 
 
+def _ecsv_meta(result: PlanResult, table: str) -> dict:
+    """What an ECSV twin says about itself: which table of which plan, by which version."""
+    return {
+        "table": table,
+        "campaign": result.campaign.name,
+        "target": result.target.name,
+        "phasewise_version": __version__,
+        "schema_version": layout.SCHEMA_VERSION,
+    }
+
+
 def _write_folder(result: PlanResult, folder: Path) -> None:
     (folder / layout.SHEETS_DIR).mkdir(parents=True)
-    table_for_files(result.blocks).to_csv(folder / layout.PLAN_CSV, index=False, float_format=PLAN_CSV_FLOAT_FORMAT)
-    _write_json(folder / layout.MANIFEST_JSON, plan_manifest(result))
-    table_for_files(result.baseline).to_csv(
-        folder / layout.BASELINE_CSV, index=False, float_format=PLAN_CSV_FLOAT_FORMAT
-    )
-    _write_json(folder / layout.DIAGNOSTICS_JSON, diagnostics_json(result))
-    table_for_files(result.windows).to_csv(folder / layout.WINDOWS_CSV, index=False)
-    (folder / layout.GEOMETRY_CSV).write_text(csv_text(table_for_files(result.geometry), "%.6g"))
+    (folder / layout.CALENDARS_DIR).mkdir()
+    tables = {
+        layout.PLAN_CSV: (result.blocks, PLAN_CSV_FLOAT_FORMAT),
+        layout.BASELINE_CSV: (result.baseline, PLAN_CSV_FLOAT_FORMAT),
+        layout.WINDOWS_CSV: (result.windows, None),
+        layout.GEOMETRY_CSV: (result.geometry, "%.6g"),
+    }
+    for name, (df, float_format) in tables.items():
+        if name == layout.GEOMETRY_CSV:  # the long table: one formatting pass per column (same text)
+            (folder / name).write_text(csv_text(table_for_files(df), float_format), encoding="utf-8")
+        else:
+            table_for_files(df).to_csv(folder / name, index=False, float_format=float_format)
     result.nights.to_csv(folder / layout.NIGHTS_CSV, index=False, float_format="%.4g")
-    shutil.copyfile(result.campaign.path, folder / layout.CAMPAIGN_COPY)
-    if result.campaign.target_path.suffix.lower() == ".toml":
+    tables[layout.NIGHTS_CSV] = (result.nights, "%.4g")
+    for name in layout.ECSV_TWINS:
+        df, float_format = tables[name]
+        ecsv = ecsv_text(df, _ecsv_meta(result, name.removesuffix(".csv")), float_format)
+        (folder / layout.ecsv_twin(name)).write_text(ecsv, encoding="utf-8")
+    _write_json(folder / layout.MANIFEST_JSON, plan_manifest(result))
+    _write_json(folder / layout.DIAGNOSTICS_JSON, diagnostics_json(result))
+    curve = lightcurve_json(result)
+    if curve is not None:
+        _write_json(folder / layout.LIGHTCURVE_JSON, curve)
+    if result.campaign.path is not None:  # a campaign built in Python has no file to copy
+        shutil.copyfile(result.campaign.path, folder / layout.CAMPAIGN_COPY)
+    if result.campaign.target_path is not None and result.campaign.target_path.suffix.lower() == ".toml":
         shutil.copyfile(result.campaign.target_path, folder / layout.TARGET_COPY)
+    stamp = datetime.now(UTC)
+    names = [s.name for s in result.campaign.sites]
     for site in result.campaign.sites:
-        (folder / layout.SHEETS_DIR / layout.sheet_name(site.name)).write_text(
+        (folder / layout.SHEETS_DIR / layout.sheet_name(site.name, names)).write_text(
             site_sheet(result, site), encoding="utf-8"
+        )
+        (folder / layout.CALENDARS_DIR / layout.calendar_name(site.name, names)).write_bytes(
+            site_calendar(result, site, stamp).encode("utf-8")
         )
     write_report(folder)  # last: rendered from the files above alone, inside the not-yet-renamed folder
 
@@ -135,25 +183,30 @@ def write_plan_folder(result: PlanResult, out: str | Path, force: bool = False) 
     Path
         ``out``.
     """
-    out = Path(out)
-    if out.exists() and not out.is_dir():
-        raise InputError(str(out), "--out", "exists and is not a folder")
+    out = check_writable(out, folder=True)
     if out.is_dir() and any(out.iterdir()) and not force:
         raise InputError(str(out), "--out", "folder is not empty (use --force to replace it)")
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", suffix=".site_night", dir=out.parent))
+    try:
+        out.parent.mkdir(parents=True, exist_ok=True)
+        tmp = Path(tempfile.mkdtemp(prefix=temp_prefix(out), suffix=PART_SUFFIX, dir=out.parent))
+    except OSError as exc:
+        raise InputError(str(out), "--out", f"cannot write ({exc.strerror or exc})") from None
     try:
         _write_folder(result, tmp / "plan")
-        if out.is_dir():
-            old = tmp / "old"
-            os.replace(out, old)
-            try:
+        with signals_held():  # the old folder goes only once the new one is in place
+            if out.is_dir():
+                old = tmp / "old"
+                os.replace(out, old)
+                try:
+                    os.replace(tmp / "plan", out)
+                except BaseException:
+                    os.replace(old, out)
+                    raise
+            else:
                 os.replace(tmp / "plan", out)
-            except BaseException:
-                os.replace(old, out)
-                raise
-        else:
-            os.replace(tmp / "plan", out)
+    except OSError as exc:
+        raise InputError(str(out), "--out", f"cannot write ({exc.strerror or exc})") from None
     finally:
-        shutil.rmtree(tmp, ignore_errors=True)
+        with signals_held():
+            shutil.rmtree(tmp, ignore_errors=True)
     return out

@@ -34,6 +34,8 @@ class PlanFolder:
     windows: pd.DataFrame | None = None
     geometry: pd.DataFrame | None = None
     sheets: list[str] = field(default_factory=list)
+    #: lightcurve.json (the fit of a re-plan's log with magnitudes), when the folder has one.
+    lightcurve: dict | None = None
 
     @property
     def target_name(self) -> str:
@@ -145,6 +147,7 @@ def load_plan_folder(plan_dir: str | Path) -> PlanFolder:
         windows=optional(layout.WINDOWS_CSV, _BLOCK_COLUMNS),
         geometry=optional(layout.GEOMETRY_CSV, ("site", "time_utc")),
         sheets=sorted(p.name for p in sheets_dir.glob("*.txt")) if sheets_dir.is_dir() else [],
+        lightcurve=_read_json(d / layout.LIGHTCURVE_JSON) if (d / layout.LIGHTCURVE_JSON).exists() else None,
     )
 
 

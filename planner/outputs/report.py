@@ -22,6 +22,7 @@ from planner.outputs.figstyle import baseline_series, check_times_utc, log_serie
 from planner.outputs.htmlparts import json_num, num, page, table
 from planner.outputs.reader import PlanFolder, load_plan_folder
 from planner.outputs.report_diag import DIAG_TOC, diagnostics_sections
+from planner.outputs.report_fit import FIT_TOC, replan_lightcurve_section
 from planner.outputs.report_nights import nights_section
 from planner.outputs.report_sections import (
     blocks_section,
@@ -77,6 +78,8 @@ def cautions_section(pf: PlanFolder) -> str:
                     f"<li><strong>{html.escape(title)}:</strong> {'; '.join(flagged)}; "
                     f"{html.escape(CAUTION_TEXT[kind])}.</li>"
                 )
+    for note in pf.manifest.get("notes") or []:
+        items.append(f"<li><strong>Orbit:</strong> {html.escape(str(note))}.</li>")
     w = pf.windows
     if w is not None and "caution" in w:
         notes: dict[str, list[str]] = {}
@@ -107,9 +110,14 @@ def render_report(plan_dir: str | Path) -> str:
         series.append(baseline_series(check=diag["baseline"]))
         keys.append("baseline")
     rot = pf.rotation
+    if pf.lightcurve is not None:  # re-planned from a light curve: the checks looked at the candidates' range
+        checked = diag["plan"].get("settings") or {}
+        rot = {**rot, **{k: checked[k] for k in ("min_period_h", "max_period_h") if k in checked}}
+    curve = [] if pf.lightcurve is None else [replan_lightcurve_section(pf.lightcurve, diag, cache)]
     body = "\n".join(
         [
             summary_section(pf),
+            *curve,
             geometry_section(pf, cache),
             nights_section(pf, cache),
             timeline_section(pf, cache),
@@ -122,6 +130,7 @@ def render_report(plan_dir: str | Path) -> str:
     subtitle = html.escape(pf.campaign_name) + f" · {len(pf.sites)} sites · {len(pf.nights)} nights"
     toc = [
         ("summary", "Campaign summary"),
+        *([] if pf.lightcurve is None else FIT_TOC),
         ("geometry", "Geometry over the span"),
         ("nights", "Night charts"),
         ("timeline", "Network timeline"),
@@ -129,7 +138,7 @@ def render_report(plan_dir: str | Path) -> str:
         ("table", "Night by night"),
         ("cautions", "Cautions"),
     ]
-    return page(title, subtitle, toc, body)
+    return page(title, subtitle, toc, body, version=pf.manifest.get("phasewise_version"))
 
 
 def write_report(plan_dir: str | Path) -> Path:
@@ -169,4 +178,5 @@ def render_check_report(check: dict, title: str = "Sampling check", source: str 
     body += diagnostics_sections([s], [""], settings.get("min_period_h"), settings.get("max_period_h"))
     body += '<section id="cautions"><h2>Cautions</h2><ul><li>' + html.escape(SUN_SAFETY_TEXT) + "</li></ul></section>"
     subtitle = f"{times.size} observation times" + (f" from {html.escape(source)}" if source else "")
-    return page(title, subtitle, [("summary", "What was checked"), *DIAG_TOC, ("cautions", "Cautions")], body)
+    toc = [("summary", "What was checked"), *DIAG_TOC, ("cautions", "Cautions")]
+    return page(title, subtitle, toc, body, version=check.get("phasewise_version"))

@@ -98,6 +98,8 @@ def diagnostics_sections(
                     + "–"
                     + jnum(key, s.check, f"bands.{i}.max_period_h", 2),
                     f'<span class="verdict-{html.escape(verdict)}">{html.escape(verdict)}</span>',
+                    jnum(key, s.check, f"bands.{i}.recovery_fraction", 2),
+                    jnum(key, s.check, f"bands.{i}.half_period_fraction", 2),
                     ", ".join(jnum(key, s.check, f"bands.{i}.confusable_periods_h.{j}", 3) for j in range(len(conf)))
                     or "—",
                 ]
@@ -109,12 +111,15 @@ def diagnostics_sections(
             (*inputs, min_period_h, max_period_h),
             lambda: figures_diag.recovery_figure(series, min_period_h, max_period_h),
             "fig-recovery",
-            "Fraction of synthetic light curves whose period is recovered, against period; strips below: the "
-            "verdict per period band (blank: secure; hatched grey: alias-prone; dark crossed: "
-            "under-covered).",
+            "Fraction of synthetic light curves whose rotation period is recovered, against period (dotted: "
+            "the share found at half the period, which a double-peaked curve with two alike halves gives and "
+            "which does not count as recovered); strips below: the verdict per period band (blank: secure; "
+            "hatched grey: alias-prone; dark crossed: under-covered).",
             "Recovery fraction against period",
         )
-        + table(["schedule", "periods (h)", "verdict", "confusable with (h)"], band_rows, "bands")
+        + table(
+            ["schedule", "periods (h)", "verdict", "recovered", "found P/2", "confusable with (h)"], band_rows, "bands"
+        )
         + "</section>"
     )
     trow = []

@@ -64,3 +64,73 @@ def _cell(x) -> str:
     if x is None or x is pd.NA or (isinstance(x, float) and x != x):
         return ""
     return str(x)
+
+
+def _time_column(values):
+    """A UTC column (datetime64 or ISO text, empty = missing) as an astropy ``Time`` in ISO format."""
+    from astropy.time import Time
+
+    from planner.core.units import quiet_leap_seconds
+
+    t = pd.to_datetime(pd.Series(values), utc=True, errors="coerce").dt.tz_localize(None)
+    with quiet_leap_seconds():
+        out = Time(t.to_numpy(dtype="datetime64[ns]"), scale="utc", format="datetime64")
+        out.format = "isot"
+    return out
+
+
+def as_qtable(table, meta: dict | None = None):
+    """A table as an astropy ``QTable`` with units: numeric columns become Quantities in the unit their
+    name carries (:func:`planner.core.units.unit_of`: ``alt_deg`` in deg, ``exposure_s`` in s), ``*_utc``
+    columns become ``Time`` (UTC), text and flags stay as they are.
+
+    ``table`` is a DataFrame, or a ``geometry()`` result (a dict of DataFrames per site, joined with a
+    leading ``site`` column). The DataFrame's ``attrs`` and ``meta`` go into the table's ``meta``.
+    """
+    from astropy import units as u
+    from astropy.table import QTable
+
+    from planner.core.units import unit_of
+
+    if isinstance(table, dict):
+        first = next(iter(table.values()), pd.DataFrame())
+        df = pd.concat([f.assign(site=name)[["site", *f.columns]] for name, f in table.items()], ignore_index=True)
+        df.attrs = {k: v for k, v in first.attrs.items() if k != "observer"}
+    else:
+        df = table
+    out = QTable(meta=json_safe({**df.attrs, **(meta or {})}))
+    for name in df.columns:
+        col = df[name]
+        unit = unit_of(str(name))
+        if str(name).endswith("_utc"):
+            out[name] = _time_column(col)
+        elif unit is not None and col.dtype != bool and pd.api.types.is_numeric_dtype(col):
+            out[name] = u.Quantity(col.to_numpy(dtype=float), unit or u.dimensionless_unscaled)
+        elif col.dtype == object:
+            out[name] = ["" if v is None or (isinstance(v, float) and np.isnan(v)) else str(v) for v in col]
+        else:
+            out[name] = col.to_numpy()
+    return out
+
+
+def ecsv_text(table, meta: dict | None = None, float_format: str | None = None) -> str:
+    """The ECSV file of a table (units, time scale and ``meta`` kept; astropy reads it back as a QTable).
+
+    ``float_format`` (``"%.6g"``) rounds numbers as the CSV twin writes them, so both files hold the same values.
+    """
+    import io
+
+    from astropy import units as u
+
+    qt = as_qtable(table, meta)
+    if float_format is not None:
+        for name in qt.colnames:
+            col = qt[name]
+            if isinstance(col, u.Quantity) and col.dtype.kind == "f":
+                qt[name] = u.Quantity([float(float_format % v) for v in col.value], col.unit)
+    from planner.core.units import quiet_leap_seconds
+
+    buf = io.StringIO()
+    with quiet_leap_seconds():
+        qt.write(buf, format="ascii.ecsv")
+    return buf.getvalue()

@@ -17,7 +17,7 @@ TABLE_LEGEND = (
     "columns: night = local evening date; local, UTC = block start-end (hh:mm, set-up included); "
     "h = hours;\n  exp = exposures x seconds; RA, Dec in deg (mid-block); mot = sky motion arcsec/min "
     "towards PA deg;\n  alt = altitude range deg; X = airmass range; moon = Moon separation deg; "
-    "mag = predicted magnitude; S/N per exposure; ! = a caution below"
+    "mag = predicted magnitude; S/N per exposure"
 )
 
 
@@ -50,7 +50,8 @@ def night_table(blocks: pd.DataFrame) -> str:
             f"{fixed(r.min_airmass, '.2f', 4)}-{fixed(r.max_airmass, '.2f', 4)} {fixed(r.moon_sep_deg, '.0f', 4)} "
             f"{fixed(r.mag_pred, '.1f', 5)} {fixed(r.snr_pred, '.0f', 5)}{flag}"
         )
-    lines.append(TABLE_LEGEND)
+    flagged = "cautions" in t and t["cautions"].fillna("").astype(str).str.strip().ne("").any()
+    lines.append(TABLE_LEGEND + ("; ! = the block has a caution (listed under SAFETY)" if flagged else ""))
     return "\n".join(lines) + "\n"
 
 
@@ -95,7 +96,8 @@ def caution_lines(blocks: pd.DataFrame) -> list[str]:
 
 def safety_text(result: PlanResult) -> str:
     """The Sun caution printed under every plan, then the blocks that carry a caution (the `!` rows)."""
-    return "\n".join(["SAFETY: " + SUN_SAFETY_TEXT, *caution_lines(result.blocks)]) + "\n"
+    notes = [f"note: {n}" for n in result.notes]
+    return "\n".join(["SAFETY: " + SUN_SAFETY_TEXT, *caution_lines(result.blocks), *notes]) + "\n"
 
 
 def comparison_text(result: PlanResult) -> str:
@@ -122,6 +124,11 @@ def comparison_text(result: PlanResult) -> str:
     out = [head, f"{'':{w}} {'plan':>9} {'baseline':>9}", f"{'telescope hours':{w}} {hours_p:9.1f} {hours_b:9.1f}"]
     for label, (plan, base), spec in rows:
         out.append(f"{label:{w}} {fixed(plan, spec, 9)} {fixed(base, spec, 9)}")
+    disc = result.discrimination
+    if disc is not None:
+        plan, base = disc.expected_min_delta_chi2
+        label = "least Δχ² between candidate periods (higher is better)"
+        out.append(f"{label:{w}} {fixed(plan, '.1f', 9)} {fixed(base, '.1f', 9)}")
     rp, rb = rob["plan"], rob["baseline"]
     out.append(
         f"{weather:{w}} {rp.expected_worst_period_coverage:5.2f}/{rp.p10_worst_period_coverage:.2f} "
@@ -145,6 +152,12 @@ def comparison_text(result: PlanResult) -> str:
         f"the greedy's schedule, at least {MIN_EVALUATIONS}), {ls.accepted} kept in {ls.passes} passes, objective "
         f"+{ls.gain:.4f}; stopped by {ls.stopped_by}"
     )
+    if disc is not None:
+        out.append(
+            "candidate periods from the log's light curve (h): "
+            + ", ".join(f"{p:.4g}" for p in disc.candidates_h)
+            + "; the plan is built to tell them apart"
+        )
     bands = rp.single_site_bands_h
     if bands:
         out.append(

@@ -4,7 +4,8 @@ Table entry points over the kernels of :mod:`planner.photometry.skybright` (Kris
 1991), :mod:`planner.photometry.ccd` (Merline & Howell 1995) and :mod:`planner.photometry.coma`
 (A'Hearn et al. 1984): :func:`photometry_columns` (one site's geometry table),
 :func:`add_photometry` (a whole ``geometry()`` result), :func:`window_photometry` (observing
-windows), :func:`mag_err_for_times` and :func:`log_mag_err` (per-point σ for the diagnostics).
+windows), :func:`frame_model`, :func:`mag_err_for_times`, :func:`log_frame_model` and
+:func:`log_mag_err` (per-point σ and airmass for the diagnostics).
 Twilight is not modelled: rows with the Sun above ``max_sun_alt_deg`` (default −12°) get no
 prediction.
 """
@@ -17,7 +18,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from planner.core.bands import SUN_MAG_BY_BAND, band_of_filter
+from planner.core.bands import SOLAR_COLOURS, SUN_MAG_BY_BAND, band_of_filter, colour_term_mag
 from planner.inputs.settings import ExposureRules
 from planner.inputs.sites import Instrument, Site
 from planner.inputs.targets import Target
@@ -53,6 +54,8 @@ DEFAULT_RULES = ExposureRules()
 
 #: Columns added by :func:`photometry_columns`, in order.
 PHOTOMETRY_COLUMNS = (
+    "band",
+    "mag_band_pred",
     "sky_mag_arcsec2",
     "aperture_arcsec",
     "aperture_km",
@@ -100,11 +103,25 @@ def _source_kind(geom_df: pd.DataFrame, comet: bool | None, point_source: bool |
     return comet, point_source
 
 
+def band_mag(geom_df: pd.DataFrame, band: str, colours: dict[str, float] | None = None) -> np.ndarray:
+    """The predicted magnitude in ``band``: ``mag_pred`` (in the law's band, ``attrs["law_band"]``, V when
+    absent) plus the target's colour term between the two bands (:func:`planner.core.bands.colour_term_mag`).
+
+    Colours: ``colours`` when given, else ``attrs["colour_indices"]`` (set by ``geometry()`` from the
+    target), else the Sun's.
+    """
+    law_band = geom_df.attrs.get("law_band", "V")
+    if colours is None:
+        colours = geom_df.attrs.get("colour_indices") or SOLAR_COLOURS
+    return geom_df["mag_pred"].to_numpy(dtype=float) + colour_term_mag(law_band, band, colours)
+
+
 def photometry_columns(
     geom_df: pd.DataFrame,
     instrument: Instrument,
     rules: ExposureRules = DEFAULT_RULES,
     *,
+    colours: dict[str, float] | None = None,
     comet: bool | None = None,
     point_source: bool | None = None,
     mag_err_target: float | None = None,
@@ -123,6 +140,10 @@ def photometry_columns(
     ``motion_arcsec_per_min``, ``km_per_arcsec``; ``helio_dist_au`` and ``obs_dist_au`` for comets).
     Returns a new DataFrame with the same index holding :data:`PHOTOMETRY_COLUMNS` (plus
     ``afrho_cm`` when ``comet``); join it to the geometry.
+
+    Every prediction is made in the instrument's band: ``mag_band_pred`` is ``mag_pred`` (in the law's
+    band) plus the target's colour term (:func:`band_mag`; ``colours`` overrides the table's), and S/N,
+    exposure and Afρ use it, with the Sun's magnitude in the same band for Afρ.
 
     ``comet`` and ``point_source`` default from ``geom_df.attrs["mag_law"]`` (set by
     ``planner.sky.geometry.geometry``): a comet's total magnitude (M1, K1) is coma light, counted out
@@ -157,7 +178,8 @@ def photometry_columns(
     band = band_of_filter(inst.filter)
     col = {c: geom_df[c].to_numpy(dtype=float) for c in _GEOMETRY_NEEDS}
 
-    usable = (col["alt_deg"] > 0.0) & (col["sun_alt_deg"] <= max_sun_alt_deg) & np.isfinite(col["mag_pred"])
+    mag_band = band_mag(geom_df, band, colours)
+    usable = (col["alt_deg"] > 0.0) & (col["sun_alt_deg"] <= max_sun_alt_deg) & np.isfinite(mag_band)
     sky = sky_mag_arcsec2(
         inst.sky_mag_per_arcsec2,
         col["alt_deg"],
@@ -178,9 +200,9 @@ def photometry_columns(
     n_pix = aperture_pixels(ap_arcsec, inst.pixel_scale_arcsec)
     # Magnitude of the light inside the aperture.
     if point_source:
-        mag_in_aperture = col["mag_pred"] - 2.5 * np.log10(gaussian_enclosed_fraction(ap_arcsec, inst.seeing_arcsec))
+        mag_in_aperture = mag_band - 2.5 * np.log10(gaussian_enclosed_fraction(ap_arcsec, inst.seeing_arcsec))
     else:
-        mag_in_aperture = coma_aperture_mag(col["mag_pred"], ap_km, coma_radius_km)
+        mag_in_aperture = coma_aperture_mag(mag_band, ap_km, coma_radius_km)
     rate = source_rate_e_per_s(mag_in_aperture, inst.zero_point_mag, inst.extinction_mag_per_airmass, col["airmass"])
     sky_rate = sky_rate_e_per_s_pix(sky, inst.zero_point_mag, inst.pixel_scale_arcsec)
     noise = dict(
@@ -214,6 +236,8 @@ def photometry_columns(
 
     nan = np.nan
     out = pd.DataFrame(index=geom_df.index)
+    out["band"] = band
+    out["mag_band_pred"] = mag_band
     out["sky_mag_arcsec2"] = np.where(usable, sky, nan)
     out["aperture_arcsec"] = ap_arcsec
     out["aperture_km"] = ap_km
@@ -291,91 +315,3 @@ def window_photometry(
     if not parts:
         return pd.DataFrame(index=windows_df.index)
     return pd.concat(parts).reindex(windows_df.index)
-
-
-def mag_err_from_geometry(
-    geom_df: pd.DataFrame, instrument: Instrument, *, comet: bool | None = None, **kwargs: Any
-) -> np.ndarray:
-    """Per-row photometric error (mag) for one site's geometry table: ``mag_err_pred`` of
-    :func:`photometry_columns` with the same keyword arguments (pass ``exposure_s`` for a log)."""
-    table = photometry_columns(geom_df, instrument, comet=comet, **kwargs)
-    return table["mag_err_pred"].to_numpy(dtype=float)
-
-
-def mag_err_for_times(
-    target: Target,
-    times_utc: np.ndarray,
-    site_names: Sequence[str] | None,
-    sites: Sequence[Site],
-    *,
-    exposure_s: np.ndarray | None = None,
-    fallback_mag_err: float | None = None,
-    **kwargs: Any,
-) -> np.ndarray:
-    """Modelled photometric error (mag) of each observation time, for injection–recovery.
-
-    ``site_names[i]`` names the site of ``times_utc[i]`` (None: all at the one site given);
-    ``exposure_s`` (optional, per point, NaN where unknown) takes logged exposures instead of the
-    planned ones. Points at a site without an instrument or unknown to ``sites``, or with no
-    prediction (target down, Sun up), get ``fallback_mag_err`` (NaN if None). Geometry from
-    ``planner.sky.geometry.geometry``; the other keywords go to :func:`photometry_columns`.
-    """
-    times = np.asarray(times_utc, dtype="datetime64[ns]")
-    if site_names is None:
-        if len(sites) != 1:
-            raise ValueError("times without site names need exactly one site")
-        site_names = [sites[0].name] * times.size
-    names = np.asarray(site_names, dtype=object)
-    if names.shape != times.shape:
-        raise ValueError(f"{names.size} site names for {times.size} times")
-    exp = None if exposure_s is None else np.broadcast_to(np.asarray(exposure_s, dtype=float), times.shape)
-    out = np.full(times.shape, np.nan)
-    by_name = {s.name: s for s in sites}
-    for name in dict.fromkeys(names.tolist()):  # loop over sites, never over epochs
-        site = by_name.get(name)
-        if site is None or site.instrument is None:
-            continue
-        idx = np.flatnonzero(names == name)
-        geom = geometry(target, times[idx], [site])[site.name]
-        extra = dict(kwargs)
-        if exp is not None:
-            extra["exposure_s"] = exp[idx]
-        out[idx] = mag_err_from_geometry(geom, site.instrument, **extra)
-    if fallback_mag_err is not None:
-        out = np.where(np.isfinite(out), out, float(fallback_mag_err))
-    return out
-
-
-def log_mag_err(
-    target: Target | None,
-    times_utc: np.ndarray,
-    site_names: Sequence[str] | None,
-    sites: Sequence[Site],
-    *,
-    logged_mag_err: np.ndarray | None,
-    exposure_s: np.ndarray | None,
-    fallback_mag_err: float,
-    **kwargs: Any,
-) -> tuple[np.ndarray, dict[str, int]]:
-    """Photometric σ (mag) of each logged point and where each came from.
-
-    Priority: the log's own ``mag_err``; else the model of the site's instrument (needs the target
-    and an instrumented site, :func:`mag_err_for_times`); else ``fallback_mag_err``. Returns the
-    σ array and the counts ``{"log": n, "model": n, "fallback": n}``.
-    """
-    times = np.asarray(times_utc, dtype="datetime64[ns]")
-    err = np.full(times.shape, np.nan)
-    if logged_mag_err is not None:
-        err = np.asarray(logged_mag_err, dtype=float).copy()
-    from_log = np.isfinite(err)
-    model = np.full(times.shape, np.nan)
-    if target is not None and sites and not from_log.all():
-        model = mag_err_for_times(target, times, site_names, sites, exposure_s=exposure_s, **kwargs)
-    from_model = ~from_log & np.isfinite(model)
-    err = np.where(from_log, err, np.where(from_model, model, float(fallback_mag_err)))
-    counts = {
-        "log": int(from_log.sum()),
-        "model": int(from_model.sum()),
-        "fallback": int((~from_log & ~from_model).sum()),
-    }
-    return err, counts

@@ -7,8 +7,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from planner.schedule.planmodel import Visit
 from planner.schedule.slots import SlotGrid, to_slot
-from planner.schedule.state import Visit
 
 
 def _levels(caps: np.ndarray, total: int) -> np.ndarray:

@@ -1,5 +1,7 @@
 """Visits → the observer's block table: times, pointing, tracking rates, altitude/airmass ranges,
-exposure plan and expected S/N; plus the mid-exposure times the diagnostics are run on.
+exposure plan and expected S/N, positions at science start, mid-block and end (astrometric ICRF and
+apparent of date); plus the planned exposures (mid-exposure times, σ and airmass) that
+the diagnostics stack into light-curve points (:mod:`planner.photometry.points`).
 
 Geometry comes from ``planner.sky.geometry.geometry`` sampled at every slot boundary inside each
 visit (one call per site, all its visits together); exposure and S/N from
@@ -17,8 +19,8 @@ from planner.inputs.sites import Site
 from planner.inputs.targets import Target
 from planner.photometry.ccd import exposures_per_block
 from planner.photometry.tables import photometry_columns
+from planner.schedule.planmodel import Visit
 from planner.schedule.slots import SlotGrid
-from planner.schedule.state import Visit
 from planner.sky.geometry import geometry
 from planner.visibility.nights import local_iso
 
@@ -38,6 +40,16 @@ BLOCK_COLUMNS = (
     "exposure_limited_by",
     "ra_deg",
     "dec_deg",
+    "ra_app_deg",
+    "dec_app_deg",
+    "start_ra_deg",
+    "start_dec_deg",
+    "start_ra_app_deg",
+    "start_dec_app_deg",
+    "end_ra_deg",
+    "end_dec_deg",
+    "end_ra_app_deg",
+    "end_dec_app_deg",
     "motion_arcsec_per_min",
     "motion_pa_deg",
     "ra_rate_arcsec_per_min",
@@ -65,6 +77,15 @@ def _empty() -> tuple[pd.DataFrame, pd.DataFrame]:
         pd.DataFrame({c: [] for c in BLOCK_COLUMNS}),
         pd.DataFrame({"time_utc": np.array([], dtype="datetime64[ns]"), "site": [], "mag_err": [], "airmass": []}),
     )
+
+
+def _positions(mid: pd.Series, sci: pd.Series, end: pd.Series) -> dict[str, float]:
+    """Apparent place of date at mid-block, and both places at science start and at the block's end."""
+    out = {"ra_app_deg": float(mid["ra_app_deg"]), "dec_app_deg": float(mid["dec_app_deg"])}
+    for prefix, row in (("start_", sci), ("end_", end)):
+        for col in ("ra_deg", "dec_deg", "ra_app_deg", "dec_app_deg"):
+            out[prefix + col] = float(row[col])
+    return out
 
 
 def block_table(
@@ -97,6 +118,9 @@ def block_table(
         samples = geo.iloc[: t_samples.size].reset_index(drop=True)
         mid = geo.iloc[t_samples.size :].reset_index(drop=True)
         which = np.repeat(np.arange(len(mine)), counts)
+        first = np.cumsum(counts) - counts  # each visit's first sample: its start; + setup: science start
+        at_sci = samples.iloc[first + grid.setup_slots].reset_index(drop=True)
+        at_end = samples.iloc[first + lengths].reset_index(drop=True)
         agg = (
             samples.assign(_b=which)
             .groupby("_b")
@@ -151,6 +175,7 @@ def block_table(
                     exposure_limited_by=str(limited[k]),
                     ra_deg=float(m["ra_deg"]),
                     dec_deg=float(m["dec_deg"]),
+                    **_positions(m, at_sci.iloc[k], at_end.iloc[k]),
                     motion_arcsec_per_min=float(m["motion_arcsec_per_min"]),
                     motion_pa_deg=float(m["motion_pa_deg"]),
                     ra_rate_arcsec_per_min=float(m["ra_rate_arcsec_per_min"]),
@@ -193,46 +218,3 @@ def block_table(
     table = table[list(BLOCK_COLUMNS)]
     exp = pd.concat(exposures, ignore_index=True) if exposures else _empty()[1]
     return table, exp.sort_values("time_utc", kind="stable").reset_index(drop=True)
-
-
-def binned_points(exposures: pd.DataFrame, t_ref: np.datetime64, bin_s: float) -> pd.DataFrame:
-    """Consecutive exposures of one site combined per ``bin_s`` slot: mean time, error / √n (and the
-    mean airmass when the exposures carry one). A slot whose frames have no σ (a site without an
-    instrument) gets NaN; the diagnostics give such points the median σ.
-
-    Light-curve points of a slowly rotating body are commonly stacks of consecutive frames
-    (common practice); the diagnostics run on these points, which keeps them fast without
-    changing the sampling pattern at the slot scale.
-    """
-    if exposures.empty:
-        return exposures.copy()
-    t = exposures["time_utc"].to_numpy("datetime64[ns]")
-    ns = (t - np.datetime64(t_ref, "ns")).astype(np.int64)
-    key = ns // np.int64(round(bin_s * 1e9))
-    df = pd.DataFrame(
-        {
-            "site": exposures["site"].to_numpy(),
-            "key": key,
-            "ns": ns,
-            "w": 1.0 / np.square(exposures["mag_err"].to_numpy(dtype=float)),
-        }
-    )
-    if "airmass" in exposures:
-        df["airmass"] = exposures["airmass"].to_numpy(dtype=float)
-    g = df.groupby(["site", "key"], sort=False)
-    mean_ns = g["ns"].mean().round().astype(np.int64)
-    w = g["w"].sum(min_count=1).to_numpy(dtype=float)  # NaN where no frame has a σ (site without instrument)
-    err = np.full(w.shape, np.nan)
-    known = np.isfinite(w) & (w > 0)
-    err[known] = 1.0 / np.sqrt(w[known])
-    out = pd.DataFrame(
-        {
-            "time_utc": np.datetime64(t_ref, "ns") + mean_ns.to_numpy().astype("timedelta64[ns]"),
-            "site": [s for s, _ in mean_ns.index],
-            "mag_err": err,
-            "n_frames": g.size().to_numpy(),
-        }
-    )
-    if "airmass" in df:
-        out["airmass"] = g["airmass"].mean().to_numpy()
-    return out.sort_values("time_utc", kind="stable").reset_index(drop=True)

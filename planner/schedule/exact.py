@@ -22,7 +22,7 @@ import numpy as np
 from scipy import sparse
 from scipy.optimize import Bounds, LinearConstraint, milp
 
-from planner.schedule.state import PlanModel
+from planner.schedule.planmodel import PlanModel
 
 _CHUNK = 256
 #: Largest (element, cell) incidence the exact mode builds (~50 MB of sparse matrix); beyond it HiGHS

@@ -40,8 +40,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.schedule.cells import ElementCells, open_periods, run_prefix
+from planner.schedule.planmodel import SlotCredit, Visit
 from planner.schedule.slots import SlotGrid
-from planner.schedule.state import SlotCredit, Visit
 
 
 @dataclass

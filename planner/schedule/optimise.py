@@ -1,4 +1,5 @@
-"""The optimiser: lazy greedy on coverage plus slot credit, merge into visits, then local search on the full objective.
+"""The optimiser: lazy greedy on coverage plus slot credit, merge into visits (visits of one site-night
+closer than the shortest visit joined or set apart), then local search on the full objective.
 
 See :mod:`planner.schedule.greedy` for the ground set, constraints and the guarantee that holds, and
 :mod:`planner.schedule.localsearch` for the moves. Pure: slot grid and model in, visits out.
@@ -12,9 +13,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from planner.schedule.greedy import GreedyResult, greedy_lazy, merge_elements
-from planner.schedule.localsearch import SearchStats, local_search
+from planner.schedule.localsearch import SearchStats, local_search, separate_close_visits
 from planner.schedule.objective import Terms
-from planner.schedule.state import PlanModel, PlanState, Visit
+from planner.schedule.planmodel import PlanModel, Visit
+from planner.schedule.state import PlanState
 
 
 @dataclass
@@ -39,7 +41,7 @@ def optimise(model: PlanModel, seed: int, max_evaluations: int | None = None) ->
     t1 = time.perf_counter()
     g = greedy_lazy(model.grid, cells, model.done_cells, model.slot_credit())
     t2 = time.perf_counter()
-    greedy_visits = merge_elements(model.grid, g.elements)
+    greedy_visits = separate_close_visits(model.grid, merge_elements(model.grid, g.elements))
     state = PlanState(model, greedy_visits)
     greedy_terms = state.current
     stats = local_search(state, cells, seed=seed, max_evaluations=max_evaluations)

@@ -27,17 +27,10 @@ import numpy as np
 from planner.inputs.settings import ExposureRules
 from planner.inputs.sites import Site
 from planner.inputs.targets import Target
+from planner.photometry.points import point_sigma_mag
 from planner.photometry.tables import photometry_columns
 from planner.schedule.slots import SlotGrid
 from planner.sky.geometry import geometry
-
-
-def point_sigma_mag(
-    frame_err_mag: np.ndarray, n_frames: np.ndarray, airmass: np.ndarray, sys_err_mag_per_airmass: float
-) -> np.ndarray:
-    """σ (mag) of one stacked point: photon noise over √n_frames and ``s·X`` added in quadrature."""
-    phot = np.asarray(frame_err_mag, dtype=float) / np.sqrt(np.maximum(np.asarray(n_frames, dtype=float), 1.0))
-    return np.hypot(phot, sys_err_mag_per_airmass * np.asarray(airmass, dtype=float))
 
 
 def slot_quality(precision: np.ndarray, airmass: np.ndarray, max_airmass: float, best_precision: float) -> np.ndarray:

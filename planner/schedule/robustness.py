@@ -16,7 +16,7 @@ import numpy as np
 
 from planner.core.parallel import FLOPS_PER_S, TrialBlock, run_blocks, trial_blocks
 from planner.schedule.objective import arc_mask
-from planner.schedule.state import PlanModel, Visit
+from planner.schedule.planmodel import PlanModel, Visit
 
 #: Bytes of the (trials or visits) × cells float32 products held at once.
 _CHUNK_BYTES = 48_000_000

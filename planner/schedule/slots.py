@@ -60,6 +60,12 @@ class SlotGrid:
         return self.slot_s / 3600.0
 
     @property
+    def min_gap_slots(self) -> int:
+        """Least pause between two visits of one site-night: the shortest visit. A shorter pause serves
+        nothing else and costs a second set-up, so such visits are one visit or further apart."""
+        return self.min_slots
+
+    @property
     def n_elements(self) -> int:
         return int(self.elem_site_night.size)
 

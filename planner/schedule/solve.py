@@ -21,17 +21,18 @@ from planner.inputs.campaign import Campaign
 from planner.inputs.donelog import DoneLog
 from planner.inputs.settings import Weights
 from planner.schedule.baseline import baseline_visits
+from planner.schedule.discrimination import CandidatePeriods
 from planner.schedule.exact import ExactResult, exact_coverage
 from planner.schedule.greedy import greedy_lazy
 from planner.schedule.localsearch import SearchStats
 from planner.schedule.nightnotes import night_notes
-from planner.schedule.objective import Terms, alias_freq_grid
+from planner.schedule.objective import SEPARATION_SCALE, SOFTMIN_POWER, Terms, alias_freq_grid
 from planner.schedule.optimise import optimise, total_slots
+from planner.schedule.planmodel import Done, PlanModel, Visit
 from planner.schedule.quality import slot_quality
 from planner.schedule.replan import done_runs, used_hours
 from planner.schedule.robustness import Robustness, weather_monte_carlo
 from planner.schedule.slots import SlotGrid, build_slots
-from planner.schedule.state import Done, PlanModel, Visit
 
 #: Highest window frequency (cycles/day) the alias term looks at, as in ``phasewise check``.
 ALIAS_MAX_FREQ_PER_DAY = 5.0
@@ -40,6 +41,8 @@ OBJECTIVE_DEFINITION = (
     "J = w_cov*coverage + w_rob*expected_coverage - w_alias*alias - w_cad*gap_fraction"
     " + w_hours*hours_fraction + w_quality*quality"
 )
+#: The term added when re-planning from a fitted light curve (planner.schedule.discrimination).
+DISCRIMINATION_DEFINITION = " + w_disc*discrimination"
 
 
 @dataclass
@@ -89,11 +92,16 @@ class ObjectiveSummary:
     n_alias_freqs: int
     seconds: dict[str, float]
     exact: ExactComparison | None = None
+    #: The candidate rotation periods separated by the discrimination term (re-planning from a light curve),
+    #: and the pairs it separates.
+    candidates_h: list[float] | None = None
+    pairs_h: list[list[float]] | None = None
 
     def to_dict(self) -> dict:
+        with_disc = self.candidates_h is not None
         out = {
-            "definition": OBJECTIVE_DEFINITION,
-            "weights": {k: float(v) for k, v in self.weights.__dict__.items()},
+            "definition": OBJECTIVE_DEFINITION + (DISCRIMINATION_DEFINITION if with_disc else ""),
+            "weights": {k: float(v) for k, v in self.weights.__dict__.items() if with_disc or k != "discrimination"},
             "heuristic": self.heuristic.to_dict(),
             "greedy": {
                 **self.greedy.to_dict(),
@@ -112,6 +120,13 @@ class ObjectiveSummary:
         }
         if self.exact is not None:
             out["exact"] = self.exact.to_dict()
+        if with_disc:
+            out["discrimination"] = {
+                "candidates_h": self.candidates_h,
+                "pairs_h": self.pairs_h,
+                "separation_scale": SEPARATION_SCALE,
+                "softmin_power": SOFTMIN_POWER,
+            }
         return out
 
 
@@ -186,11 +201,20 @@ def schedule_core(
     exact_time_limit_s: float = 60.0,
     max_evaluations: int | None = None,
     precision_fn: Callable[[SlotGrid], tuple[list[np.ndarray], list[np.ndarray]]] | None = None,
+    candidates: CandidatePeriods | None = None,
+    progress: Callable[[str], None] | None = None,
 ) -> PlanCore:
     """Optimise on a windows table: slots, greedy + local search, baseline, robustness, and the exact
     optimum when asked. ``precision_fn(grid)`` gives, per site-night, the precision 1/σ² and airmass
     of every slot of its span (planner.schedule.quality.slot_precision); they set the slots' quality and each
-    site-night's spectral-window weight. Without it every slot has quality 1 and weight 1."""
+    site-night's spectral-window weight. Without it every slot has quality 1 and weight 1.
+
+    ``candidates`` (re-planning from a fitted light curve, planner.schedule.discrimination): the trial
+    periods become the windows around the candidate periods, and with two or more candidates the
+    objective gains the discrimination term. ``progress(stage)``
+    is told when the slots, the optimiser and the weather trials start."""
+    progress = progress or (lambda stage: None)
+    progress("slots")
     t_ref = t_ref_for(campaign)
     sites = campaign.sites
     kwargs: dict = {}
@@ -211,19 +235,27 @@ def schedule_core(
     grid = build_slots(windows, sites, campaign.block_rules, t_ref, total_hours=campaign.total_hours, **kwargs)
     if not grid.site_nights:
         raise InputError(
-            str(campaign.path),
+            campaign.source,
             "sites",
             "no site has an observable window long enough for one block in the nights left to plan"
             + _why_no_window(windows, None if done is None else done.end_utc),
         )
     rot = campaign.rotation
     span_h = campaign.nights * 24.0
-    periods = period_grid_h(rot.min_period_h, rot.max_period_h, span_h, rot.oversample)
-    freqs = alias_freq_grid(rot.min_period_h, rot.max_period_h, span_h, rot.double_peaked)
+    band = (rot.min_period_h, rot.max_period_h)
+    if candidates is None:
+        periods = period_grid_h(*band, span_h, rot.oversample)
+    else:
+        periods = candidates.period_grid_h(span_h, rot.oversample)
+        band = (float(periods.min()), float(periods.max()))
+    freqs = alias_freq_grid(*band, span_h, rot.double_peaked)
     freqs = freqs[freqs <= ALIAS_MAX_FREQ_PER_DAY]
-    weight = quality = None
+    weight = quality = precision = moments = None
     if precision_fn is not None:
-        weight, quality = quality_and_weights(*precision_fn(grid), max_airmass=campaign.photometry.max_airmass)
+        precision, airmass = precision_fn(grid)
+        weight, quality = quality_and_weights(precision, airmass, max_airmass=campaign.photometry.max_airmass)
+    if candidates is not None and candidates.n_pairs:
+        moments = candidates.slot_moments(grid, precision)
     model = PlanModel(
         grid,
         periods,
@@ -234,7 +266,9 @@ def schedule_core(
         done_model,
         slot_weight=weight,
         slot_quality=quality,
+        slot_moments=moments,
     )
+    progress("optimiser")
     opt = optimise(model, seed=campaign.seed, max_evaluations=max_evaluations)
     base = baseline_visits(grid, windows, total_slots(opt.visits))
     objective = ObjectiveSummary(
@@ -253,12 +287,15 @@ def schedule_core(
         phase_bins=int(rot.phase_bins),
         n_alias_freqs=int(freqs.size),
         seconds=opt.seconds,
+        candidates_h=None if moments is None else candidates.candidates_h,
+        pairs_h=None if moments is None else candidates.pairs_h,
     )
     if exact:
         # The exact mode solves coverage alone, so it is measured against the coverage-only greedy.
         cov_greedy = greedy_lazy(grid, model.element_cells(), model.done_cells)
         ex = exact_coverage(model, time_limit_s=exact_time_limit_s, greedy_cells=cov_greedy.covered_cells)
         objective.exact = ExactComparison(ex, cov_greedy.covered_cells)
+    progress("weather trials")
     trials = campaign.weather_trials
     where = dict(workers=campaign.compute.workers, dask_address=campaign.compute.dask_address)
     robustness = {
@@ -273,6 +310,7 @@ def schedule_core(
         opt.visits,
         lost=None if done is None else done.lost,
         not_before_utc=None if done is None else done.end_utc,
+        not_before_site=None if done is None else done.end_site,
         observed_h=kwargs.get("used_h"),
     )
     return PlanCore(

@@ -5,17 +5,22 @@ Route (Explanatory Supplement to the Astronomical Almanac, 3rd ed., ch. 7):
 1. Sun, Earth and Moon barycentric positions and velocities from DE421 (``skydata.planets()``); site
    positions from skyfield's WGS84 model (ITRS → GCRS with skyfield's Earth-rotation model, no
    polar motion).
-2. The target's heliocentric state from two-body elements (``planner.sky.kepler.propagate``), taken at
-   the retarded time t − τ, with τ the light time solved by fixed-point iteration (one
-   propagation, then a third-order Taylor step back by τ; each site then shifts by its own small
-   τ difference using the target's velocity, exact to far below a milliarcsecond).
+2. The target's heliocentric state (``planner.sky.propagation.target_state``: integrated under the
+   planets and the Moon, or two-body on request), taken at the retarded time t − τ, with τ the light
+   time solved by fixed-point iteration (one propagation, then a third-order Taylor step back by τ;
+   each site then shifts by its own small τ difference using the target's velocity, exact to far
+   below a milliarcsecond).
 3. Astrometric RA/Dec: the ICRF direction from the observer at t to the target at t − τ (no
-   aberration, no light deflection), like a star catalogue position.
+   aberration, no light deflection), like a star catalogue position. Apparent RA/Dec of date: that
+   direction plus aberration (step 4), rotated by precession and nutation to the true equator and
+   equinox of date (where a mount set to the date's coordinates points).
 4. Altitude and azimuth: the astrometric vector plus aberration by the observer's barycentric
    velocity (skyfield's relativistic formula), rotated to the local horizon. Gravitational light
-   deflection by the Sun (≤ 0.02″ beyond 30° elongation) is neglected. **No refraction**: altitudes
-   are airless ("true"); at 20° altitude refraction would lift the object by about 2.6′.
-   Nutation uses IAU 2000B (≈ 1 mas from IAU 2000A).
+   deflection by the Sun (≤ 0.02″ beyond 30° elongation) is neglected; nutation uses IAU 2000B
+   (≈ 1 mas from IAU 2000A). ``alt_true_deg`` is this airless altitude; ``alt_deg`` is the apparent one,
+   lifted by refraction with the site's air (:mod:`planner.sky.refraction`, Sæmundsson 1986; about
+   2.6′ at 20°), or equal to it where the site says ``refraction = false``. Sun and Moon altitudes
+   stay geometric (twilight is defined on the Sun's true centre).
 
 Everything is vectorised over epochs; the only Python loop is over sites.
 """
@@ -27,6 +32,7 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
+from planner.core import units
 from planner.core.constants import (
     ARCSEC_PER_RAD,
     C_AU_PER_DAY,
@@ -35,22 +41,16 @@ from planner.core.constants import (
     OBLIQUITY_J2000_DEG,
 )
 from planner.core.errors import InputError
+from planner.core.safety import DEFAULT_MIN_SOLAR_ELONG_DEG, low_elongation_note
 from planner.inputs.sites import Site
 from planner.inputs.targets import Target
 from planner.sky.brightness import law_params, predicted_mag
-from planner.sky.kepler import propagate
+from planner.sky.propagation import target_state
+from planner.sky.refraction import site_air, site_apparent_alt_deg
 from planner.sky.skydata import planets, utc_times
 
 GEOCENTRE = "geocentre"
-#: Default solar-elongation safety limit (degrees). Pointing closer to the Sun can destroy equipment
-#: and blind people; the observatory's own rules always decide.
-MIN_SOLAR_ELONG_DEG = 30.0
-
-SAFETY_WARNING = (
-    "CAUTION: solar elongation below {limit:g} deg at {n} of {total} epochs. Pointing a "
-    "telescope near the Sun can destroy equipment and blind people; the observatory's own "
-    "rules decide."
-)
+MIN_SOLAR_ELONG_DEG = DEFAULT_MIN_SOLAR_ELONG_DEG
 
 
 # ------------------------------------------------------------------------------- small kernels
@@ -59,9 +59,9 @@ SAFETY_WARNING = (
 def airmass(alt_deg: np.ndarray) -> np.ndarray:
     """Relative optical air mass, Kasten & Young (1989), Applied Optics 28, 4735.
 
-    X(h) = 1 / (sin h + 0.50572 (h + 6.07995°)^−1.6364), h the altitude in degrees. NaN below the
-    horizon (h < 0), where no air mass is meaningful for observing. phasewise passes the airless
-    altitude; the refracted one would change X by less than 0.3 % above 20° altitude.
+    X(h) = 1 / (sin h + 0.50572 (h + 6.07995°)^−1.6364), h the apparent (refracted) altitude in
+    degrees, as phasewise passes it (``alt_deg``). NaN below the horizon (h < 0), where no air mass is
+    meaningful for observing. Against the airless altitude, X differs by 0.2 % at 20° and 0.9 % at 10°.
     """
     h = np.asarray(alt_deg, dtype=float)
     with np.errstate(invalid="ignore"):
@@ -173,11 +173,12 @@ class _SkyAtTimes:
 def _target_light_time(target: Target, sky: _SkyAtTimes, obs_au: np.ndarray):
     """Heliocentric state at t − τ and τ (days) for an observer at barycentric ``obs_au``.
 
-    One two-body propagation at t; the retarded state comes from the Taylor series of two-body
-    motion to third order in τ (r − τv + τ²a/2 − τ³j/6 with a = −GM r/r³ and its derivative j),
-    whose truncation error stays below 1e-10 au even for a sungrazer at r = 0.05 au seen from 1 au.
+    One propagation at t; the retarded state comes from the Taylor series of two-body motion to third
+    order in τ (r − τv + τ²a/2 − τ³j/6 with a = −GM r/r³ and its derivative j), whose truncation error
+    stays below 1e-10 au even for a sungrazer at r = 0.05 au seen from 1 au. The planets' pull left out
+    of that step is below 1e-13 au even 0.001 au from the Earth (GM⊕/d² · τ²/2).
     """
-    helio, helio_v = propagate(target.orbit, sky.tdb_jd)
+    helio, helio_v = target_state(target, sky.tdb_jd)
     r = _norm(helio)[:, None]
     rv = np.einsum("ij,ij->i", helio, helio_v)[:, None]
     acc = -GM_SUN_AU3_D2 * helio / r**3
@@ -201,9 +202,14 @@ def geometry(
 
     Columns: see docs/formats.md "Geometry columns". ``low_solar_elong`` flags epochs closer to the
     Sun than ``min_solar_elong_deg`` (a safety caution, not a permission). Each frame's ``attrs`` hold
-    ``mag_law``, ``mag_params`` (the law's parameters, planner.sky.brightness.law_params), ``target``,
-    ``observer`` and ``min_solar_elong_deg``.
+    ``mag_law``, ``mag_params`` (the law's parameters, planner.sky.brightness.law_params), ``law_band``
+    (the band of ``mag_pred``), ``colour_indices`` and ``colour_source`` (``Target.colours()``, for the
+    magnitude in an instrument's band), ``target``, ``observer`` and ``min_solar_elong_deg``; a site's
+    frame also ``air`` (how its ``alt_deg`` was refracted, in words). ``times_utc`` may be datetime64, astropy ``Time``,
+    datetime or ISO text; ``min_solar_elong_deg`` a number of degrees or an angle Quantity.
     """
+    times_utc = units.utc_times(times_utc, "times_utc")
+    min_solar_elong_deg = units.to_unit(min_solar_elong_deg, "deg", "min_solar_elong_deg")
     names = [s.name for s in sites]
     for site in sites:
         if names.count(site.name) > 1:
@@ -229,7 +235,17 @@ def geometry(
             target, sky, helio, target_v_bary, tau, obs_au, obs_v, site, topo, min_solar_elong_deg
         )
         out[name].attrs.update(observer=name)
+        if site is not None:
+            out[name].attrs.update(air=_air_words(site))
     return out
+
+
+def _air_words(site: Site) -> str:
+    """How ``alt_deg`` was made at this site, for table headers."""
+    if not site.refraction:
+        return "alt airless (refraction = false)"
+    pressure, temperature = site_air(site)
+    return f"alt apparent (refraction at {pressure:.0f} hPa, {temperature:.0f} °C)"
 
 
 def _observer_frame(
@@ -261,10 +277,14 @@ def _observer_frame(
     rate_north = np.einsum("ij,ij->i", p_dot, north) / delta * ARCSEC_PER_RAD / 1440.0
     mag, law = predicted_mag(target.kind, target.brightness, r, delta, phase)
     pab_lon, pab_lat = phase_angle_bisector_deg(helio, p)
+    apparent, of_date = _apparent(sky, p, obs_v, tau)
+    ra_app, dec_app = _radec_deg(of_date)
     cols: dict[str, np.ndarray] = {
         "time_utc": sky.times_utc,
         "ra_deg": ra,
         "dec_deg": dec,
+        "ra_app_deg": ra_app,
+        "dec_app_deg": dec_app,
         "helio_dist_au": r,
         "obs_dist_au": delta,
         "light_time_minutes": tau * 1440.0,
@@ -282,30 +302,40 @@ def _observer_frame(
         "pab_lat_deg": pab_lat,
     }
     if site is not None:
-        cols.update(_site_columns(sky, topo, p, tau, obs_au, obs_v))
+        cols.update(_site_columns(sky, site, topo, p, apparent, ra_app / 15.0, obs_au))
     frame = pd.DataFrame(cols)
+    colours, colour_source = target.colours()
     frame.attrs.update(
         mag_law=law,
         mag_params=law_params(target.kind, target.brightness),
+        law_band=target.brightness.law_band,
+        colour_indices=colours,
+        colour_source=colour_source,
         target=target.name,
         min_solar_elong_deg=min_solar_elong_deg,
     )
     return frame
 
 
-def _site_columns(
-    sky: _SkyAtTimes, topo, p: np.ndarray, tau: np.ndarray, obs_au: np.ndarray, obs_v: np.ndarray
-) -> dict[str, np.ndarray]:
+def _apparent(sky: _SkyAtTimes, p: np.ndarray, obs_v: np.ndarray, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The astrometric vectors ``p`` (N, 3) with aberration by the observer's velocity (skyfield's
+    relativistic formula), in ICRF axes and rotated to the true equator and equinox of date (skyfield's
+    precession-nutation matrix ``M``: IAU 2006 precession, IAU 2000B nutation here, frame bias)."""
     from skyfield.functions import mxv
     from skyfield.relativity import add_aberration
 
     apparent = p.T.copy()
     add_aberration(apparent, obs_v.T, tau)
-    apparent = apparent.T
-    alt, az = sky.local(topo, apparent)
+    of_date = mxv(sky.t.M if sky.t.M.ndim == 3 else sky.t.M[:, :, None], apparent)
+    return apparent.T, np.atleast_2d(of_date.T)
+
+
+def _site_columns(
+    sky: _SkyAtTimes, site: Site, topo, p: np.ndarray, apparent: np.ndarray, ra_date_h: np.ndarray, obs_au: np.ndarray
+) -> dict[str, np.ndarray]:
+    alt_true, az = sky.local(topo, apparent)
+    alt = site_apparent_alt_deg(site, alt_true)
     # Hour angle: local apparent sidereal time minus the apparent right ascension of date.
-    of_date = mxv(sky.t.M if sky.t.M.ndim == 3 else sky.t.M[:, :, None], apparent.T)
-    ra_date_h = np.degrees(np.arctan2(of_date[1], of_date[0])) / 15.0
     last_h = np.atleast_1d(topo.lst_hours_at(sky.t))
     hour_angle = (last_h - ra_date_h + 12.0) % 24.0 - 12.0
     to_sun = sky.sun_au - obs_au
@@ -316,6 +346,7 @@ def _site_columns(
     moon_phase = _angle_deg(sky.sun_au - sky.moon_au, obs_au - sky.moon_au)
     return {
         "alt_deg": alt,
+        "alt_true_deg": alt_true,
         "az_deg": az,
         "airmass": airmass(alt),
         "hour_angle_h": hour_angle,
@@ -355,5 +386,5 @@ def safety_warning(frames: dict[str, pd.DataFrame]) -> str | None:
             limit = frame.attrs.get("min_solar_elong_deg", MIN_SOLAR_ELONG_DEG)
             total = sum(len(f) for f in frames.values())
             n_all = sum(int(f["low_solar_elong"].sum()) for f in frames.values())
-            return SAFETY_WARNING.format(limit=limit, n=n_all, total=total)
+            return low_elongation_note(n_all, total, limit)
     return None

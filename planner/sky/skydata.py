@@ -12,6 +12,7 @@ import warnings
 import numpy as np
 
 from planner.core.errors import InputError
+from planner.core.timegrid import SPAN_TEXT
 
 #: Span of DE421 (JD TDB), with a day of margin each side for light-time.
 DE421_FIRST_JD = 2414864.5 + 1.0
@@ -53,5 +54,5 @@ def utc_times(times_utc: np.ndarray, file: str = "command line", field: str = "t
     st = timescale().utc(2000, 1, 1 + day, 0, 0, ns_of_day / 1e9)
     tdb = np.atleast_1d(st.tdb)
     if tdb.size and (tdb.min() < DE421_FIRST_JD or tdb.max() > DE421_LAST_JD):
-        raise InputError(file, field, "outside the bundled DE421 ephemeris (1900-01-01 to 2053-10-07)")
+        raise InputError(file, field, f"outside {SPAN_TEXT}")
     return st

@@ -14,6 +14,7 @@ import pandas as pd
 
 from planner.core.safety import SUN_SAFETY_TEXT
 from planner.inputs.sites import Site
+from planner.sky.refraction import site_apparent_alt_deg
 
 #: The limits tested in darkness, in the order used to name the one that closes a window.
 LIMITS = ("sun_elong", "dec_range", "horizon", "hour_angle", "moon", "allocation")
@@ -82,7 +83,8 @@ def no_window_reason(site: Site, sky: pd.DataFrame, masks: dict[str, np.ndarray]
     words = []
     for k in alone:
         if k == "horizon":
-            transit_deg = float(np.max(90.0 - np.abs(site.latitude_deg - dec)))
+            # Highest apparent altitude: the true one at upper culmination, refracted as the site sees it.
+            transit_deg = float(site_apparent_alt_deg(site, np.max(90.0 - np.abs(site.latitude_deg - dec))))
             dark_max = float(sky["alt_deg"].max())
             if transit_deg < 0.0:
                 words.append(

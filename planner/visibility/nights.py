@@ -9,7 +9,7 @@ each crossing is refined by bisection (:mod:`planner.visibility.intervals`) to `
 
 from __future__ import annotations
 
-from datetime import date, datetime, timedelta, timezone
+from datetime import UTC, date, datetime, timedelta
 
 import numpy as np
 import pandas as pd
@@ -41,7 +41,7 @@ def night_bounds_utc(site: Site, first_night: date, nights: int) -> np.ndarray:
     out = []
     for k in range(nights + 1):  # one value per night, not per epoch
         d = first_night + timedelta(days=k)
-        noon = datetime(d.year, d.month, d.day, 12, tzinfo=site.tz).astimezone(timezone.utc)
+        noon = datetime(d.year, d.month, d.day, 12, tzinfo=site.tz).astimezone(UTC)
         out.append(np.datetime64(noon.replace(tzinfo=None), "ns"))
     return np.array(out, dtype="datetime64[ns]")
 

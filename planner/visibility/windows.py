@@ -6,8 +6,10 @@ mask at the target's azimuth, declination range, hour-angle limit, solar elongat
 separation, allocated time blocks); runs of samples meeting every limit are the windows, and each
 edge that falls between samples is refined by bisection to ``tol_s`` (:mod:`planner.visibility.intervals`).
 
-Pointing near the Sun can destroy equipment and blind people: windows limited by solar elongation,
-and windows that open or close in twilight, carry a caution. The observatory's rules decide.
+Pointing near the Sun can destroy equipment and blind people: windows near or limited by the site's
+solar-elongation limit, and windows that open or close in bright twilight (a darkness limit with the
+Sun above −12°, the block cautions' threshold in planner.core.safety), carry a caution. The
+observatory's rules decide.
 """
 
 from __future__ import annotations
@@ -18,8 +20,9 @@ from datetime import date
 import numpy as np
 import pandas as pd
 
+from planner.core import units
 from planner.core.errors import InputError
-from planner.core.safety import SUN_SAFETY_TEXT, near_sun
+from planner.core.safety import SUN_SAFETY_TEXT, TWILIGHT_CAUTION_SUN_ALT_DEG, near_sun
 from planner.inputs.sites import Site
 from planner.visibility.intervals import refine_edges, true_runs
 from planner.visibility.limits import all_met, first_failed, limit_masks, no_window_reason
@@ -212,10 +215,12 @@ def _site_rows(site, labels, dark, dark_on, t, span, sky, masks, runs, edges, at
         start_limit = np.where(opens, [edge_kind[b] for b in span_rows["start_is_twilight"]], failed_start)
         end_limit = np.where(closes, [edge_kind[b] for b in span_rows["end_is_twilight"]], failed_end)
         near = near_sun(elong, site.min_solar_elong_deg) | (start_limit == "sun_elong") | (end_limit == "sun_elong")
+        # A window that opens at the end of nautical or astronomical twilight opens in the dark: no caution.
+        bright = site.night_sun_alt_deg > TWILIGHT_CAUTION_SUN_ALT_DEG
         caution = []
         for j in range(m):  # a sentence per window: output assembly only
             words = [f"Sun {elong[j]:.0f}° away: {SUN_SAFETY_TEXT}"] if near[j] else []
-            tw = [w for w, lim in (("opens", start_limit[j]), ("closes", end_limit[j])) if lim == "twilight"]
+            tw = [w for w, lim in (("opens", start_limit[j]), ("closes", end_limit[j])) if lim == "twilight" and bright]
             if tw:
                 words.append(f"{' and '.join(tw)} in {site.twilight} twilight: keep clear of the Sun's side of the sky")
             caution.append("; ".join(words))
@@ -352,5 +357,9 @@ def observable_windows(
     One row per observable interval (several per night are possible), or one zero-hour row with a
     ``reason`` for a night without any. Columns: :data:`WINDOW_COLUMNS`, described in
     docs/formats.md ("Windows columns"). Edges are refined to ``tol_s`` seconds from a ``step_s`` grid.
+    ``first_night`` may be a date, ISO text or an astropy ``Time``; ``step_s`` seconds, text (``"5m"``) or
+    a time Quantity.
     """
+    first_night = units.calendar_date(first_night, "first_night")
+    step_s = units.seconds(step_s, "step_s")
     return find_windows(geometry_sky(target, sites), sites, first_night, nights, step_s=step_s, tol_s=tol_s)
