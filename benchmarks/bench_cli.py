@@ -48,10 +48,12 @@ def heavy_imports() -> list[str]:
     code = (
         "import sys; from planner.cli import main\n"
         "try:\n    main(['--help'])\nexcept SystemExit:\n    pass\n"
-        f"print(' '.join(m for m in {HEAVY!r} if m in sys.modules))"
+        f"print('loaded:', *(m for m in {HEAVY!r} if m in sys.modules))"
     )
     out = subprocess.run([sys.executable, "-c", code], env=ENV, capture_output=True, text=True, check=True)
-    return out.stdout.strip().splitlines()[-1].split()
+    # The help text comes first; the list is the last line that starts with the marker (maybe empty).
+    last = [line for line in out.stdout.splitlines() if line.startswith("loaded:")][-1]
+    return last.split()[1:]
 
 
 def main() -> None:

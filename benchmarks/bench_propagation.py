@@ -15,7 +15,7 @@ over 2011 June 12 – July 12, through its 12 300-km passage.
 Part 2. Cost of one perturbed path over 7 / 30 / 90 days for a main-belt asteroid, a long-period comet
 and the NEA flyby, beside two-body ``kepler.propagate`` on the same 5-minute grid.
 
-Run: ``python benchmarks/bench_propagation.py`` (BLAS threads pinned to one).
+Run: ``python benchmarks/bench_propagation.py [--reps 3 | --quick | --full]`` (BLAS threads pinned to one).
 """
 
 from __future__ import annotations
@@ -129,5 +129,8 @@ def part2() -> None:
 
 
 if __name__ == "__main__":
+    from benchutil import repetitions
+
+    REPEATS = repetitions(__doc__.splitlines()[0], default=REPEATS)  # --reps N, --quick (3), --full (9)
     part1()
     part2()
