@@ -127,6 +127,8 @@ def test_one_line_errors(tmp_path, capsys):
         ([LOG, "--target", TARGET, "--format", "xml"], "error: command line: --format:"),
         ([LOG], "error: command line: --target:"),
         ([LOG, "--target", tmp_path / "none.toml"], f"error: {tmp_path / 'none.toml'}:"),
+        ([LOG, "--target", TARGET, "--report", tmp_path], f"error: {tmp_path}: --report: is a folder"),
+        ([LOG, "--target", TARGET, "--out", bad_mag / "x.json"], f"error: {bad_mag / 'x.json'}: --out: cannot make"),
     ]
     for args, start in cases:
         r = run_cli(capsys, "fit", *args)

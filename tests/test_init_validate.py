@@ -53,6 +53,9 @@ def test_init_demo_copies_inputs_that_validate(tmp_path, capsys):
     r = run_cli(capsys, "validate", *sorted(tmp_path.rglob("*.toml")))
     assert r.returncode == 0 and r.stdout.count("\n") == len(files) and r.stdout.count("ok: ") == len(files)
     assert "campaign 'Demo week: C/2034 B3 from four sites'" in r.stdout
+    log = tmp_path / "demo-first-nights.csv"
+    r = run_cli(capsys, "validate", log)
+    assert r.returncode == 0 and r.stdout.startswith("ok: ") and "observed" in r.stdout
     assert run_cli(capsys, "init", tmp_path, "--demo").returncode == 2
 
 

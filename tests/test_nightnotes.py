@@ -149,7 +149,8 @@ def test_replan_notes_give_the_true_reason():
     assert past["status"] == "past" and past["note"] == f"{cut} (S1), and this night's window ends at 02:00 UTC"
     logged = n.loc[("S1", "2034-03-16")]
     assert logged["status"] == "observed" and logged["note"] == (
-        "observed: 1.50 h in the log; the 2 h this night's allocation gives leave under the shortest block (1 h)"
+        "observed: 1.50 h in the log; this night's 2 h allocation leaves 0.50 h after the log, "
+        "under the shortest block (1 h)"
     )
     short = n.loc[("S2", "2034-03-16")]
     assert short["status"] == "too short" and short["note"] == (

@@ -235,3 +235,18 @@ def test_check_formats_are_the_ones_the_readme_names(tmp_path, capsys):
     assert (
         json.loads(run_cli(capsys, "check", log, "--format", "json", "--trials", "0").stdout)["input"]["n_times"] == 3
     )
+
+
+def test_blocks_and_sheets_give_the_magnitude_in_the_instruments_band(demo_plan, demo_folder):
+    # The demo comet's law is in V and every demo site observes through R; the comet has no [colour]
+    # table, so its colour is the Sun's: V − R_C ≈ 0.35–0.40 in published solar colours (Holmberg,
+    # Flynn & Portinari 2006 give 0.36; Willmer 2018, ApJS 236, 47, about 0.37; values from memory).
+    _, result = demo_plan
+    b = result.blocks
+    assert set(b["band"]) == {"R"}
+    v_minus_r = b["mag_pred"] - b["mag_band_pred"]
+    assert v_minus_r.between(0.33, 0.42).all()
+    sheet = next((demo_folder / "sheets").glob("*.txt")).read_text()
+    assert " in R (" in sheet and "in the brightness law's band)" in sheet
+    csv = pd.read_csv(demo_folder / "plan.csv")
+    assert np.allclose(csv["mag_band_pred"], b["mag_band_pred"], atol=0.01)

@@ -77,10 +77,9 @@ def render_table(d: dict) -> str:
     sites = ", ".join(f"{k} {v}" for k, v in inp["sites"].items()) or "not given"
     points = f"{inp['n_times']} times"
     if s.get("stack_s"):
-        floor = f", plus {s['sys_err_mag_per_airmass']:g} mag per airmass" if s["sys_err_mag_per_airmass"] else ""
         points = (
             f"{inp['n_frames']} frames stacked into {inp['n_times']} points (one per site and "
-            f"{_duration(s['stack_s'] / 3600.0)} slot{floor})"
+            f"{_duration(s['stack_s'] / 3600.0)} slot)"
         )
     lines.append(
         f"{points}, {inp['first_utc']} to {inp['last_utc']} (span {inp['span_h']:.1f} h); points per site: {sites}"
@@ -97,8 +96,10 @@ def render_table(d: dict) -> str:
             if src.get(k)
         ]
         frames = "frames" if s.get("stack_s") else "points"
+        airmass = s.get("sys_err_mag_per_airmass")
+        floor = f"; plus {airmass:g} mag per airmass, added in quadrature" if s.get("stack_s") and airmass else ""
         lines.append(
-            f"photometric σ per point: median {inp['median_mag_err']:.4f} mag ({frames}' σ: {', '.join(parts)})"
+            f"photometric σ per point: median {inp['median_mag_err']:.4f} mag ({frames}' σ: {', '.join(parts)}{floor})"
         )
     if inp.get("light_time_corrected"):
         lines.append("periods computed on light-time corrected times (t − Δ/c, from the target's geometry)")

@@ -240,10 +240,17 @@ def register(app: typer.Typer) -> None:
             from planner.demo import DEMO_DIR
 
             sources = [DEMO_DIR / "c2034-b3-quillfeather.toml", DEMO_DIR / "demo-campaign.toml"]
+            sources += [DEMO_DIR / "demo-first-nights.csv"]
             sources += sorted((DEMO_DIR / "sites").glob("*.toml"))
             files = {folder / p.relative_to(DEMO_DIR): p.read_text(encoding="utf-8") for p in sources}
             _write_all(files)
-            typer.echo(f"demo inputs in {folder}: run  phasewise plan {folder / 'demo-campaign.toml'} --out plan")
+            camp, log = folder / "demo-campaign.toml", folder / "demo-first-nights.csv"
+            typer.echo(
+                f"demo inputs in {folder} (invented comet, four sites, and a log of its first three nights); next:\n"
+                f"  phasewise plan {camp} --out plan\n"
+                f"  phasewise fit {log} --target {folder / 'c2034-b3-quillfeather.toml'}\n"
+                f"  phasewise plan {camp} --done {log} --out replan"
+            )
             return
         if (mpc_line is None) == (mpc_file is None):
             raise InputError("command line", "--mpc-line", "give the target as --mpc-line LINE or --mpc-file FILE")

@@ -24,6 +24,7 @@ from planner.core.timegrid import parse_date, parse_duration_s, parse_utc, to_jd
 NAME_UNITS = {
     "hours": "h",
     "mag_pred": "mag",
+    "mag_band_pred": "mag",
     "mag_err": "mag",
     "mag_err_pred": "mag",
     "km_per_arcsec": "km / arcsec",

@@ -92,9 +92,10 @@ def _halves(design: FixedDesign, freq: float, nterms: int) -> HalvesTest:
 
 
 def _describe(h: HalvesTest, p_h: float) -> str:
+    verdict = "" if h.differ else f", short of the p < {P_VALUE_3SIGMA:g} (3σ) that tells them apart"
     return (
         f"halves of the {p_h:.4g} h light curve: Δχ² = {h.delta_chi2:.1f} on {h.n_params} parameters, "
-        f"p = {h.p_value:.2g}"
+        f"p = {h.p_value:.2g}{verdict}"
     )
 
 

@@ -13,6 +13,14 @@ from planner.outputs.tablefiles import table_for_files
 from planner.pipeline import PlanResult
 
 
+def _mag_words(r) -> str:
+    """The predicted magnitude as the observer needs it: in the instrument's band when the site has one."""
+    band, m = str(getattr(r, "band", "") or ""), getattr(r, "mag_band_pred", float("nan"))
+    if band and isinstance(m, float) and math.isfinite(m):
+        return f"{m:.1f} in {band} ({r.mag_pred:.1f} in the brightness law's band)"
+    return f"{r.mag_pred:.1f}"
+
+
 def _block_cautions(r, max_airmass: float) -> list[str]:
     """The block's cautions (its ``cautions`` column) in words, with the numbers that raised them."""
     detail = {
@@ -74,7 +82,7 @@ def block_lines(r, max_airmass: float, pointing: bool = True) -> list[str]:
         f"(RA*cos(Dec) {r.ra_rate_arcsec_per_min:+.3f}, Dec {r.dec_rate_arcsec_per_min:+.3f} arcsec/min)",
         f"altitude {r.min_alt_deg:.0f}-{r.max_alt_deg:.0f} deg, airmass {r.min_airmass:.2f}-"
         f"{r.max_airmass:.2f}; Moon {r.moon_sep_deg:.0f} deg away, {100 * r.moon_illum:.0f}% lit",
-        f"exposures: {exp}; predicted mag {r.mag_pred:.1f}, S/N per exposure {fixed(r.snr_pred, '.0f').strip()}",
+        f"exposures: {exp}; predicted mag {_mag_words(r)}, S/N per exposure {fixed(r.snr_pred, '.0f').strip()}",
         *(f"CAUTION: {c}" for c in _block_cautions(r, max_airmass)),
     ]
 

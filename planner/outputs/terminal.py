@@ -17,7 +17,8 @@ TABLE_LEGEND = (
     "columns: night = local evening date; local, UTC = block start-end (hh:mm, set-up included); "
     "h = hours;\n  exp = exposures x seconds; RA, Dec in deg (mid-block); mot = sky motion arcsec/min "
     "towards PA deg;\n  alt = altitude range deg; X = airmass range; moon = Moon separation deg; "
-    "mag = predicted magnitude; S/N per exposure"
+    "mag = predicted magnitude in the\n  site's instrument band (the brightness law's band where a site has none); "
+    "S/N per exposure"
 )
 
 
@@ -48,11 +49,17 @@ def night_table(blocks: pd.DataFrame) -> str:
             f"{fixed(r.ra_deg, '.2f', 7)} {fixed(r.dec_deg, '+.1f', 6)} {fixed(r.motion_arcsec_per_min, '.2f', 6)} "
             f"{fixed(r.motion_pa_deg, '.0f', 4)} {fixed(r.min_alt_deg, '.0f', 3)}-{fixed(r.max_alt_deg, '.0f', 3)} "
             f"{fixed(r.min_airmass, '.2f', 4)}-{fixed(r.max_airmass, '.2f', 4)} {fixed(r.moon_sep_deg, '.0f', 4)} "
-            f"{fixed(r.mag_pred, '.1f', 5)} {fixed(r.snr_pred, '.0f', 5)}{flag}"
+            f"{fixed(_band_mag(r), '.1f', 5)} {fixed(r.snr_pred, '.0f', 5)}{flag}"
         )
     flagged = "cautions" in t and t["cautions"].fillna("").astype(str).str.strip().ne("").any()
     lines.append(TABLE_LEGEND + ("; ! = the block has a caution (listed under SAFETY)" if flagged else ""))
     return "\n".join(lines) + "\n"
+
+
+def _band_mag(r) -> float:
+    """The block's predicted magnitude in its instrument's band, else in the brightness law's band."""
+    m = getattr(r, "mag_band_pred", float("nan"))
+    return m if isinstance(m, float) and math.isfinite(m) else r.mag_pred
 
 
 def nights_text(result: PlanResult) -> str:

@@ -61,6 +61,8 @@ BLOCK_COLUMNS = (
     "moon_sep_deg",
     "moon_illum",
     "mag_pred",
+    "band",
+    "mag_band_pred",
     "snr_pred",
     "mag_err_pred",
     "solar_elong_deg",
@@ -141,12 +143,16 @@ def block_table(
             snr = phot["snr_pred"].to_numpy(dtype=float)
             err = phot["mag_err_pred"].to_numpy(dtype=float)
             limited = phot["exposure_limited_by"].astype(str).to_numpy()
+            band = phot["band"].astype(str).to_numpy()
+            mag_band = phot["mag_band_pred"].to_numpy(dtype=float)
             readout = inst.readout_s
         else:
             exp_s = np.full(len(mine), np.nan)
             snr = np.full(len(mine), np.nan)
             err = np.full(len(mine), np.nan)
             limited = np.full(len(mine), "no instrument", dtype=object)
+            band = np.full(len(mine), "", dtype=object)
+            mag_band = np.full(len(mine), np.nan)
             readout = DEFAULT_READOUT_S
         plan_exp = np.where(np.isfinite(exp_s), exp_s, DEFAULT_EXPOSURE_S)
         n_exp = exposures_per_block(science_s, plan_exp, readout, 0.0)
@@ -187,6 +193,8 @@ def block_table(
                     moon_sep_deg=float(m["moon_sep_deg"]),
                     moon_illum=float(m["moon_illum"]),
                     mag_pred=float(m["mag_pred"]),
+                    band=str(band[k]),
+                    mag_band_pred=float(mag_band[k]),
                     snr_pred=float(snr[k]),
                     mag_err_pred=float(err[k]),
                     solar_elong_deg=float(agg["solar_elong_deg"].iloc[k]),

@@ -104,7 +104,10 @@ def _why_nothing_left(
     else:
         cut, left = "", float(open_["hours"].sum())
     if hpn is not None and observed_h > 0 and hpn - observed_h < min_h:
-        return f"the {hpn:g} h this night's allocation gives leave under the shortest block ({min_h:g} h)"
+        return (
+            f"this night's {hpn:g} h allocation leaves {max(hpn - observed_h, 0.0):.2f} h after the log, "
+            f"under the shortest block ({min_h:g} h)"
+        )
     around = " and around the observed runs" if observed_h > 0 else ""
     after = f"{cut}; what is left of the window after it{around}" if cut else f"what is left of the window{around}"
     return f"{after} ({left:.2f} h at most) is under the shortest block ({min_h:g} h)"
