@@ -288,14 +288,12 @@ def register(app: typer.Typer) -> None:
         ] = None,
     ) -> None:
         """Coverage, alias and trend diagnostics for a list of observation times."""
-        from planner.core.fileio import check_writable, write_text_atomic
+        from planner.core.fileio import check_outputs, write_text_atomic
         from planner.diagnostics.check import check_times
         from planner.inputs.obslog import read_observation_log
 
         p_min, p_max = period_range_h(min_period, max_period)
-        for dest, option in ((out, "--out"), (report, "--report"), (plot and plot / "check_coverage.png", "--plot")):
-            if dest is not None:
-                check_writable(dest, field=option)
+        check_outputs((out, "--out"), (report, "--report"), (plot and plot / "check_coverage.png", "--plot"))
         log = read_observation_log(times_csv)
         if log.times_utc.size == 0:
             raise InputError(str(times_csv), "status", f"no observed rows to check ({len(log.lost)} lost rows only)")

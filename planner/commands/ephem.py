@@ -202,7 +202,7 @@ def register(app: typer.Typer) -> None:
         """Geometry table: RA/Dec, r, Delta, phase, elongation, motion, magnitude; alt/az per site."""
         import numpy as np
 
-        from planner.core.fileio import check_writable, write_text_atomic
+        from planner.core.fileio import check_outputs, write_text_atomic
         from planner.core.safety import DEFAULT_MIN_SOLAR_ELONG_DEG
         from planner.core.timegrid import parse_duration_s, parse_utc, time_grid
         from planner.inputs.sites import load_site
@@ -225,8 +225,7 @@ def register(app: typer.Typer) -> None:
         if (t1 - t0) / np.timedelta64(1, "s") / step_s + 1 > MAX_ROWS:
             raise InputError("command line", "step", f"{step} gives more than {MAX_ROWS} epochs; use a longer step")
         utc_times(np.array([t0, t1]), "command line", "start/stop")  # inside DE421's span?
-        if out is not None:
-            check_writable(out)
+        check_outputs((out, "--out"))
         tgt = load_target(target, object_name)
         sites = [load_site(p) for p in (site or [])]
         frames = add_photometry(

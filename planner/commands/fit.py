@@ -68,7 +68,7 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Fit the light curve of a log: rotation period with its alias candidates, fading, period change."""
         from planner.commands.check import period_range_h
-        from planner.core.fileio import check_writable, write_text_atomic
+        from planner.core.fileio import check_outputs, write_text_atomic
         from planner.inputs.obslog import read_observation_log
         from planner.inputs.sites import load_site
         from planner.inputs.targets import load_target
@@ -79,9 +79,7 @@ def register(app: typer.Typer) -> None:
 
         if fmt not in ("table", "json"):
             raise InputError("command line", "--format", f"{fmt!r}: choose table or json")
-        for dest, option in ((out, "--out"), (report, "--report")):
-            if dest is not None:
-                check_writable(dest, field=option)
+        check_outputs((out, "--out"), (report, "--report"))
         p_min, p_max = period_range_h(min_period, max_period)
         sigma_n = _night_sigma(night_offset_sigma)
         log = read_observation_log(log_csv)

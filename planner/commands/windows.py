@@ -185,7 +185,7 @@ def register(app: typer.Typer) -> None:
         Sites with an instrument table also get the exposure plan at each window's best moment."""
         import numpy as np
 
-        from planner.core.fileio import check_writable, write_text_atomic
+        from planner.core.fileio import check_outputs, write_text_atomic
         from planner.core.timegrid import check_nights_in_span, parse_date, parse_duration_s
         from planner.inputs.sites import load_site
         from planner.inputs.targets import load_target
@@ -197,8 +197,7 @@ def register(app: typer.Typer) -> None:
         first = parse_date(start, field="start")
         check_nights_in_span(first, nights, "command line", "start")
         step_s = parse_duration_s(step, field="step")
-        if out is not None:
-            check_writable(out)
+        check_outputs((out, "--out"))
         sites = [load_site(p) for p in site]
         tgt = load_target(target, object_name)
         df = observable_windows(tgt, sites, first, nights, step_s=step_s)

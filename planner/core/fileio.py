@@ -146,6 +146,13 @@ def check_writable(path: str | Path, *, folder: bool = False, field: str = "--ou
     return p
 
 
+def check_outputs(*dests: tuple[str | Path | None, str]) -> None:
+    """:func:`check_writable` for each ``(path, option)`` a command was given (None: not given)."""
+    for path, field in dests:
+        if path is not None:
+            check_writable(path, field=field)
+
+
 def _os_error(p: Path, exc: OSError) -> InputError:
     """A failed write as one line (disk full, permission, name too long, ...)."""
     if exc.errno in (errno.ENOTDIR, errno.EEXIST):

@@ -5,7 +5,7 @@ call :func:`planner.lightcurve.fit.fit_light_curve` on the points. Reads the bun
 the ephemeris (like :mod:`planner.lightcurve.geometry`), no other file.
 
 * σ per point: the log's ``mag_err``, else the instrument model of the point's site, else a
-  fallback (:func:`planner.photometry.tables.log_mag_err`, the rule ``check`` follows).
+  fallback (:func:`planner.photometry.frames.log_mag_err`, the rule ``check`` follows).
 * Zero-point groups: the site, or ``site [band]`` when one site logs several bands (a colour
   difference is then one more zero point; no colour term is fitted).
 * Nights: the log's ``night`` column; else the local evening date at a site with a known time zone

@@ -13,12 +13,19 @@ from planner.outputs.tablefiles import table_for_files
 from planner.pipeline import PlanResult
 
 
-def _mag_words(r) -> str:
-    """The predicted magnitude as the observer needs it: in the instrument's band when the site has one."""
+def block_band_mag(r) -> tuple[float, str]:
+    """A block's predicted magnitude and its band: the site instrument's when it has one, else the
+    brightness law's (band ``""``)."""
     band, m = str(getattr(r, "band", "") or ""), getattr(r, "mag_band_pred", float("nan"))
     if band and isinstance(m, float) and math.isfinite(m):
-        return f"{m:.1f} in {band} ({r.mag_pred:.1f} in the brightness law's band)"
-    return f"{r.mag_pred:.1f}"
+        return m, band
+    return r.mag_pred, ""
+
+
+def _mag_words(r) -> str:
+    """The predicted magnitude as the observer needs it: in the instrument's band when the site has one."""
+    m, band = block_band_mag(r)
+    return f"{m:.1f} in {band} ({r.mag_pred:.1f} in the brightness law's band)" if band else f"{m:.1f}"
 
 
 def _block_cautions(r, max_airmass: float) -> list[str]:

@@ -8,6 +8,7 @@ import pandas as pd
 
 from planner.core.safety import CAUTION_TEXT, SUN_SAFETY_TEXT
 from planner.core.textfmt import clock_hm, fixed
+from planner.outputs.sheets import block_band_mag
 from planner.outputs.tablefiles import table_for_files
 from planner.pipeline import PlanResult
 from planner.schedule.localsearch import EVALUATIONS_PER_VISIT, MIN_EVALUATIONS
@@ -49,17 +50,11 @@ def night_table(blocks: pd.DataFrame) -> str:
             f"{fixed(r.ra_deg, '.2f', 7)} {fixed(r.dec_deg, '+.1f', 6)} {fixed(r.motion_arcsec_per_min, '.2f', 6)} "
             f"{fixed(r.motion_pa_deg, '.0f', 4)} {fixed(r.min_alt_deg, '.0f', 3)}-{fixed(r.max_alt_deg, '.0f', 3)} "
             f"{fixed(r.min_airmass, '.2f', 4)}-{fixed(r.max_airmass, '.2f', 4)} {fixed(r.moon_sep_deg, '.0f', 4)} "
-            f"{fixed(_band_mag(r), '.1f', 5)} {fixed(r.snr_pred, '.0f', 5)}{flag}"
+            f"{fixed(block_band_mag(r)[0], '.1f', 5)} {fixed(r.snr_pred, '.0f', 5)}{flag}"
         )
     flagged = "cautions" in t and t["cautions"].fillna("").astype(str).str.strip().ne("").any()
     lines.append(TABLE_LEGEND + ("; ! = the block has a caution (listed under SAFETY)" if flagged else ""))
     return "\n".join(lines) + "\n"
-
-
-def _band_mag(r) -> float:
-    """The block's predicted magnitude in its instrument's band, else in the brightness law's band."""
-    m = getattr(r, "mag_band_pred", float("nan"))
-    return m if isinstance(m, float) and math.isfinite(m) else r.mag_pred
 
 
 def nights_text(result: PlanResult) -> str:

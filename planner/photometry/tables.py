@@ -4,8 +4,8 @@ Table entry points over the kernels of :mod:`planner.photometry.skybright` (Kris
 1991), :mod:`planner.photometry.ccd` (Merline & Howell 1995) and :mod:`planner.photometry.coma`
 (A'Hearn et al. 1984): :func:`photometry_columns` (one site's geometry table),
 :func:`add_photometry` (a whole ``geometry()`` result), :func:`window_photometry` (observing
-windows), :func:`frame_model`, :func:`mag_err_for_times`, :func:`log_frame_model` and
-:func:`log_mag_err` (per-point σ and airmass for the diagnostics).
+windows). The σ of frames at given times (planned, or a log's own) is in
+:mod:`planner.photometry.frames`.
 Twilight is not modelled: rows with the Sun above ``max_sun_alt_deg`` (default −12°) get no
 prediction.
 """
