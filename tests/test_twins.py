@@ -327,7 +327,7 @@ TWINS = [
     Twin("intervals.true_runs", _true_runs),
     Twin("intervals.refine_edges", _refine_edges, atol=1.0),
     Twin("ccd.exposure_for_snr_s", _exposure, rtol=1e-9),
-    Twin("coverage.phase_coverage", _coverage),
+    Twin("coverage.phase_coverage", _coverage, atol=coverage.GAP_RESOLUTION_CYCLES),
     Twin("specwindow.spectral_window", _window, rtol=1e-9, atol=1e-12),
     Twin("specwindow.nyquist_freq_per_day", _nyquist),
     Twin("periodogram.multiharmonic_power", _periodogram, rtol=1e-8, atol=1e-10),

@@ -76,6 +76,10 @@ def _chunks(n_periods: int, n_times: int):
         yield slice(start, min(start + step, n_periods))
 
 
+#: Resolution of the largest phase gap: phases are counted in 2^-16 cycle steps for it (see phase_coverage).
+GAP_RESOLUTION_CYCLES = 2.0**-16
+
+
 def phase_coverage(times_jd: np.ndarray, periods_h: np.ndarray, n_bins: int = 20) -> tuple[np.ndarray, np.ndarray]:
     """Fraction of phase bins holding at least one time, and the largest phase gap, per period.
 
@@ -83,6 +87,11 @@ def phase_coverage(times_jd: np.ndarray, periods_h: np.ndarray, n_bins: int = 20
     largest empty arc of rotational phase (in cycles, 0–1) between consecutive folded times,
     counted around the circle. No times gives coverage 0 and gap 1; one time gives gap 1.
     Vectorised over periods (chunked to bound memory).
+
+    The gap is found on the folded phases counted in steps of 2^-16 cycle (16-bit integers, which
+    numpy sorts by radix in linear time, several times faster than sorting floats); it is within
+    :data:`GAP_RESOLUTION_CYCLES` (1.5e-5 cycle: 0.1 s of a 2-h rotation) of the exact value, far
+    below the phase any exposure smears over. The bins are counted from the exact phases.
     """
     p = np.atleast_1d(np.asarray(periods_h, dtype=float))
     t = np.asarray(times_jd, dtype=float).ravel()
@@ -90,16 +99,19 @@ def phase_coverage(times_jd: np.ndarray, periods_h: np.ndarray, n_bins: int = 20
     gap = np.ones(p.shape[0])
     if t.size == 0:
         return frac, gap
+    steps = 1 << 16
     for sl in _chunks(p.shape[0], t.size):
         phase = rotational_phase(t, p[sl])
+        # phase < 1, so phase · 2^16 < 2^16 exactly (the product of a double below 1 by a power of two)
+        ticks = (phase * steps).astype(np.uint16)
         idx = np.minimum(np.floor(phase * n_bins).astype(np.int64), n_bins - 1)
         idx += (np.arange(phase.shape[0]) * n_bins)[:, None]
         occupied = np.bincount(idx.ravel(), minlength=phase.shape[0] * n_bins).reshape(-1, n_bins) > 0
         frac[sl] = occupied.sum(axis=1) / n_bins
-        phase.sort(axis=1)
-        inner = np.diff(phase, axis=1).max(axis=1, initial=0.0)
-        wrap = 1.0 - phase[:, -1] + phase[:, 0]
-        gap[sl] = np.maximum(inner, wrap)
+        ticks.sort(axis=1, kind="stable")  # radix sort for 16-bit integers
+        inner = np.diff(ticks, axis=1).max(axis=1, initial=0).astype(np.int64)
+        wrap = steps - ticks[:, -1].astype(np.int64) + ticks[:, 0]
+        gap[sl] = np.maximum(inner, wrap) / steps
     return frac, gap
 
 

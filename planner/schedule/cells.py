@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from planner.schedule.objective import arc_bins, arc_mask, arc_mask_slow, coverage_gains_slow
+from planner.schedule.objective import arc_bins, arc_lengths, arc_mask, arc_mask_slow, coverage_gains_slow
 
 #: (elements × periods) pairs counted per chunk: each int64 temporary stays near 16 MB.
 _CHUNK_PAIRS = 2_000_000
@@ -59,6 +59,11 @@ def arc_gains_prefix(
     flat = prefix.ravel()
     out = np.empty(t0.size, dtype=np.int64)
     chunk = max(1, _CHUNK_PAIRS // max(n_p, 1))
+    if n_p and not prefix[:, -1].any():
+        # An empty map (the greedy's first pass over every element): each run is all new, no look-ups.
+        for a in range(0, t0.size, chunk):
+            out[a : a + chunk] = arc_lengths(t0[a : a + chunk], t1[a : a + chunk], periods_h, n_bins).sum(axis=1)
+        return out
     for a in range(0, t0.size, chunk):
         first, n_cov = arc_bins(t0[a : a + chunk], t1[a : a + chunk], periods_h, n_bins)
         lo = first + row

@@ -48,11 +48,10 @@ from dataclasses import dataclass
 import numpy as np
 
 
-def arc_bins(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray, n_bins: int) -> tuple[np.ndarray, np.ndarray]:
-    """First phase bin and number of bins touched by each interval on each period: int arrays (N, P).
-
-    Phase zero is at t = 0. An interval as long as the period touches every bin.
-    """
+def _arc_runs(t0_h, t1_h, periods_h, n_bins: int) -> tuple[np.ndarray, np.ndarray]:
+    """Absolute first bin (a whole float, phase zero at t = 0) and run length (int64, at most ``n_bins``)
+    of each interval on each period: (N, P) arrays. The one rounding rule of :func:`arc_bins` and
+    :func:`arc_lengths`."""
     t0 = np.asarray(t0_h, dtype=float).reshape(-1, 1)
     t1 = np.asarray(t1_h, dtype=float).reshape(-1, 1)
     p = np.asarray(periods_h, dtype=float).reshape(1, -1)
@@ -65,13 +64,29 @@ def arc_bins(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray, n_bins: 
     np.floor(first_abs, out=first_abs)
     last_abs -= first_abs
     last_abs += 1
-    n_cov = np.minimum(last_abs, n_bins, out=last_abs).astype(np.int64)
+    return first_abs, np.minimum(last_abs, n_bins, out=last_abs).astype(np.int64)
+
+
+def arc_bins(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray, n_bins: int) -> tuple[np.ndarray, np.ndarray]:
+    """First phase bin and number of bins touched by each interval on each period: int arrays (N, P).
+
+    Phase zero is at t = 0. An interval as long as the period touches every bin.
+    """
+    first_abs, n_cov = _arc_runs(t0_h, t1_h, periods_h, n_bins)
     # first_abs is a whole number below 2^53, so its floor division by n_bins is exact: the same value
     # as np.mod(first_abs, n_bins), several times faster.
     wraps = np.floor(first_abs / n_bins)
     wraps *= n_bins
     first_abs -= wraps
     return first_abs.astype(np.int64), n_cov
+
+
+def arc_lengths(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray, n_bins: int) -> np.ndarray:
+    """Number of bins touched by each interval on each period (the second half of :func:`arc_bins`): int64 (N, P).
+
+    What an interval adds to an empty coverage map, without locating its first bin.
+    """
+    return _arc_runs(t0_h, t1_h, periods_h, n_bins)[1]
 
 
 def arc_mask(t0_h: np.ndarray, t1_h: np.ndarray, periods_h: np.ndarray, n_bins: int) -> np.ndarray:
