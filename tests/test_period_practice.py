@@ -177,3 +177,20 @@ def test_the_demo_plans_diagnostics_are_light_time_corrected_and_its_map_agrees(
     times = figstyle.check_times_utc(check, np.array([], dtype="datetime64[ns]"), emission=True)
     occupied = figstyle.phase_occupancy(times, np.array(check["periods_h"]), check["settings"]["phase_bins"])
     np.testing.assert_allclose(occupied.mean(axis=1), check["coverage"], atol=1e-12)
+
+
+def test_trial_chunks_sized_by_memory_give_the_same_powers(monkeypatch):
+    # Chunking over trials only bounds memory: one trial at a time must give the same powers and the
+    # same P-versus-P/2 choices as sixteen at a time (each trial's normal equations stand alone).
+    from planner.diagnostics import trialpower
+
+    rng = np.random.default_rng(11)
+    t = np.sort(2460000.5 + rng.uniform(0, 6, 300))
+    y = 0.2 * np.sin(2 * np.pi * t * 24 / 7.3)[:, None] + rng.normal(0, 0.02, (t.size, 20))
+    f = rng.uniform(0.8, 12.0, (20, 5))
+    kw = dict(nterms=2, sigma=0.02, trend_degree=1)
+    best = f[:, 0]
+    wide = trialpower.trial_power(t, y, f, **kw), trialpower.prefer_longer_period(t, y, best, 0.01, 0.5, **kw)
+    monkeypatch.setattr(trialpower, "_CHUNK_PHASORS", 1)
+    narrow = trialpower.trial_power(t, y, f, **kw), trialpower.prefer_longer_period(t, y, best, 0.01, 0.5, **kw)
+    assert np.allclose(wide[0], narrow[0], rtol=1e-12, atol=0) and np.array_equal(wide[1], narrow[1])

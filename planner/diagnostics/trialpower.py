@@ -12,6 +12,14 @@ import numpy as np
 
 from planner.diagnostics.periodogram import trend_basis
 
+#: Phasors (trials × frequencies × points) held per chunk: the harmonic columns built from them stay
+#: near 64 MB whatever the number of points (a month at 16 sites has 23 040).
+_CHUNK_PHASORS = 1_000_000
+
+
+def _trials_per_chunk(chunk: int, n_freq: int, n_points: int) -> int:
+    return max(1, min(int(chunk), _CHUNK_PHASORS // max(1, n_freq * n_points)))
+
 
 def _trend_free(times_jd, mags, *, sigma, trend_degree=1, trend_columns=None):
     """Weighted data with the trend projected out: (t − t_mid, weights, trend basis Q, y_r, χ²_trend).
@@ -62,6 +70,7 @@ def trial_power(
     tc, w, q, yr, chi_trend = _trend_free(times_jd, mags, **trend)
     freqs = np.asarray(freq_per_day, dtype=float).reshape(yr.shape[1], -1)
     out = np.zeros(freqs.shape)
+    chunk = _trials_per_chunk(chunk, freqs.shape[1], tc.size)
     for a in range(0, yr.shape[1], chunk):
         b = min(a + chunk, yr.shape[1])
         z = np.exp(2j * np.pi * freqs[a:b, :, None] * tc)
@@ -96,6 +105,7 @@ def prefer_longer_period(
     shifts = np.arange(-2, 3)
     step_z = np.exp(2j * np.pi * half_step * shifts[:, None] * tc)  # (5, N)
     top, half = np.empty((best.size, 5)), np.empty((best.size, 5))
+    chunk = _trials_per_chunk(chunk, 2 * shifts.size, tc.size)
     for a in range(0, best.size, chunk):
         b = min(a + chunk, best.size)
         u = np.exp(1j * np.pi * best[a:b, None] * tc)  # exp(2πi (φ/2) t), (m, N)
