@@ -2,18 +2,43 @@
 
 from __future__ import annotations
 
+import dataclasses
 from datetime import date, timedelta
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from planner.inputs.settings import BlockRules, Weights
+from planner.inputs.campaign import Campaign
+from planner.inputs.settings import BlockRules, Rotation, Weights
 from planner.inputs.sites import Allocation, Site
 from planner.schedule.objective import alias_freq_grid
 from planner.schedule.planmodel import Done, PlanModel
 from planner.schedule.slots import build_slots
 
 T_REF = np.datetime64("2034-03-15T00:00", "ns")
+
+#: The small campaigns' block rules (10-minute slots, 1–3 h blocks, two a night).
+SMALL_BLOCKS = BlockRules(slot_minutes=10, min_block_h=1.0, max_block_h=3.0, setup_minutes=10, max_per_night=2)
+
+
+def small_campaign(sites, nights: int, **changes) -> Campaign:
+    """A campaign built in Python over ``sites`` from 2034-03-16 (periods 3–20 h on 8 bins, a coarse grid,
+    ten weather trials), with any field replaced by ``changes``."""
+    base = Campaign(
+        name="small",
+        path=Path("small.toml"),
+        target_path=Path("t.toml"),
+        site_paths=(),
+        sites=tuple(sites),
+        first_night=date(2034, 3, 16),
+        nights=nights,
+        seed=3,
+        rotation=Rotation(min_period_h=3.0, max_period_h=20.0, phase_bins=8, oversample=2.0),
+        block_rules=SMALL_BLOCKS,
+        weather_trials=10,
+    )
+    return dataclasses.replace(base, **changes)
 
 
 def synthetic_windows(

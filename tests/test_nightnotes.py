@@ -2,39 +2,18 @@
 
 from __future__ import annotations
 
-import dataclasses
-from datetime import date
-from pathlib import Path
-
 import numpy as np
 import pandas as pd
 
-from planner.inputs.campaign import Campaign
-from planner.inputs.settings import BlockRules, Rotation, Weights
+from planner.inputs.settings import Weights
 from planner.pipeline import schedule_core
 from planner.schedule.nightnotes import night_notes
 from planner.schedule.planmodel import Visit
 from planner.schedule.state import PlanState
-from tests.schedule_helpers import T_REF, synthetic_windows
+from tests.schedule_helpers import SMALL_BLOCKS, T_REF, small_campaign, synthetic_windows
 
-BLOCKS = BlockRules(slot_minutes=10, min_block_h=1.0, max_block_h=3.0, setup_minutes=10, max_per_night=2)
-
-
-def _campaign(sites, nights, **changes) -> Campaign:
-    base = Campaign(
-        name="notes",
-        path=Path("notes.toml"),
-        target_path=Path("t.toml"),
-        site_paths=(),
-        sites=tuple(sites),
-        first_night=date(2034, 3, 16),
-        nights=nights,
-        seed=3,
-        rotation=Rotation(min_period_h=3.0, max_period_h=20.0, phase_bins=8, oversample=2.0),
-        block_rules=BLOCKS,
-        weather_trials=10,
-    )
-    return dataclasses.replace(base, **changes)
+BLOCKS = SMALL_BLOCKS
+_campaign = small_campaign
 
 
 def _windows():

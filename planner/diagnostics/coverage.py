@@ -43,6 +43,24 @@ def period_grid_h(min_period_h: float, max_period_h: float, span_h: float, overs
     return 1.0 / freq_per_h
 
 
+def thin_periods(periods_h: np.ndarray, max_n: int) -> np.ndarray:
+    """At most ``max_n`` of a period grid, evenly spread over its indices (so over frequency, for a
+    grid uniform in frequency), both ends kept; the grid itself when it is no longer.
+
+    The scheduler's objective counts phase coverage on every trial period for every candidate visit,
+    so its cost grows as the number of visits times the number of periods, both in proportion to the
+    campaign's span. Beyond ``max_n`` periods it counts on this sub-grid, a step of at most
+    ``ceil((n − 1)/(max_n − 1))`` grid steps: the fraction of cells covered on it estimates the fraction on
+    the whole grid as a stratified sample does, while the checks still evaluate every period.
+    """
+    p = np.asarray(periods_h, dtype=float)
+    if max_n < 2:
+        raise ValueError("max_n must be at least 2")
+    if p.size <= max_n:
+        return p
+    return p[np.unique(np.rint(np.linspace(0, p.size - 1, int(max_n))).astype(np.int64))]
+
+
 def _centred_days(times_jd: np.ndarray) -> np.ndarray:
     """Times in days from their first epoch: keeps phases exact to ~1e-12 cycles."""
     t = np.asarray(times_jd, dtype=float).ravel()

@@ -50,7 +50,15 @@ _TOP_KEYS = {
     "site",
     "object",
 }
-_ROTATION_KEYS = {"min_period_h", "max_period_h", "double_peaked", "amplitude_mag", "phase_bins", "oversample"}
+_ROTATION_KEYS = {
+    "min_period_h",
+    "max_period_h",
+    "double_peaked",
+    "amplitude_mag",
+    "phase_bins",
+    "oversample",
+    "max_plan_periods",
+}
 _BLOCK_KEYS = {"slot_minutes", "min_block_h", "max_block_h", "setup_minutes", "max_per_night"}
 _CADENCE_KEYS = {"max_gap_h"}
 _WEIGHT_KEYS = {"coverage", "robustness", "alias", "cadence", "hours", "quality", "discrimination"}

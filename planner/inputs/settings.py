@@ -20,6 +20,7 @@ ROTATION_LIMITS = {
     "max_period_h": Limit(0.05, 2000.0),
     "phase_bins": Limit(4, 200, whole=True),
     "oversample": Limit(1.0, 100.0),
+    "max_plan_periods": Limit(100, 1_000_000, whole=True),
 }
 BLOCK_LIMITS = {
     "slot_minutes": Limit(1.0, 60.0),
@@ -55,6 +56,9 @@ class Rotation:
     phase_bins: int = 20
     #: Period-grid oversampling (frequency step 1/(oversample · span)).
     oversample: float = 10.0
+    #: The optimiser counts coverage on at most this many of the trial periods (evenly thinned in
+    #: frequency beyond it; planner.diagnostics.coverage.thin_periods); checks use every period.
+    max_plan_periods: int = 4000
 
     def __post_init__(self) -> None:
         check_limits(self, ROTATION_LIMITS, PYTHON)

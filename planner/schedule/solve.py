@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 
 from planner.core.errors import InputError
-from planner.diagnostics.coverage import period_grid_h
+from planner.diagnostics.coverage import period_grid_h, thin_periods
 from planner.inputs.campaign import Campaign
 from planner.inputs.donelog import DoneLog
 from planner.inputs.settings import Weights
@@ -92,6 +92,8 @@ class ObjectiveSummary:
     n_alias_freqs: int
     seconds: dict[str, float]
     exact: ExactComparison | None = None
+    #: Trial periods of the whole grid (``n_periods`` of them, evenly thinned, are the optimiser's).
+    n_periods_grid: int | None = None
     #: The candidate rotation periods separated by the discrimination term (re-planning from a light curve),
     #: and the pairs it separates.
     candidates_h: list[float] | None = None
@@ -114,6 +116,7 @@ class ObjectiveSummary:
             "guarantee": {"ratio": self.guarantee_ratio, "statement": self.guarantee},
             "local_search": dict(self.search.__dict__),
             "n_periods": self.n_periods,
+            "n_periods_grid": self.n_periods if self.n_periods_grid is None else self.n_periods_grid,
             "phase_bins": self.phase_bins,
             "n_alias_freqs": self.n_alias_freqs,
             "seconds": self.seconds,
@@ -244,10 +247,11 @@ def schedule_core(
     span_h = campaign.nights * 24.0
     band = (rot.min_period_h, rot.max_period_h)
     if candidates is None:
-        periods = period_grid_h(*band, span_h, rot.oversample)
+        grid_periods = period_grid_h(*band, span_h, rot.oversample)
     else:
-        periods = candidates.period_grid_h(span_h, rot.oversample)
-        band = (float(periods.min()), float(periods.max()))
+        grid_periods = candidates.period_grid_h(span_h, rot.oversample)
+        band = (float(grid_periods.min()), float(grid_periods.max()))
+    periods = thin_periods(grid_periods, rot.max_plan_periods)
     freqs = alias_freq_grid(*band, span_h, rot.double_peaked)
     freqs = freqs[freqs <= ALIAS_MAX_FREQ_PER_DAY]
     weight = quality = precision = moments = None
@@ -284,6 +288,7 @@ def schedule_core(
         guarantee=opt.guarantee,
         search=opt.search,
         n_periods=int(periods.size),
+        n_periods_grid=int(grid_periods.size),
         phase_bins=int(rot.phase_bins),
         n_alias_freqs=int(freqs.size),
         seconds=opt.seconds,
