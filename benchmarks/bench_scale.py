@@ -5,8 +5,10 @@ latitudes, each with a small telescope and 4 h a night; the target is the demo c
 (planner/data/demo/c2034-b3-quillfeather.toml), observable from mid-March to June 2034. The campaign uses
 the demo's settings (5-minute slots, periods 2–30 h, 400 weather trials, 100 injection trials).
 Every run is a fresh subprocess (BLAS threads pinned) that loads the campaign, plans it, writes
-the plan folder with its report, then re-renders the report alone (what `phasewise report` does);
-it prints wall times per stage and its peak resident memory (VmHWM from /proc/self/status).
+the plan folder with its report (the first render, every figure drawn: the "1st report" column,
+against the goal of 10 % of the plan), then re-renders the report alone (what `phasewise report`
+does, its figures from the folder's cache); it prints wall times per stage and its peak resident
+memory (VmHWM from /proc/self/status).
 
 Default: 16 sites × 30 nights (goal ≤ 60 s and ≤ 600 MB), then a nights sweep at 4 sites
 (7, 15, 30, 60, 90 nights), with the exponents of time and memory against nights fitted by least
@@ -138,12 +140,21 @@ def child(campaign_path: str, out_dir: str) -> None:
     t_start = time.perf_counter()
     sys.path.insert(0, str(ROOT))
     from planner.inputs.campaign import load_campaign
+    from planner.outputs import planfolder
     from planner.outputs.planfolder import write_plan_folder
     from planner.outputs.report import write_report
     from planner.pipeline import plan_campaign
     from planner.sky.skydata import no_iers_download
 
     no_iers_download()
+    first_render: list[float] = []
+
+    def timed_report(folder):  # the first render, inside the folder write: every figure drawn
+        t = time.perf_counter()
+        write_report(folder)
+        first_render.append(time.perf_counter() - t)
+
+    planfolder.write_report = timed_report
     t_import = time.perf_counter()
     base_mb = vm_rss_mb()
     camp = load_campaign(campaign_path)
@@ -162,6 +173,7 @@ def child(campaign_path: str, out_dir: str) -> None:
                 "plan_s": t1 - t0,
                 "folder_s": t2 - t1,
                 "report_s": t3 - t2,
+                "first_report_s": first_render[0],
                 "total_s": t2 - t_start,
                 "stages_s": result.timings_s,
                 "objective_s": result.objective.seconds,
@@ -236,7 +248,7 @@ def main() -> None:
         return f"{np.median(v):7.1f} ({v.min():.1f}-{v.max():.1f})" if v.size > 1 else f"{v[0]:7.1f}"
 
     print(
-        f"\n{'sites x nights':>14} {'plan s':>16} {'report s':>16} {'total s':>16} {'peak MB':>16}  "
+        f"\n{'sites x nights':>14} {'plan s':>16} {'1st report s':>16} {'total s':>16} {'peak MB':>16}  "
         "stages (median s)        local search"
     )
     for s in sizes:
@@ -245,7 +257,7 @@ def main() -> None:
         opt = {k: np.median([x["objective_s"][k] for x in r]) for k in r[0]["objective_s"]}
         ls = r[0]["search"]
         print(
-            f"{s[0]:>6} x {s[1]:<5} {med([x['plan_s'] for x in r]):>16} {med([x['report_s'] for x in r]):>16} "
+            f"{s[0]:>6} x {s[1]:<5} {med([x['plan_s'] for x in r]):>16} {med([x['first_report_s'] for x in r]):>16} "
             f"{med([x['total_s'] for x in r]):>16} {med([x['peak_mb'] for x in r]):>16}  "
             + ", ".join(f"{k} {v:.1f}" for k, v in stages.items())
             + f"; optimiser: {', '.join(f'{k} {v:.2f}' for k, v in opt.items())}; "
@@ -256,10 +268,13 @@ def main() -> None:
     if goal:
         t_goal = np.median([x["total_s"] for x in goal])
         m_goal = np.median([x["peak_mb"] for x in goal])
-        rep = np.median([x["report_s"] for x in goal]) / np.median([x["plan_s"] for x in goal])
+        plan_s = np.median([x["plan_s"] for x in goal])
+        first = np.median([x["first_report_s"] for x in goal]) / plan_s
+        again = np.median([x["report_s"] for x in goal]) / plan_s
         print(
             f"\n16 x 30: total {t_goal:.1f} s (goal <= 60 s), peak {m_goal:.0f} MB (goal <= 600 MB), "
-            f"report re-render / plan {100 * rep:.1f} % (goal <= 10 %)"
+            f"report / plan: first render {100 * first:.1f} % (goal <= 10 %), re-render from the figure cache "
+            f"{100 * again:.1f} %"
         )
     nights = [n for (k, n) in sizes if k == sweep_sites]
     if len(nights) >= 3:
