@@ -315,7 +315,9 @@ def test_plan_near_the_sun_keeps_the_limit_and_warns_everywhere(tmp_path, capsys
 
 
 def test_night_chart_with_a_long_reason_keeps_its_layout():
-    from planner.outputs import figures_sky as plots
+    import xml.etree.ElementTree as ET
+
+    from planner.outputs import figures_nights
 
     t = np.arange(np.datetime64("2034-07-12T12:00"), np.datetime64("2034-07-13T12:00"), np.timedelta64(10, "m"))
     hours = (t - t[0]) / np.timedelta64(1, "h")
@@ -334,10 +336,10 @@ def test_night_chart_with_a_long_reason_keeps_its_layout():
         {"site": ["A"], "night": ["2034-07-12"], "start_utc": [""], "end_utc": [""], "reason": [reason]}
     )
     blocks = pd.DataFrame(columns=["site", "night", "start_utc", "end_utc"])
-    fig = plots.site_nights_figure("A", geo, windows, blocks, ["2034-07-12"], 0.0, 20.0)
-    with warnings.catch_warnings():
-        warnings.simplefilter("error")
-        fig.savefig(__import__("io").BytesIO(), format="png", dpi=60)
+    chart = figures_nights.site_nights_svg("A", geo, windows, blocks, ["2034-07-12"], 0.0, 20.0)
+    texts = [t.text for t in ET.fromstring(chart.text).iter("{http://www.w3.org/2000/svg}text")]
+    assert texts.count("no window") == 1 and "Wed 12 Jul" in texts  # the reason itself goes to the table
+    assert chart.width_px == 860
 
 
 # --- logs with repeated rows --------------------------------------------------------------------

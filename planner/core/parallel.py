@@ -131,14 +131,3 @@ def _context():
 
     methods = multiprocessing.get_all_start_methods()
     return multiprocessing.get_context("fork" if "fork" in methods and os.name == "posix" else methods[0])
-
-
-def map_local(fn: Callable[[Any], Any], items: Sequence[Any], *, workers: int | None = None) -> list[Any]:
-    """``fn`` on every item, results in order, over up to ``workers`` local processes (None: every
-    available core; one item or one core: in this process). For independent pieces of output such
-    as figures; ``fn`` must live at module level."""
-    n = max(1, min(available_cores() if workers is None else int(workers), len(items)))
-    if n == 1:
-        return [fn(x) for x in items]
-    with _one_blas_thread(), ProcessPoolExecutor(max_workers=n, mp_context=_context()) as pool:
-        return list(pool.map(fn, items))

@@ -20,6 +20,7 @@ from planner.core.safety import SUN_SAFETY_TEXT
 from planner.core.textfmt import readable
 from planner.outputs.figstyle import svg_bytes
 from planner.outputs.reader import cell_float
+from planner.outputs.svgdraw import SvgChart
 
 
 def fmt(value, digits: int = 3) -> str:
@@ -56,6 +57,13 @@ def json_num(diag: dict, path: str, digits: int = 3, unit: str = "", file: str =
     return num(value, f"{file}:{path}", digits, unit)
 
 
+def _figure(src: str, width_px: int, height_px: int, fig_id: str, caption: str, alt: str) -> str:
+    return (
+        f'<figure id="{fig_id}"><img src="{src}" alt="{html.escape(alt)}" width="{width_px}" height="{height_px}">'
+        f"<figcaption>{caption}</figcaption></figure>"
+    )
+
+
 def figure_html(fig, fig_id: str, caption: str, alt: str) -> str:
     """Embed a Figure as base64 SVG inside <figure> (vector: sharp on any screen, and smaller and faster
     to write than a PNG of the same sharpness); ``width``/``height`` give its CSS size (100 px per inch).
@@ -63,11 +71,14 @@ def figure_html(fig, fig_id: str, caption: str, alt: str) -> str:
     width_in, height_in = fig.get_size_inches()
     data = base64.b64encode(svg_bytes(fig)).decode("ascii")
     fig.clear()
-    return (
-        f'<figure id="{fig_id}"><img src="data:image/svg+xml;base64,{data}" alt="{html.escape(alt)}" '
-        f'width="{round(width_in * 100)}" height="{round(height_in * 100)}">'
-        f"<figcaption>{caption}</figcaption></figure>"
+    return _figure(
+        f"data:image/svg+xml;base64,{data}", round(width_in * 100), round(height_in * 100), fig_id, caption, alt
     )
+
+
+def svg_figure_html(chart: SvgChart, fig_id: str, caption: str, alt: str) -> str:
+    """Embed an SVG written directly (:mod:`planner.outputs.svgdraw`) the same way as :func:`figure_html`."""
+    return _figure(chart.data_uri(), chart.width_px, chart.height_px, fig_id, caption, alt)
 
 
 def _label(header: str) -> str:

@@ -8,10 +8,9 @@ import math
 import numpy as np
 import pandas as pd
 
-from planner.core.parallel import map_local
-from planner.outputs import figures_sky
+from planner.outputs import figures_nights
 from planner.outputs.figcache import FigureCache, drawn
-from planner.outputs.htmlparts import figure_html, table
+from planner.outputs.htmlparts import svg_figure_html, table
 from planner.outputs.reader import PlanFolder, cell_float, utc_offset_h, utc_times
 
 _BLOCK_COLUMNS = ("site", "night", "start_utc", "end_utc")
@@ -69,13 +68,12 @@ def _chart_jobs(pf: PlanFolder, windows: pd.DataFrame) -> list[tuple]:
 
 
 def _site_chart(job: tuple | None) -> str:
-    """One site's night chart as its <figure> (runs in a worker process when there are many sites)."""
+    """One site's night chart as its <figure>."""
     if job is None:
         return ""
     i, site, gs, ws, bs, nights, off, min_alt = job
-    fig = figures_sky.site_nights_figure(site, gs, ws, bs, nights, off, min_alt, legend=False)
-    return figure_html(
-        fig,
+    return svg_figure_html(
+        figures_nights.site_nights_svg(site, gs, ws, bs, nights, off, min_alt),
         f"fig-site-{i}",
         f"Nights at {html.escape(site)}: one row per night, local clock time across; grey shades deepen from "
         "civil twilight to full night; the curve is the target's altitude within the row; hatched strip: the "
@@ -85,13 +83,13 @@ def _site_chart(job: tuple | None) -> str:
 
 
 def _charts(pf: PlanFolder, windows: pd.DataFrame, cache: FigureCache | None) -> dict[int, str]:
-    """Every site's chart: from the cache where drawn before, the rest drawn over local processes."""
+    """Every site's chart: from the cache where drawn before, the rest drawn here (milliseconds each)."""
     jobs = _chart_jobs(pf, windows)
     keys = [None if j is None or cache is None else cache.key("fig-site", j) for j in jobs]
     out = {i: (cache.get(k) if k is not None else None) for i, k in enumerate(keys)}
     todo = [i for i, j in enumerate(jobs) if j is not None and out[i] is None]
-    for i, text in zip(todo, map_local(_site_chart, [jobs[i] for i in todo]), strict=True):
-        out[i] = text
+    for i in todo:
+        out[i] = text = _site_chart(jobs[i])
         if keys[i] is not None:
             cache.put(keys[i], text)
     return {i: t for i, t in out.items() if t}
@@ -111,8 +109,8 @@ def nights_section(pf: PlanFolder, cache: FigureCache | None = None) -> str:
                 cache,
                 "fig-network",
                 (pf.sites, pf.nights, planned, window),
-                lambda: figure_html(
-                    figures_sky.network_nights_figure(pf.sites, pf.nights, planned, window),
+                lambda: svg_figure_html(
+                    figures_nights.network_nights_svg(pf.sites, pf.nights, planned, window),
                     "fig-network",
                     "Hours planned per site and night (darker: more); crossed: no observable window; open dot: "
                     "a window with nothing planned.",
@@ -127,7 +125,7 @@ def nights_section(pf: PlanFolder, cache: FigureCache | None = None) -> str:
     else:
         key = "".join(
             f'<li><span class="swatch" style="{css}"></span>{html.escape(words)}</li>'
-            for css, words in figures_sky.NIGHT_KEY
+            for css, words in figures_nights.NIGHT_KEY
         )
         out.append(f'<p>Key to the night charts below:</p><ul class="key">{key}</ul>')
     windows = pf.windows if pf.windows is not None else pd.DataFrame(columns=[*_BLOCK_COLUMNS, "reason"])
