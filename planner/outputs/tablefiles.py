@@ -198,9 +198,9 @@ def ecsv_table_text(qt, float_format: str | None = None) -> str:
     one column at a time from the columns astropy would write (``represent_mixins_as_columns``: Quantities as
     their values, Time as its ISO text): floats as ``str`` of the float (the shortest text that reads back
     to it; ``nan``, ``inf``), float Quantities rounded to ``float(float_format % v)`` first, flags
-    ``True``/``False``, integers, and text quoted as astropy's space-delimited writer quotes it (Python's
-    csv writer, ``QUOTE_MINIMAL``, space delimiter: a field holding a space, a quote or a line break in
-    double quotes, quotes doubled; an empty text as ``""``).
+    ``True``/``False``, integers, and text as astropy's space-delimited writer leaves it (spaces and tabs at
+    either end stripped; Python's csv writer, ``QUOTE_MINIMAL``, space delimiter: a field holding a space, a
+    quote or a line break in double quotes, quotes doubled; an empty text as ``""``).
 
     Anything else falls back to astropy's writer for the whole table: masked columns (a Time with missing
     values, NaT, among them), multidimensional columns, object columns, and dtypes other than float64,
@@ -281,22 +281,27 @@ def _repr_layout(s: str) -> str:
     return s + ".0" if s[-1].isdigit() else s  # "4" -> "4.0", "-0" -> "-0.0"; nan, inf, -inf as they are
 
 
-#: Text the csv writer leaves as it is: no space (the delimiter), quote, carriage return or line feed.
-_QUOTE_FREE = re.compile(r'[^ "\r\n]+').fullmatch
+#: Text astropy writes as it is: not empty, and no space (the delimiter), tab, quote or line break.
+_QUOTE_FREE = re.compile(r'[^ \t"\r\n]+').fullmatch
 
 
 def _quoted_cells(values: list[str]) -> list[str]:
-    """Text cells quoted by Python's csv writer as astropy sets it up (space delimiter, ``QUOTE_MINIMAL``),
-    empty texts as ``""``; each distinct text quoted once."""
+    """Text cells as astropy's data writer leaves them: spaces and tabs at either end stripped, then quoted
+    by Python's csv writer (space delimiter, ``QUOTE_MINIMAL``), an empty text as ``""``; each distinct text
+    done once."""
     buf = io.StringIO()
     writer = csv.writer(buf, delimiter=" ", quotechar='"', doublequote=True, quoting=csv.QUOTE_MINIMAL)
-    quoted = {"": '""'}
-    for s in set(values) - {""}:
-        if _QUOTE_FREE(s):  # nothing the writer would quote (ISO times, plain names)
+    quoted = {}
+    for s in set(values):
+        if _QUOTE_FREE(s):  # nothing to strip or quote (ISO times, plain names)
             quoted[s] = s
+            continue
+        text = s.strip(" \t")
+        if not text:
+            quoted[s] = '""'
             continue
         buf.seek(0)
         buf.truncate()
-        writer.writerow([s])
+        writer.writerow([text])
         quoted[s] = buf.getvalue().removesuffix(writer.dialect.lineterminator)
     return [quoted[s] for s in values]
