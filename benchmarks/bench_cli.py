@@ -7,6 +7,10 @@
 - ``ephem``: a year at 5-minute steps for one site (about 10⁵ epochs, 38 columns) as CSV: the whole
   command, and its CSV writing (``planner.outputs.tablefiles.csv_text``) beside pandas'
   ``DataFrame.to_csv`` with the same number format (the route it replaced), same text checked.
+- ECSV twin of a plan folder's geometry table (the same ephemeris cut to 73 700 rows x the 30 geometry
+  columns, 6 significant digits, as at 16 sites x 30 nights): ``ecsv_table_text`` beside astropy's own
+  ECSV writer (``QTable.write``, the slow twin), same text checked; and the UTC column built through
+  ERFA's ``dtf2d`` beside astropy's ``datetime64`` format.
 
 Run: python benchmarks/bench_cli.py [--quick | --full]
 """
@@ -117,6 +121,38 @@ def main() -> None:
     print(f"  CSV text: csv_text           {spread(ours)}")
     print(f"  CSV text: pandas to_csv      {spread(peer)}")
     print(f"  ratio of medians             {np.median(peer) / np.median(ours):8.1f}x   same text: {text == ref}")
+    ecsv_twin(df, reps)
+
+
+def ecsv_twin(ephem, reps: int) -> None:
+    """The plan folder's geometry ECSV twin from the ephem DataFrame, by ``ecsv_table_text`` and by astropy."""
+    import pandas as pd
+
+    from planner.outputs.tablefiles import _time_column, _time_column_slow, as_qtable, ecsv_table_text
+    from planner.outputs.tablefiles import ecsv_table_text_slow as astropy_writer
+
+    geo = ephem.iloc[:73_700, :30].copy()
+    geo["time_utc"] = pd.to_datetime(geo["time_utc"]).dt.tz_localize(None)
+    qt = as_qtable(geo, {"table": "geometry"})
+    times = {"ecsv_table_text": [], "astropy QTable.write": [], "UTC column, ERFA dtf2d": [], "UTC column, astropy": []}
+    for _ in range(reps):
+        for label, run in (
+            ("ecsv_table_text", lambda: ecsv_table_text(qt, "%.6g")),
+            ("astropy QTable.write", lambda: astropy_writer(qt, "%.6g")),
+            ("UTC column, ERFA dtf2d", lambda: _time_column(geo["time_utc"])),
+            ("UTC column, astropy", lambda: _time_column_slow(geo["time_utc"])),
+        ):
+            t0 = time.perf_counter()
+            run()
+            times[label].append(time.perf_counter() - t0)
+    same = ecsv_table_text(qt, "%.6g") == astropy_writer(qt, "%.6g")
+    med = {k: np.median(v) for k, v in times.items()}
+    print(f"\ngeometry ECSV twin ({len(geo)} rows x {geo.shape[1]} columns, %.6g), {reps} interleaved runs")
+    for k, v in times.items():
+        print(f"  {k:28s} {spread(v)}")
+    ratio = med["astropy QTable.write"] / med["ecsv_table_text"]
+    print(f"  writer: ratio of medians     {ratio:8.1f}x   same text: {same}")
+    print(f"  UTC column: ratio of medians {med['UTC column, astropy'] / med['UTC column, ERFA dtf2d']:8.1f}x")
 
 
 if __name__ == "__main__":

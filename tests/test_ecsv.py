@@ -3,6 +3,8 @@ the units follow the column names."""
 
 from __future__ import annotations
 
+import csv as csv_module
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -55,3 +57,128 @@ def test_as_qtable_on_a_geometry_result():
     assert qt.colnames[0] == "site" and list(qt["site"]) == ["geocentre", "geocentre"]
     assert (qt["time_utc"] - times).to_value(u.s) == pytest.approx([0.0, 0.0], abs=1e-6)
     assert qt.meta["target"] == target.name and qt["ra_deg"].unit == u.deg
+
+
+def _texts(col) -> list[str]:
+    """A text column read back from ECSV as plain strings: astropy reads an empty field (``""``) as a masked,
+    missing cell, as pandas reads the CSV's empty field as missing; both mean the empty text."""
+    return [str(s) for s in (col.filled("") if hasattr(col, "filled") else col)]
+
+
+@pytest.mark.parametrize("csv_name", ECSV_TWINS)
+def test_text_and_flags_read_back_as_the_csv_holds_them(demo_folder, csv_name):
+    # ECSV (Aldcroft 2015, APE 6 "Enhanced Character Separated Values", from memory): a text column is
+    # `datatype: string`; the `subtype: json` form is for object and multidimensional columns only.
+    text = (demo_folder / ecsv_twin(csv_name)).read_text(encoding="utf-8")
+    assert "subtype: json" not in text
+    cells = pd.read_csv(demo_folder / csv_name, keep_default_na=False, dtype=str)  # every cell as its text
+    qt = QTable.read(demo_folder / ecsv_twin(csv_name), format="ascii.ecsv")
+    checked = 0
+    for name in qt.colnames:
+        kind = getattr(qt[name], "dtype", np.dtype("M")).kind  # a Time column has no dtype
+        if kind == "U":
+            assert _texts(qt[name]) == cells[name].tolist(), name
+        elif kind in "bi" and not isinstance(qt[name], u.Quantity):
+            assert [str(v) for v in qt[name].tolist()] == cells[name].tolist(), name
+        checked += kind in "Ubi"
+    assert checked >= 2  # every table has at least a site and a night, or a site and a flag
+
+
+def test_plain_text_in_the_plan_twin(demo_folder):
+    text = (demo_folder / "plan.ecsv").read_text(encoding="utf-8")
+    assert "# - {name: site, datatype: string}" in text and "# - {name: cautions, datatype: string}" in text
+    # A name with a space is quoted once, as a space-delimited CSV field (Python csv, QUOTE_MINIMAL).
+    qt = QTable.read(demo_folder / "plan.ecsv", format="ascii.ecsv")
+    assert f'"{qt["site"][0]}"' in text.splitlines()[-len(qt)]
+
+
+def _awkward_frame() -> pd.DataFrame:
+    """Values that trip number and text writers: NaN, ±inf, -0.0, tiny and huge exponents, whole numbers,
+    empty text, text with spaces, quotes, commas, a hash, a backslash, non-ASCII."""
+    x = [np.nan, np.inf, -np.inf, -0.0, 1e-05, 1e16, 123456789.123, 1e300, 5e-324, 4.0, 0.1 + 0.2, -2.5e-7]
+    n = len(x)
+    return pd.DataFrame(
+        {
+            "site": [
+                "Scale Site 01",
+                "",
+                'say "hi"',
+                "a,b",
+                "Site #2",
+                "plain",
+                "x\\y",
+                "Δ r",
+                " lead",
+                "",
+                "é",
+                "'q'",
+            ],
+            "alt_deg": x,
+            "ratio": x[::-1],
+            "hours": np.linspace(-1e7, 1e7, n),
+            "flag": [i % 3 == 0 for i in range(n)],
+            "n_exposures": np.arange(n, dtype=np.int64) * 1_000_003 - 7,
+            # Not first on the line: astropy writes a first cell "#..." bare, and its reader takes the line for
+            # a comment (astropy 8.0, checked here); the fast text is astropy's text there too.
+            "note": ["#hash", "", "a b", "", '"', "tab\tin", "new\nline", ",", "plain", "#", "''", " "],
+            "time_utc": np.datetime64("2034-03-15T00:00", "ns")
+            + (np.arange(n) * 3_600.0005e9).astype("timedelta64[ns]"),
+        }
+    )
+
+
+@pytest.mark.parametrize("float_format", [None, "%.6g", "%.4g", "%.10g", "%.17g", "%.3f"])
+def test_fast_ecsv_text_is_astropys_text_on_awkward_values(float_format):
+    from planner.outputs.tablefiles import ecsv_data_lines, ecsv_table_text, ecsv_table_text_slow
+
+    qt = planner.as_qtable(_awkward_frame(), {"table": "awkward", "note": 'a "quoted" note'})
+    assert ecsv_data_lines(qt, float_format) is not None  # the fast path, not its fallback
+    assert ecsv_table_text(qt, float_format) == ecsv_table_text_slow(qt, float_format)
+
+
+def test_fast_ecsv_text_is_astropys_text_on_the_demo_tables(demo_plan):
+    from planner.outputs.planfolder import folder_tables
+    from planner.outputs.tablefiles import ecsv_data_lines, ecsv_table_text, ecsv_table_text_slow
+
+    for name, (df, float_format) in folder_tables(demo_plan[1]).items():
+        qt = planner.as_qtable(df, {"table": name})
+        assert ecsv_data_lines(qt, float_format) is not None, name
+        assert ecsv_table_text(qt, float_format) == ecsv_table_text_slow(qt, float_format), name
+
+
+def test_a_missing_time_leaves_the_whole_table_to_astropy():
+    from planner.outputs.tablefiles import ecsv_data_lines, ecsv_table_text, ecsv_table_text_slow
+
+    df = _awkward_frame()
+    df.loc[3, "time_utc"] = pd.NaT
+    qt = planner.as_qtable(df)
+    assert ecsv_data_lines(qt, "%.6g") is None
+    assert ecsv_table_text(qt, "%.6g") == ecsv_table_text_slow(qt, "%.6g")
+    assert QTable.read(ecsv_table_text(qt), format="ascii.ecsv")["time_utc"].mask.tolist()[2:5] == [False, True, False]
+
+
+def test_awkward_values_read_back_as_the_csv_holds_them(tmp_path):
+    from planner.outputs.tablefiles import csv_text, ecsv_text, table_for_files
+
+    df = _awkward_frame()
+    (tmp_path / "t.csv").write_text(csv_text(table_for_files(df), "%.6g"), encoding="utf-8")
+    (tmp_path / "t.ecsv").write_text(ecsv_text(df, None, "%.6g"), encoding="utf-8")
+    csv = pd.read_csv(tmp_path / "t.csv", keep_default_na=False, na_values={"alt_deg": [""], "ratio": [""]})
+    qt = QTable.read(tmp_path / "t.ecsv", format="ascii.ecsv")
+    # "", quotes, commas, '#' intact; astropy's writer strips spaces at either end of a text (" lead").
+    assert csv["site"].tolist() == df["site"].tolist()
+    assert _texts(qt["site"]) == [s.strip() for s in csv["site"]]
+    assert qt["site"].mask.tolist() == [s.strip() == "" for s in df["site"]]  # empty: missing, as in the CSV
+    assert _texts(qt["note"]) == [s.strip(" \t") for s in csv["note"]]
+    assert qt["time_utc"].scale == "utc"
+    assert [s[:19] + "Z" for s in qt["time_utc"].isot] == csv["time_utc"].tolist()
+    assert qt["alt_deg"].unit == u.deg and qt["hours"].unit == u.h
+    # Both files hold the numbers rounded to 6 significant digits (the unitless `ratio` as it is, in full).
+    assert np.array_equal(qt["alt_deg"].value, csv["alt_deg"].to_numpy(dtype=float), equal_nan=True)
+    assert np.array_equal(qt["ratio"], df["ratio"].to_numpy(), equal_nan=True)
+    assert np.signbit(qt["alt_deg"].value[3]) and qt["alt_deg"].value[4] == 1e-05
+    assert qt["flag"].tolist() == csv["flag"].tolist() and qt["n_exposures"].tolist() == csv["n_exposures"].tolist()
+    # The data lines split by Python's csv reader (space delimiter) give the same text cells back.
+    body = [line for line in (tmp_path / "t.ecsv").read_text(encoding="utf-8").splitlines() if not line.startswith("#")]
+    rows = list(csv_module.reader(body[1:], delimiter=" "))
+    assert [r[0] for r in rows] == [s.strip() for s in df["site"]]

@@ -321,6 +321,40 @@ def _greedy(rng):
     return np.array(lazy.elements), np.array(plain.elements)
 
 
+def _ecsv_frame(rng):
+    import pandas as pd
+
+    n = 300
+    alt = rng.uniform(-90.0, 90.0, n)
+    return pd.DataFrame(
+        {
+            "site": rng.choice(["Karoo Ridge", "Salmon Gum", 'Quebrada "Alta"', ""], n),
+            "time_utc": np.datetime64("2034-03-15T00:00", "ns") + np.sort(rng.integers(0, 30 * 86_400_000_000_000, n)),
+            "alt_deg": alt,
+            "airmass": np.where(alt > 0, 1.0 / np.sin(np.radians(np.maximum(alt, 1.0))), np.nan),
+            "mag_pred": rng.normal(14.0, 2.0, n) * 10.0 ** rng.integers(-8, 9, n),
+            "low_solar_elong": alt < -30.0,
+            "n_exposures": rng.integers(0, 500, n),
+        }
+    )
+
+
+def _ecsv(rng):
+    from planner.outputs.tablefiles import as_qtable, ecsv_table_text, ecsv_table_text_slow
+
+    qt = as_qtable(_ecsv_frame(rng), {"table": "twin"})
+    text = [np.frombuffer(f(qt, "%.6g").encode(), np.uint8) for f in (ecsv_table_text, ecsv_table_text_slow)]
+    return text[0], text[1]
+
+
+def _time_column(rng):
+    from planner.outputs.tablefiles import _time_column, _time_column_slow
+
+    t = _ecsv_frame(rng)["time_utc"]
+    fast, slow = _time_column(t), _time_column_slow(t)
+    return np.r_[fast.jd1, fast.jd2], np.r_[slow.jd1, slow.jd2]
+
+
 TWINS = [
     Twin("kepler.propagate", _kepler, rtol=1e-10, atol=1e-10),
     Twin("nbody.propagate_perturbed", _perturbed, rtol=0.0, atol=1e-10),
@@ -350,6 +384,8 @@ TWINS = [
     Twin("discriminate.expected_min_delta_chi2 (free zero point per group)", _discrimination_groups, rtol=1e-9),
     Twin("planmodel.PlanModel.visit_moments", _visit_moments, rtol=1e-9, atol=1e-9),
     Twin("objective.discrimination", _soft_minimum, rtol=1e-12),
+    Twin("tablefiles.ecsv_table_text (astropy's ECSV writer, the same bytes)", _ecsv),
+    Twin("tablefiles._time_column (astropy's datetime64 parser, the same jd1, jd2)", _time_column, rtol=0.0),
 ]
 
 

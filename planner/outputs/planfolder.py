@@ -14,6 +14,7 @@ import shutil
 import tempfile
 from datetime import UTC, datetime
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from planner.core.errors import InputError
 from planner.core.fileio import PART_SUFFIX, check_writable, signals_held, temp_prefix
@@ -27,6 +28,9 @@ from planner.outputs.sheets import site_sheet
 from planner.outputs.tablefiles import PLAN_CSV_FLOAT_FORMAT, csv_text, ecsv_text, records, table_for_files
 from planner.pipeline import PlanResult
 from planner.sky.brightness import law_name, law_params
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 
 def diagnostics_json(result: PlanResult) -> dict:
@@ -125,22 +129,28 @@ def _ecsv_meta(result: PlanResult, table: str) -> dict:
     }
 
 
-def _write_folder(result: PlanResult, folder: Path) -> None:
-    (folder / layout.SHEETS_DIR).mkdir(parents=True)
-    (folder / layout.CALENDARS_DIR).mkdir()
-    tables = {
+def folder_tables(result: PlanResult) -> dict[str, tuple[pd.DataFrame, str | None]]:
+    """The plan folder's tables by CSV name, each with the number format of its CSV and its ECSV twin."""
+    return {
         layout.PLAN_CSV: (result.blocks, PLAN_CSV_FLOAT_FORMAT),
         layout.BASELINE_CSV: (result.baseline, PLAN_CSV_FLOAT_FORMAT),
         layout.WINDOWS_CSV: (result.windows, None),
         layout.GEOMETRY_CSV: (result.geometry, "%.6g"),
+        layout.NIGHTS_CSV: (result.nights, "%.4g"),
     }
+
+
+def _write_folder(result: PlanResult, folder: Path) -> None:
+    (folder / layout.SHEETS_DIR).mkdir(parents=True)
+    (folder / layout.CALENDARS_DIR).mkdir()
+    tables = folder_tables(result)
     for name, (df, float_format) in tables.items():
         if name == layout.GEOMETRY_CSV:  # the long table: one formatting pass per column (same text)
             (folder / name).write_text(csv_text(table_for_files(df), float_format), encoding="utf-8")
+        elif name == layout.NIGHTS_CSV:
+            df.to_csv(folder / name, index=False, float_format=float_format)
         else:
             table_for_files(df).to_csv(folder / name, index=False, float_format=float_format)
-    result.nights.to_csv(folder / layout.NIGHTS_CSV, index=False, float_format="%.4g")
-    tables[layout.NIGHTS_CSV] = (result.nights, "%.4g")
     for name in layout.ECSV_TWINS:
         df, float_format = tables[name]
         ecsv = ecsv_text(df, _ecsv_meta(result, name.removesuffix(".csv")), float_format)
