@@ -118,8 +118,7 @@ def _awkward_frame() -> pd.DataFrame:
             "hours": np.linspace(-1e7, 1e7, n),
             "flag": [i % 3 == 0 for i in range(n)],
             "n_exposures": np.arange(n, dtype=np.int64) * 1_000_003 - 7,
-            # Not first on the line: astropy writes a first cell "#..." bare, and its reader takes the line for
-            # a comment (astropy 8.0, checked here); the fast text is astropy's text there too.
+            # Not first on the line (a first cell "#..." is quoted here, unlike astropy's writer: see below).
             "note": ["#hash", "", "a b", "", '"', "tab\tin", "new\nline", ",", "plain", "#", "''", " "],
             "time_utc": np.datetime64("2034-03-15T00:00", "ns")
             + (np.arange(n) * 3_600.0005e9).astype("timedelta64[ns]"),
@@ -182,3 +181,21 @@ def test_awkward_values_read_back_as_the_csv_holds_them(tmp_path):
     body = [line for line in (tmp_path / "t.ecsv").read_text(encoding="utf-8").splitlines() if not line.startswith("#")]
     rows = list(csv_module.reader(body[1:], delimiter=" "))
     assert [r[0] for r in rows] == [s.strip() for s in df["site"]]
+
+
+def test_a_first_cell_starting_with_a_hash_keeps_its_row(tmp_path):
+    # ECSV 1.0 (astropy APE 6, Aldcroft; from memory): a line starting with "#" is a comment. astropy's writer
+    # leaves a bare first cell "#3" unquoted, so its own reader drops that row (astropy 8.0, checked
+    # below); the twins quote it, and every other line stays astropy's text.
+    from planner.outputs.tablefiles import as_qtable, ecsv_table_text, ecsv_table_text_slow
+
+    df = pd.DataFrame({"site": ["Ridge", "#3", "#4 East", "Vale"], "alt_deg": [10.0, 20.0, 30.0, 40.0]})
+    qt = as_qtable(df)
+    (tmp_path / "astropy.ecsv").write_text(ecsv_table_text_slow(qt), encoding="utf-8")
+    assert len(QTable.read(tmp_path / "astropy.ecsv", format="ascii.ecsv")) == 3  # the bare "#3" row is lost
+    fast = ecsv_table_text(qt)
+    (tmp_path / "t.ecsv").write_text(fast, encoding="utf-8")
+    back = QTable.read(tmp_path / "t.ecsv", format="ascii.ecsv")
+    assert back["site"].tolist() == df["site"].tolist() and back["alt_deg"].value.tolist() == [10, 20, 30, 40]
+    slow_lines, fast_lines = ecsv_table_text_slow(qt).splitlines(), fast.splitlines()
+    assert [a for a, b in zip(slow_lines, fast_lines, strict=True) if a != b] == ["#3 20.0"]

@@ -210,14 +210,19 @@ def ecsv_table_text(qt, float_format: str | None = None) -> str:
     if lines is None:
         return ecsv_table_text_slow(qt, float_format)
     first = ecsv_table_text_slow(qt[:1], float_format)
-    if not first.endswith(lines[0] + os.linesep):  # astropy wrote the first row otherwise: let it write all
+    bare = ecsv_data_lines(qt[:1], float_format, quote_hash=False)[0] + os.linesep
+    if not first.endswith(bare):  # astropy wrote the first row otherwise: let it write all
         return ecsv_table_text_slow(qt, float_format)
-    return first + os.linesep.join(lines[1:]) + (os.linesep if len(lines) > 1 else "")
+    return first[: len(first) - len(bare)] + os.linesep.join(lines) + os.linesep
 
 
-def ecsv_data_lines(qt, float_format: str | None = None) -> list[str] | None:
+def ecsv_data_lines(qt, float_format: str | None = None, quote_hash: bool = True) -> list[str] | None:
     """The data lines of :func:`ecsv_table_text` (no line ends), or None when a column is of a kind left to
-    astropy's writer (or the table is empty)."""
+    astropy's writer (or the table is empty).
+
+    A line starting with ``#`` reads back as a comment (ECSV 1.0; astropy's reader skips it, and its
+    writer leaves such a first cell bare, so the row is lost): with ``quote_hash`` a first text cell
+    starting with ``#`` is quoted, the one place this text differs from astropy's."""
     from astropy import units as u
     from astropy.table import serialize
     from astropy.utils.data_info import serialize_context_as
@@ -235,6 +240,8 @@ def ecsv_data_lines(qt, float_format: str | None = None) -> list[str] | None:
         if column is None:
             return None
         cells.append(column)
+    if quote_hash and cells and plain[plain.colnames[0]].dtype.kind == "U":
+        cells[0] = [f'"{c.replace(chr(34), chr(34) * 2)}"' if c.startswith("#") else c for c in cells[0]]
     return list(map(" ".join, zip(*cells, strict=True)))
 
 
