@@ -114,7 +114,9 @@ def site_sheet(result: PlanResult, site: Site) -> str:
         *_sheet_notes(t),
         "",
     ]
-    by_night = dict(tuple(t.groupby("night", sort=True)))
+    by_night: dict = {}  # one pass of itertuples: per night it would build a row class per group
+    for r in t.itertuples(index=False):
+        by_night.setdefault(r.night, []).append(r)
     notes = (
         result.nights[result.nights["site"] == site.name]
         if result.nights is not None and len(result.nights)
@@ -131,7 +133,7 @@ def site_sheet(result: PlanResult, site: Site) -> str:
         lines.append(f"Night of {night} (local evening date)")
         if obs_h > 0:  # re-planned: the log already holds time on this night; the blocks come after it
             lines.append(f"  already observed this night: {obs_h:.2f} h (observation log); the blocks below follow it")
-        for k, r in enumerate(rows.itertuples(index=False), 1):
+        for k, r in enumerate(rows, 1):
             lines += [
                 f"  Block {k}: {clock_hm(r.start_local)}-{clock_hm(r.end_local)} local  "
                 f"({clock_hm(r.start_utc)}-{clock_hm(r.end_utc)} UTC, {r.hours:.2f} h); "
