@@ -27,10 +27,19 @@ from planner.outputs import layout
 @lru_cache(maxsize=1)
 def _code_digest() -> str:
     """The drawing code's fingerprint: the figure modules' source and the package version."""
-    from planner.outputs import figstyle, figures_diag, figures_fit, figures_nights, figures_sky, htmlparts, svgdraw
+    from planner.outputs import (
+        figstyle,
+        figures_diag,
+        figures_fit,
+        figures_nights,
+        figures_sky,
+        figures_timeline,
+        htmlparts,
+        svgdraw,
+    )
 
     h = hashlib.sha1(__version__.encode())
-    for mod in (figstyle, figures_sky, figures_nights, svgdraw, figures_diag, figures_fit, htmlparts):
+    for mod in (figstyle, figures_sky, figures_nights, figures_timeline, svgdraw, figures_diag, figures_fit, htmlparts):
         h.update(inspect.getsource(mod).encode())
     return h.hexdigest()
 
