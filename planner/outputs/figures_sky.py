@@ -13,7 +13,9 @@ from planner.outputs.figstyle import (
     PLUM,
     date_axis,
     datetimes,
+    fixed_margins,
     new_figure,
+    ytick_labels_in,
 )
 
 
@@ -24,7 +26,7 @@ def geometry_figure(geometry: pd.DataFrame, seen_from: str, solar_caution_deg: f
     elongations below ``solar_caution_deg`` are shaded as a Sun-safety caution zone.
     """
     t = datetimes(geometry["time_utc"])
-    fig = new_figure(8.0, 7.2)
+    fig = new_figure(8.0, 7.2, constrained=False)
     axes = fig.subplots(4, 1, sharex=True)
     ax = axes[0]
     ax.plot(t, geometry["helio_dist_au"], color=INK, ls="-", lw=1.8, label="r (Sun–target)")
@@ -57,4 +59,5 @@ def geometry_figure(geometry: pd.DataFrame, seen_from: str, solar_caution_deg: f
     date_axis(ax)
     for a in axes:
         a.grid(True, color="#dddddd", lw=0.6)
+    fixed_margins(fig, 0.4 + max(ytick_labels_in(a) for a in axes), 0.12, 0.52, 0.08, hgap_in=0.17)
     return fig
