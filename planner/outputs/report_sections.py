@@ -207,10 +207,14 @@ def _optimiser_tables(diag: dict) -> list[str]:
     return out
 
 
+#: geometry.csv's columns the geometry section reads (besides site and time_utc).
+GEOMETRY_COLUMNS = ("helio_dist_au", "obs_dist_au", "phase_angle_deg", "solar_elong_deg", "mag_pred")
+
+
 def geometry_section(pf: PlanFolder, cache: FigureCache | None = None) -> str:
     out = ['<section id="geometry"><h2>Geometry over the span</h2>']
     g = pf.geometry
-    need = ["helio_dist_au", "obs_dist_au", "phase_angle_deg", "solar_elong_deg", "mag_pred"]
+    need = list(GEOMETRY_COLUMNS)
     if g is None or g.empty or any(c not in g for c in need):
         out.append('<p class="missing">geometry.csv is missing or lacks the geometry columns.</p></section>')
         return "\n".join(out)
