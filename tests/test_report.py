@@ -516,3 +516,21 @@ def test_figure_cache_reuses_only_what_is_unchanged(plan_dir, tmp_path):
     assert cache.key("fig-site", a) == cache.key("fig-site", a.copy())
     assert cache.key("fig-site", a) != cache.key("fig-site", b)
     assert cache.key("fig-site", a) != cache.key("fig-timeline", a)
+
+
+def test_report_reads_only_its_geometry_columns_and_shows_the_same_page(plan_dir, tmp_path, monkeypatch):
+    from planner.outputs import report
+
+    d = _copy_folder(plan_dir, tmp_path / "columns")
+    geo = pd.read_csv(d / "geometry.csv", dtype=str, keep_default_na=False)
+    geo.assign(az_deg="180.0").to_csv(d / "geometry.csv", index=False)  # a column the report never reads
+    whole = load_plan_folder(d)
+    part = load_plan_folder(d, geometry_columns=("alt_deg", "no_such_column"))
+    assert list(part.geometry.columns) == ["site", "time_utc", "alt_deg"]  # the file's order; absent ones ignored
+    assert part.geometry.equals(whole.geometry[["site", "time_utc", "alt_deg"]])
+    assert "az_deg" in whole.geometry and "az_deg" not in report.REPORT_GEOMETRY_COLUMNS  # others get every column
+    shutil.rmtree(d / ".figures", ignore_errors=True)
+    partial_page = render_report(d)
+    shutil.rmtree(d / ".figures", ignore_errors=True)
+    monkeypatch.setattr(report, "REPORT_GEOMETRY_COLUMNS", None)  # read the whole file
+    assert render_report(d) == partial_page

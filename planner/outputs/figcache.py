@@ -27,18 +27,43 @@ from planner.outputs import layout
 @lru_cache(maxsize=1)
 def _code_digest() -> str:
     """The drawing code's fingerprint: the figure modules' source and the package version."""
-    from planner.outputs import figstyle, figures_diag, figures_fit, figures_nights, figures_sky, htmlparts, svgdraw
+    from planner.outputs import (
+        figstyle,
+        figures_diag,
+        figures_fit,
+        figures_nights,
+        figures_sky,
+        figures_timeline,
+        htmlparts,
+        svgdraw,
+    )
 
     h = hashlib.sha1(__version__.encode())
-    for mod in (figstyle, figures_sky, figures_nights, svgdraw, figures_diag, figures_fit, htmlparts):
+    for mod in (figstyle, figures_sky, figures_nights, figures_timeline, svgdraw, figures_diag, figures_fit, htmlparts):
         h.update(inspect.getsource(mod).encode())
     return h.hexdigest()
 
 
-def _feed(h, part) -> None:
-    if isinstance(part, pd.DataFrame):
-        h.update(repr(list(part.columns)).encode())
-        h.update(pd.util.hash_pandas_object(part, index=False).to_numpy().tobytes())
+def _column_bytes(values: np.ndarray) -> bytes:
+    """A table column as bytes: numbers as their memory, anything else as its text joined by the ASCII
+    unit separator (much faster than hashing each cell as an object)."""
+    if values.dtype.kind in "biufcmM":
+        return str(values.dtype).encode() + np.ascontiguousarray(values).tobytes()
+    return "\x1f".join(map(str, values.tolist())).encode("utf-8", "surrogatepass")
+
+
+def _feed(h, part, memo: dict | None = None) -> None:
+    if isinstance(part, dict) and memo is not None:  # a check's JSON, fed to several figures' keys
+        if id(part) not in memo:
+            inner = hashlib.sha1()
+            _feed(inner, part)
+            memo[id(part)] = (part, inner.digest())  # the object kept alive: its id stays its own
+        h.update(memo[id(part)][1])
+    elif isinstance(part, pd.DataFrame):
+        h.update(repr(list(part.columns)).encode() + repr(part.shape).encode())
+        for column in part.columns:
+            data = _column_bytes(part[column].to_numpy())
+            h.update(len(data).to_bytes(8, "little") + data)
     elif isinstance(part, np.ndarray):
         h.update(str(part.dtype).encode() + repr(part.shape).encode())
         h.update(np.ascontiguousarray(part).tobytes())
@@ -46,7 +71,7 @@ def _feed(h, part) -> None:
         h.update(json.dumps(part, sort_keys=True, default=repr).encode())
     elif isinstance(part, (list, tuple)):
         for x in part:
-            _feed(h, x)
+            _feed(h, x, memo)
     else:
         h.update(repr(part).encode())
     h.update(b"\x00")
@@ -57,11 +82,13 @@ class FigureCache:
 
     def __init__(self, folder: str | Path | None) -> None:
         self.dir = None if folder is None else Path(folder) / layout.FIGURE_CACHE_DIR
+        #: Digests of the dicts fed so far, by id (one render: its inputs are read, never changed).
+        self._memo: dict[int, tuple[object, bytes]] = {}
 
     def key(self, name: str, *parts) -> str:
         h = hashlib.sha1(_code_digest().encode() + name.encode())
         for p in parts:
-            _feed(h, p)
+            _feed(h, p, self._memo)
         return h.hexdigest()
 
     def get(self, key: str) -> str | None:

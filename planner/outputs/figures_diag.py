@@ -25,6 +25,7 @@ from planner.outputs.figstyle import (
     SLATE,
     Series,
     check_times_utc,
+    fixed_margins,
     floats,
     log_series,
     new_figure,
@@ -32,6 +33,7 @@ from planner.outputs.figstyle import (
     period_edges,
     phase_occupancy,
     png_bytes,
+    ytick_labels_in,
 )
 
 #: Trial periods folded for the coverage map at most (rows of the picture).
@@ -46,7 +48,7 @@ def coverage_figure(series: Sequence[Series]) -> Figure:
     does (its ``phase_bins``); the fraction curve is the check's ``coverage`` number for every period,
     drawn as given.
     """
-    fig = new_figure(3.0 * len(series) + 3.2, 4.6)
+    fig = new_figure(3.0 * len(series) + 3.2, 4.6, constrained=False)
     axes = fig.subplots(1, len(series) + 1, sharey=True, gridspec_kw=dict(width_ratios=[3] * len(series) + [2.2]))
     cmap = ListedColormap(["#ffffff", INK])
     lo, hi = np.inf, 0.0
@@ -90,6 +92,7 @@ def coverage_figure(series: Sequence[Series]) -> Figure:
     if hi > 0:
         axes[0].set_ylim(lo, hi)
         period_axis(axes[0].yaxis, lo, hi)
+    fixed_margins(fig, 0.62, 0.12, 0.52, 0.3, wgap_in=0.3)
     return fig
 
 
@@ -100,7 +103,7 @@ def spectral_window_figure(series: Sequence[Series], max_freq_per_day: float = 5
     is computed from the check's times with planner.diagnostics.specwindow.spectral_window (Deeming 1975).
     """
     grid = np.linspace(0.0, max_freq_per_day, 4001)
-    fig = new_figure(8.5, 2.4 * len(series) + 0.6)
+    fig = new_figure(8.5, 2.4 * len(series) + 0.6, constrained=False)
     axes = np.atleast_1d(fig.subplots(len(series), 1, sharex=True, squeeze=False)).ravel()
     for ax, s in zip(axes, series, strict=True):
         kw = s.line_kw()
@@ -151,6 +154,7 @@ def spectral_window_figure(series: Sequence[Series], max_freq_per_day: float = 5
         ax.grid(True, color="#dddddd", lw=0.6)
         ax.legend(loc="upper right", fontsize=8)
     axes[-1].set_xlabel("frequency (cycles per day)")
+    fixed_margins(fig, 0.62, 0.12, 0.52, 0.08, hgap_in=0.17)
     return fig
 
 
@@ -166,7 +170,7 @@ def recovery_figure(
 ) -> Figure:
     """Injection–recovery fraction against period, one line per schedule (dotted: the share found at P/2,
     not counted as recovered), band verdicts as strips below."""
-    fig = new_figure(8.5, 4.4)
+    fig = new_figure(8.5, 4.4, constrained=False)
     ax, strip = fig.subplots(2, 1, sharex=True, gridspec_kw=dict(height_ratios=[4, 0.35 * len(series) + 0.3]))
     for s in series:
         rec = s.check.get("recovery", [])
@@ -212,13 +216,16 @@ def recovery_figure(
     strip.set_xlim(lo * 0.95, hi * 1.05)
     period_axis(strip.xaxis, lo, hi)
     handles = [Patch(facecolor=f, edgecolor=INK, hatch=h, label=v) for v, (f, h) in _VERDICT_STYLE.items()]
-    fig.legend(handles=handles, loc="outside lower center", ncols=3, fontsize=8, frameon=False, title=None)
+    fig.legend(handles=handles, loc="lower center", ncols=3, fontsize=8, frameon=False, title=None)
+    # The strip's labels (8 pt, about 0.056 in a character) set the left margin.
+    left_in = max(0.75, 0.3 + 0.056 * max([len(s.label) for s in series] or [0]))
+    fixed_margins(fig, left_in, 0.12, 0.8, 0.08, hgap_in=0.15)
     return fig
 
 
 def sensitivity_figure(series: Sequence[Series]) -> Figure:
     """Period-change sensitivity against period, and the trend numbers side by side per schedule."""
-    fig = new_figure(8.5, 3.6)
+    fig = new_figure(8.5, 3.6, constrained=False)
     ax, *bxs = fig.subplots(1, 3, gridspec_kw=dict(width_ratios=[3, 1.1, 1.1]))
     for s in series:
         pc = s.check.get("period_change", [])
@@ -273,6 +280,15 @@ def sensitivity_figure(series: Sequence[Series]) -> Figure:
         bx.set_title(title, fontsize=9)
         bx.margins(y=0.15)
         bx.grid(True, axis="y", color="#dddddd", lw=0.6)
+    # The y tick labels depend on the numbers: the margin and gaps are made from their widths.
+    fixed_margins(
+        fig,
+        0.4 + ytick_labels_in(ax),
+        0.1,
+        0.52,
+        0.45,
+        wgap_in=0.25 + max(ytick_labels_in(bx) for bx in bxs),
+    )
     return fig
 
 

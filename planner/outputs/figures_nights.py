@@ -173,12 +173,7 @@ def site_nights_svg(
     svg.hlines(left, width - right, py(np.arange(1, n), 0.0), class_="night-rules", stroke="#ffffff", stroke_width=1.4)
     for k in sorted(set(range(len(nights))) - {int(r) for r in window_rows}):
         svg.text(px(x1 - 0.1), py(k, 0.5), "no window", 7, "end", class_="no-window", fill=INK)
-    svg.path(
-        f"M{num(left)},{num(top)}H{num(width - right)}V{num(height - bottom)}H{num(left)}Z",
-        fill="none",
-        stroke="#000000",
-        stroke_width=1.1,
-    )
+    svg.frame(left, top, width - right, height - bottom)
     ticks = np.arange(np.ceil(x0 / 2) * 2, x1 + 0.01, 2)
     svg.open(class_="x-ticks")
     svg.path(" ".join(f"M{num(v)},{num(height - bottom)}v4.9" for v in px(ticks)), stroke="#000000", stroke_width=1.1)
@@ -256,12 +251,7 @@ def network_nights_svg(
         stroke="#ffffff",
         stroke_width=1.7,
     )
-    svg.path(
-        f"M{num(left)},{num(top)}H{num(width - right)}V{num(top + plot_h)}H{num(left)}Z",
-        fill="none",
-        stroke="#000000",
-        stroke_width=1.1,
-    )
+    svg.frame(left, top, width - right, top + plot_h)
     svg.open(class_="y-labels")
     for i, s in enumerate(sites):
         svg.text(left - 6, top + (i + 0.5) * cell_h, str(s), 8, "end")

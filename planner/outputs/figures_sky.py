@@ -1,25 +1,21 @@
-"""Figures of the sky side of a plan: the target's geometry and the network timeline (the night charts are
-written as SVG directly: :mod:`planner.outputs.figures_nights`)."""
+"""Figures of the sky side of a plan: the target's geometry (the night charts and the network timeline are
+written as SVG directly: :mod:`planner.outputs.figures_nights`, :mod:`planner.outputs.figures_timeline`)."""
 
 from __future__ import annotations
 
-from collections.abc import Sequence
-
-import matplotlib.dates as mdates
 import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
-from matplotlib.patches import Patch
 
 from planner.outputs.figstyle import (
     AMBER,
     INK,
     PLUM,
-    SITE_STYLES,
-    TEAL,
     date_axis,
     datetimes,
+    fixed_margins,
     new_figure,
+    ytick_labels_in,
 )
 
 
@@ -30,7 +26,7 @@ def geometry_figure(geometry: pd.DataFrame, seen_from: str, solar_caution_deg: f
     elongations below ``solar_caution_deg`` are shaded as a Sun-safety caution zone.
     """
     t = datetimes(geometry["time_utc"])
-    fig = new_figure(8.0, 7.2)
+    fig = new_figure(8.0, 7.2, constrained=False)
     axes = fig.subplots(4, 1, sharex=True)
     ax = axes[0]
     ax.plot(t, geometry["helio_dist_au"], color=INK, ls="-", lw=1.8, label="r (Sun–target)")
@@ -63,50 +59,5 @@ def geometry_figure(geometry: pd.DataFrame, seen_from: str, solar_caution_deg: f
     date_axis(ax)
     for a in axes:
         a.grid(True, color="#dddddd", lw=0.6)
-    return fig
-
-
-# ---------------------------------------------------------------------------------------- network
-
-
-def network_timeline_figure(
-    sites: Sequence[str], windows: pd.DataFrame, plan: pd.DataFrame, baseline: pd.DataFrame | None = None
-) -> Figure:
-    """All sites on one UTC axis: windows (hatched outline), plan blocks (solid), baseline (open, lower)."""
-    fig = new_figure(9.0, 0.75 * len(sites) + 1.6)
-    ax = fig.subplots()
-
-    def bars(df: pd.DataFrame, site: str) -> list[tuple[float, float]]:
-        d = df[(df["site"].astype(str) == site) & df["start_utc"].notna() & (df["start_utc"].astype(str) != "")]
-        a = mdates.date2num(datetimes(d["start_utc"]))
-        b = mdates.date2num(datetimes(d["end_utc"]))
-        return list(zip(a, b - a, strict=True))
-
-    for i, site in enumerate(sites):
-        y = len(sites) - 1 - i
-        color, hatch = SITE_STYLES[i % len(SITE_STYLES)]
-        ax.broken_barh(bars(windows, site), (y - 0.42, 0.84), facecolors="none", edgecolors=TEAL, hatch="///", lw=0.8)
-        ax.broken_barh(bars(plan, site), (y - 0.02, 0.40), facecolors=color, edgecolors=INK, hatch=hatch, lw=1.0)
-        if baseline is not None:
-            ax.broken_barh(
-                bars(baseline, site),
-                (y - 0.38, 0.30),
-                facecolors="white",
-                edgecolors=INK,
-                linestyle="--",
-                lw=1.0,
-            )
-    ax.set_yticks(range(len(sites)), list(reversed(list(sites))))
-    ax.set_ylim(-0.6, len(sites) - 0.4)
-    ax.xaxis_date()
-    date_axis(ax)
-    ax.set_xlabel("UTC")
-    ax.grid(True, axis="x", color="#dddddd", lw=0.6)
-    handles = [
-        Patch(facecolor="none", edgecolor=TEAL, hatch="///", label="observable window"),
-        Patch(facecolor=INK, edgecolor=INK, label="plan block (upper half; site colour and hatch)"),
-    ]
-    if baseline is not None:
-        handles.append(Patch(facecolor="white", edgecolor=INK, linestyle="--", label="baseline block (lower half)"))
-    fig.legend(handles=handles, loc="outside upper center", ncols=3, fontsize=8, frameon=False)
+    fixed_margins(fig, 0.4 + max(ytick_labels_in(a) for a in axes), 0.12, 0.52, 0.08, hgap_in=0.17)
     return fig

@@ -95,9 +95,13 @@ class PlanFolder:
         return noon.utcoffset().total_seconds() / 3600.0
 
 
-def _read_csv(path: Path, required: Sequence[str]) -> pd.DataFrame:
+def _read_csv(path: Path, required: Sequence[str], columns: Sequence[str] | None = None) -> pd.DataFrame:
+    """A plan-folder table as text; ``columns``: only those of them the file has (None: every column)."""
+    wanted = None if columns is None else set(columns) | set(required)
     try:
-        df = pd.read_csv(path, dtype=str, keep_default_na=False)
+        df = pd.read_csv(
+            path, dtype=str, keep_default_na=False, usecols=None if wanted is None else wanted.__contains__
+        )
     except FileNotFoundError:
         raise InputError(str(path), "-", "file not found; is this a folder written by `phasewise plan`?") from None
     except (pd.errors.EmptyDataError, pd.errors.ParserError, UnicodeDecodeError) as exc:
@@ -123,8 +127,12 @@ def _read_json(path: Path) -> dict:
 _BLOCK_COLUMNS = ("site", "night", "start_utc", "end_utc")
 
 
-def load_plan_folder(plan_dir: str | Path) -> PlanFolder:
-    """Read a plan folder. plan.csv, plan.json and diagnostics.json are required; the rest is drawn when present."""
+def load_plan_folder(plan_dir: str | Path, geometry_columns: Sequence[str] | None = None) -> PlanFolder:
+    """Read a plan folder. plan.csv, plan.json and diagnostics.json are required; the rest is drawn when present.
+
+    ``geometry_columns``: read only these of geometry.csv's columns (besides ``site`` and ``time_utc``), those
+    the file has; None reads them all. The file is the folder's largest (tens of MB for a large network).
+    """
     d = Path(plan_dir)
     if not d.is_dir():
         raise InputError(str(d), "-", "not a folder; give the folder written by `phasewise plan --out`")
@@ -134,8 +142,8 @@ def load_plan_folder(plan_dir: str | Path) -> PlanFolder:
         raise InputError(str(d / layout.DIAGNOSTICS_JSON), "plan", "missing: expected the check result of the plan")
     manifest = _read_json(d / layout.MANIFEST_JSON)
 
-    def optional(name: str, required: Sequence[str]) -> pd.DataFrame | None:
-        return _read_csv(d / name, required) if (d / name).exists() else None
+    def optional(name: str, required: Sequence[str], columns=None) -> pd.DataFrame | None:
+        return _read_csv(d / name, required, columns) if (d / name).exists() else None
 
     sheets_dir = d / layout.SHEETS_DIR
     return PlanFolder(
@@ -145,7 +153,7 @@ def load_plan_folder(plan_dir: str | Path) -> PlanFolder:
         manifest=manifest,
         baseline=optional(layout.BASELINE_CSV, _BLOCK_COLUMNS),
         windows=optional(layout.WINDOWS_CSV, _BLOCK_COLUMNS),
-        geometry=optional(layout.GEOMETRY_CSV, ("site", "time_utc")),
+        geometry=optional(layout.GEOMETRY_CSV, ("site", "time_utc"), geometry_columns),
         sheets=sorted(p.name for p in sheets_dir.glob("*.txt")) if sheets_dir.is_dir() else [],
         lightcurve=_read_json(d / layout.LIGHTCURVE_JSON) if (d / layout.LIGHTCURVE_JSON).exists() else None,
     )

@@ -23,8 +23,9 @@ from planner.outputs.htmlparts import json_num, num, page, table
 from planner.outputs.reader import PlanFolder, load_plan_folder
 from planner.outputs.report_diag import DIAG_TOC, diagnostics_sections
 from planner.outputs.report_fit import FIT_TOC, replan_lightcurve_section
-from planner.outputs.report_nights import nights_section
+from planner.outputs.report_nights import NIGHT_CHART_COLUMNS, nights_section
 from planner.outputs.report_sections import (
+    GEOMETRY_COLUMNS,
     blocks_section,
     geometry_section,
     short_time,
@@ -33,6 +34,8 @@ from planner.outputs.report_sections import (
 )
 
 REPORT_NAME = layout.REPORT_HTML
+#: The columns of geometry.csv the report reads: the file is a plan folder's largest, read only in part.
+REPORT_GEOMETRY_COLUMNS = ("site", "time_utc", *GEOMETRY_COLUMNS, *NIGHT_CHART_COLUMNS)
 
 
 def _block_label(r: pd.Series) -> str:
@@ -101,7 +104,7 @@ def cautions_section(pf: PlanFolder) -> str:
 
 def render_report(plan_dir: str | Path) -> str:
     """The campaign report of a plan folder, as one self-contained HTML page."""
-    pf = load_plan_folder(plan_dir)
+    pf = load_plan_folder(plan_dir, geometry_columns=REPORT_GEOMETRY_COLUMNS)
     cache = FigureCache(plan_dir)
     diag = pf.diagnostics
     series = [plan_series(check=diag["plan"])]

@@ -16,6 +16,10 @@ from planner.outputs.reader import PlanFolder, cell_float, utc_offset_h, utc_tim
 _BLOCK_COLUMNS = ("site", "night", "start_utc", "end_utc")
 
 
+#: geometry.csv's columns the night charts read (besides site and time_utc).
+NIGHT_CHART_COLUMNS = ("alt_deg", "sun_alt_deg")
+
+
 def _night_hours(pf: PlanFolder) -> tuple[np.ndarray, np.ndarray, dict[tuple[str, str], str]]:
     """Window hours and planned hours per (site, night), (sites × nights) arrays, and each site-night's
     reasons from windows.csv."""
@@ -60,7 +64,7 @@ def _chart_jobs(pf: PlanFolder, windows: pd.DataFrame) -> list[tuple]:
         if off is None:  # a folder without the site in its manifest: the tables' local times tell
             off = utc_offset_h(ws) if utc_offset_h(ws) is not None else utc_offset_h(bs)
         min_alt = (pf.site_info.get(site) or {}).get("min_alt_deg")
-        cols = [c for c in ("time_utc", "alt_deg", "sun_alt_deg") if c in gs]
+        cols = [c for c in ("time_utc", *NIGHT_CHART_COLUMNS) if c in gs]
         jobs.append(
             (i, site, gs[cols], ws, bs, list(pf.nights), off or 0.0, None if min_alt is None else float(min_alt))
         )

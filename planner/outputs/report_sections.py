@@ -10,9 +10,9 @@ import numpy as np
 import pandas as pd
 
 from planner.core.safety import sun_caution_limit_deg
-from planner.outputs import figures_sky
+from planner.outputs import figures_sky, figures_timeline
 from planner.outputs.figcache import FigureCache, drawn
-from planner.outputs.htmlparts import figure_html, fmt, json_num, num, table
+from planner.outputs.htmlparts import figure_html, fmt, json_num, num, svg_figure_html, table
 from planner.outputs.reader import PlanFolder, cell_float, utc_times
 
 _BLOCK_COLUMNS = ("site", "night", "start_utc", "end_utc")
@@ -207,10 +207,14 @@ def _optimiser_tables(diag: dict) -> list[str]:
     return out
 
 
+#: geometry.csv's columns the geometry section reads (besides site and time_utc).
+GEOMETRY_COLUMNS = ("helio_dist_au", "obs_dist_au", "phase_angle_deg", "solar_elong_deg", "mag_pred")
+
+
 def geometry_section(pf: PlanFolder, cache: FigureCache | None = None) -> str:
     out = ['<section id="geometry"><h2>Geometry over the span</h2>']
     g = pf.geometry
-    need = ["helio_dist_au", "obs_dist_au", "phase_angle_deg", "solar_elong_deg", "mag_pred"]
+    need = list(GEOMETRY_COLUMNS)
     if g is None or g.empty or any(c not in g for c in need):
         out.append('<p class="missing">geometry.csv is missing or lacks the geometry columns.</p></section>')
         return "\n".join(out)
@@ -266,8 +270,8 @@ def timeline_section(pf: PlanFolder, cache: FigureCache | None = None) -> str:
             cache,
             "fig-timeline",
             parts,
-            lambda: figure_html(
-                figures_sky.network_timeline_figure(pf.sites, windows, pf.plan, pf.baseline),
+            lambda: svg_figure_html(
+                figures_timeline.network_timeline_svg(pf.sites, windows, pf.plan, pf.baseline),
                 "fig-timeline",
                 "Every site on one UTC axis. Hatched outline: observable window; upper half: the optimised "
                 "plan's blocks; lower dashed half: the baseline's blocks.",

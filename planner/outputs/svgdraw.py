@@ -73,15 +73,33 @@ class Svg:
         self.defs: list[str] = []
         self.body: list[str] = []
 
-    def hatch(self, pattern_id: str, color: str, spacing_px: float, angle_deg: float, width_px: float, cross=False):
-        """A hatch fill ``url(#pattern_id)``: white ground and parallel lines turned by ``angle_deg``
+    def hatch(
+        self,
+        pattern_id: str,
+        color: str,
+        spacing_px: float,
+        angle_deg: float,
+        width_px: float,
+        cross=False,
+        ground: str = "#ffffff",
+    ):
+        """A hatch fill ``url(#pattern_id)``: ``ground`` colour and parallel lines turned by ``angle_deg``
         from vertical (45: ``/``), crossed by perpendicular ones if ``cross``."""
         s, h = num(spacing_px), num(spacing_px / 2)
         d = f"M{h},0 V{s}" + (f" M0,{h} H{s}" if cross else "")
         self.defs.append(
             f'<pattern id="{esc(pattern_id)}" patternUnits="userSpaceOnUse" width="{s}" height="{s}" '
-            f'patternTransform="rotate({num(angle_deg)})"><rect width="{s}" height="{s}" fill="#ffffff"/>'
+            f'patternTransform="rotate({num(angle_deg)})"><rect width="{s}" height="{s}" fill="{ground}"/>'
             f'<path d="{d}" stroke="{color}" stroke-width="{num(width_px)}"/></pattern>'
+        )
+
+    def dots(self, pattern_id: str, color: str, spacing_px: float, radius_px: float, ground: str = "#ffffff"):
+        """A dotted fill ``url(#pattern_id)``: one dot of ``radius_px`` per ``spacing_px`` square on ``ground``."""
+        s, h = num(spacing_px), num(spacing_px / 2)
+        self.defs.append(
+            f'<pattern id="{esc(pattern_id)}" patternUnits="userSpaceOnUse" width="{s}" height="{s}">'
+            f'<rect width="{s}" height="{s}" fill="{ground}"/>'
+            f'<circle cx="{h}" cy="{h}" r="{num(radius_px)}" fill="{color}"/></pattern>'
         )
 
     def open(self, **attrs) -> None:
@@ -115,6 +133,15 @@ class Svg:
     def path(self, d: str, **attrs) -> None:
         if d:
             self.body.append(f'<path d="{d}"{_attrs(attrs)}/>')
+
+    def frame(self, x0: float, y0: float, x1: float, y1: float, stroke_width: float = 1.1) -> None:
+        """A black outline around the plot area from (x0, y0) to (x1, y1)."""
+        self.path(
+            f"M{num(x0)},{num(y0)}H{num(x1)}V{num(y1)}H{num(x0)}Z",
+            fill="none",
+            stroke="#000000",
+            stroke_width=stroke_width,
+        )
 
     def circles(self, cx: np.ndarray, cy: np.ndarray, r: float, **attrs) -> None:
         if np.size(cx):
