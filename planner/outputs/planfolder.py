@@ -8,6 +8,7 @@ settings, version), so the report never re-reads TOML files or sheets.
 from __future__ import annotations
 
 import dataclasses
+import gc
 import json
 import os
 import shutil
@@ -173,7 +174,14 @@ def _write_folder(result: PlanResult, folder: Path) -> None:
         (folder / layout.CALENDARS_DIR / layout.calendar_name(site.name, names)).write_bytes(
             site_calendar(result, site, stamp).encode("utf-8")
         )
-    write_report(folder)  # last: rendered from the files above alone, inside the not-yet-renamed folder
+    # Last: rendered from the files above alone, inside the not-yet-renamed folder. The plan's objects
+    # are frozen out of the garbage collector meanwhile: its passes over them cost the render ~0.2 s
+    # at 16 sites x 30 nights, and nothing of the plan becomes garbage while the report is drawn.
+    gc.freeze()
+    try:
+        write_report(folder)
+    finally:
+        gc.unfreeze()
 
 
 def write_plan_folder(result: PlanResult, out: str | Path, force: bool = False) -> Path:
