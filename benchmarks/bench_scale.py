@@ -276,7 +276,7 @@ def main() -> None:
             f"report / plan: first render {100 * first:.1f} % (goal <= 10 %), re-render from the figure cache "
             f"{100 * again:.1f} %"
         )
-    nights = [n for (k, n) in sizes if k == sweep_sites]
+    nights = sorted(n for (k, n) in sizes if k == sweep_sites)
     if len(nights) >= 3:
 
         def medians(key, sub=None):
