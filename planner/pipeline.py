@@ -365,12 +365,6 @@ def plan_campaign(
         progress=progress,
     )
     timings["schedule"] = time.perf_counter() - t
-    obj = core.objective
-    if obj.n_periods_grid is not None and obj.n_periods < obj.n_periods_grid:
-        notes.append(
-            f"The optimiser counted phase coverage on {obj.n_periods} of the {obj.n_periods_grid} trial periods, "
-            "evenly spread in frequency (rotation.max_plan_periods); the plan's checks use all of them."
-        )
     t = time.perf_counter()
     progress("blocks and geometry")
     blocks, exposures = block_table(core.visits, core.grid, target, campaign.sites, rules)

@@ -77,3 +77,26 @@ def test_a_thinned_plan_reports_both_grids():
 def test_the_setting_is_checked_like_every_other():
     with pytest.raises(Exception, match="max_plan_periods"):
         Rotation(max_plan_periods=1)
+
+
+def test_the_printed_plan_and_the_report_say_when_the_periods_were_thinned(demo_plan, demo_folder, tmp_path):
+    # The demo's week has fewer periods than the limit: nothing is said. Pretend its grid were larger.
+    import json
+    import shutil
+
+    from planner.outputs.report import render_report
+    from planner.outputs.terminal import comparison_text
+
+    _, result = demo_plan
+    assert "trial periods" not in comparison_text(result)
+    n = result.objective.n_periods
+    thinned = dataclasses.replace(result, objective=dataclasses.replace(result.objective, n_periods_grid=n + 500))
+    assert f"on {n} of the {n + 500}" in comparison_text(thinned)
+    folder = tmp_path / "plan"
+    shutil.copytree(demo_folder, folder, ignore=shutil.ignore_patterns("replan", ".figures"))
+    assert "optimiser counted phase coverage" not in render_report(folder)
+    diag_path = folder / "diagnostics.json"
+    diag = json.loads(diag_path.read_text(encoding="utf-8"))
+    diag["objective"]["n_periods_grid"] = n + 500
+    diag_path.write_text(json.dumps(diag), encoding="utf-8")
+    assert f"Trial periods: the optimiser counted phase coverage on {n} of the {n + 500}" in render_report(folder)

@@ -14,6 +14,7 @@ from planner.outputs import figures_sky, figures_timeline
 from planner.outputs.figcache import FigureCache, drawn
 from planner.outputs.htmlparts import figure_html, fmt, json_num, num, svg_figure_html, table
 from planner.outputs.reader import PlanFolder, cell_float, utc_times
+from planner.schedule.solve import thinned_periods_text
 
 _BLOCK_COLUMNS = ("site", "night", "start_utc", "end_utc")
 
@@ -201,6 +202,10 @@ def _optimiser_tables(diag: dict) -> list[str]:
         guarantee = obj.get("guarantee")
         if isinstance(guarantee, dict) and isinstance(guarantee.get("statement"), str):
             out.append(f"<p>Guarantee: {html.escape(guarantee['statement'])}</p>")
+        used, whole = obj.get("n_periods"), obj.get("n_periods_grid")
+        if isinstance(used, int) and isinstance(whole, int) and used < whole:
+            text = thinned_periods_text(used, whole)
+            out.append(f"<p>{html.escape(text[:1].upper() + text[1:])}.</p>")
     table = _nestedtable(diag, "robustness")
     if table:
         out += ["<h3>Weather robustness (Monte Carlo over each site's clear-night fraction)</h3>", table]

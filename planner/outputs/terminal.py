@@ -12,6 +12,7 @@ from planner.outputs.sheets import block_band_mag
 from planner.outputs.tablefiles import table_for_files
 from planner.pipeline import PlanResult
 from planner.schedule.localsearch import EVALUATIONS_PER_VISIT, MIN_EVALUATIONS
+from planner.schedule.solve import thinned_periods_text
 
 #: Units of the printed night-by-night table (under it).
 TABLE_LEGEND = (
@@ -154,6 +155,8 @@ def comparison_text(result: PlanResult) -> str:
         f"the greedy's schedule, at least {MIN_EVALUATIONS}), {ls.accepted} kept in {ls.passes} passes, objective "
         f"+{ls.gain:.4f}; stopped by {ls.stopped_by}"
     )
+    if obj.n_periods_grid is not None and obj.n_periods < obj.n_periods_grid:
+        out.append(thinned_periods_text(obj.n_periods, obj.n_periods_grid))
     if disc is not None:
         out.append(
             "candidate periods from the log's light curve (h): "

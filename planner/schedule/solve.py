@@ -72,6 +72,14 @@ class ExactComparison:
         }
 
 
+def thinned_periods_text(n_periods: int, n_periods_grid: int) -> str:
+    """What the printed plan and the report say when the optimiser counted coverage on a sub-grid."""
+    return (
+        f"trial periods: the optimiser counted phase coverage on {n_periods} of the {n_periods_grid}, evenly "
+        "spread in frequency (rotation.max_plan_periods); the plan's checks use all of them"
+    )
+
+
 @dataclass
 class ObjectiveSummary:
     """The optimiser's objective terms for the plan, its greedy start and the baseline, with the guarantee."""
