@@ -89,3 +89,18 @@ def test_the_readme_week_runs_from_the_copied_demo_inputs(tmp_path, capsys, monk
         if args and args[1] in ("ephem", "windows"):
             r = run_cli(capsys, *args[1:])
             assert r.returncode == 0 and "Karoo Ridge" in r.stdout, (line, r.stderr)
+
+
+def test_init_takes_as_many_nights_as_a_campaign_may_hold(tmp_path, capsys):
+    # The starter campaign's --nights has the campaign file's own limit (planner.core.limits), and the
+    # file it writes loads; one night more is refused before anything is written.
+    from planner.core.limits import MAX_CAMPAIGN_NIGHTS
+
+    line = (MPC / "mpc_comets.txt").read_text().splitlines()[0]
+    r = run_cli(capsys, "init", tmp_path / "long", "--mpc-line", line, *SITE, "--nights", str(MAX_CAMPAIGN_NIGHTS))
+    assert r.returncode == 0, r.stderr
+    assert load_campaign(tmp_path / "long" / "campaign.toml").nights == MAX_CAMPAIGN_NIGHTS
+    over = run_cli(
+        capsys, "init", tmp_path / "over", "--mpc-line", line, *SITE, "--nights", str(MAX_CAMPAIGN_NIGHTS + 1)
+    )
+    assert over.returncode == 2 and not (tmp_path / "over").exists()

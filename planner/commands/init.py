@@ -18,6 +18,7 @@ from typing import Annotated
 import typer
 
 from planner.core.errors import InputError
+from planner.core.limits import MAX_CAMPAIGN_NIGHTS
 from planner.core.version import __version__
 
 #: The campaign file's tables and the settings type whose defaults each one lists.
@@ -230,7 +231,9 @@ def register(app: typer.Typer) -> None:
         first_night: Annotated[
             str | None, typer.Option("--first-night", metavar="DATE", help="first evening (default: tomorrow)")
         ] = None,
-        nights: Annotated[int, typer.Option("--nights", min=1, max=60, metavar="N", help="nights to plan")] = 7,
+        nights: Annotated[
+            int, typer.Option("--nights", min=1, max=MAX_CAMPAIGN_NIGHTS, metavar="N", help="nights to plan")
+        ] = 7,
         demo: Annotated[
             bool, typer.Option("--demo", help="copy the bundled demo inputs (invented comet, four sites) instead")
         ] = False,

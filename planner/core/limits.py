@@ -21,6 +21,9 @@ from planner.core.errors import InputError
 #: The file named in errors about objects built in Python rather than read from a file.
 PYTHON = "python"
 
+#: The longest campaign, in nights (a year and a day: a whole apparition of a slow object).
+MAX_CAMPAIGN_NIGHTS = 366
+
 
 @dataclass(frozen=True)
 class Limit:

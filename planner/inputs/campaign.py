@@ -15,7 +15,7 @@ from datetime import date
 from pathlib import Path
 
 from planner.core.errors import InputError
-from planner.core.limits import PYTHON, Limit, check_instance, check_limits
+from planner.core.limits import MAX_CAMPAIGN_NIGHTS, PYTHON, Limit, check_instance, check_limits
 from planner.core.timegrid import check_nights_in_span, parse_date
 from planner.core.tomlfile import Fields, read_toml
 from planner.core.units import calendar_date
@@ -73,7 +73,7 @@ _RENAMED_BLOCK_KEYS = {"slot_min": "slot_minutes", "setup_min": "setup_minutes"}
 
 #: Ranges of the campaign's own numbers (the settings types hold theirs: planner.inputs.settings).
 CAMPAIGN_LIMITS = {
-    "nights": Limit(1, 366, whole=True),
+    "nights": Limit(1, MAX_CAMPAIGN_NIGHTS, whole=True),
     "seed": Limit(0, 2**63 - 1, whole=True),
     "max_gap_h": Limit(0.5, 24.0 * 60),
     "weather_trials": Limit(10, 100_000, whole=True),
