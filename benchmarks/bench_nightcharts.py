@@ -7,8 +7,9 @@ sites and target; or reuses ``--folder DIR`` from an earlier run), then times, i
   (planner.outputs.figures_nights, embedded by htmlparts.svg_figure_html);
 * the peer: the same two charts drawn with matplotlib and saved as SVG, by the drawing code the report
   used before (planner/outputs/figures_sky.py at commit PEER_COMMIT, read with ``git show``; skipped
-  without git history), one process, the same inputs;
-* the first render of the whole report (no ``.figures`` cache), against the plan's own time (goal ≤ 10 %).
+  without git history), one process, the same inputs.
+
+The whole report's first render against the plan's time is benchmarks/bench_firstreport.py's.
 
 Run: python benchmarks/bench_nightcharts.py [--reps N|--quick|--full] (BLAS threads pinned).
 """
@@ -41,7 +42,6 @@ from benchutil import spread  # noqa: E402
 from planner.outputs import figures_nights, report_nights  # noqa: E402
 from planner.outputs.htmlparts import figure_html, svg_figure_html  # noqa: E402
 from planner.outputs.reader import load_plan_folder  # noqa: E402
-from planner.outputs.report import render_report  # noqa: E402
 
 #: The last commit whose figures_sky.py drew the night charts with matplotlib.
 PEER_COMMIT = "c29d689"
@@ -89,7 +89,8 @@ def main() -> None:
     work = Path(tempfile.mkdtemp(prefix="bench-nightcharts-"))
     try:
         folder = Path(args.folder) if args.folder else work / "plan"
-        plan_s = None if args.folder else plan_folder(folder)
+        if not args.folder:
+            plan_folder(folder)
         pf = load_plan_folder(folder)
         jobs = [j for j in report_nights._chart_jobs(pf, pf.windows) if j is not None]
         window, planned, _ = report_nights._night_hours(pf)
@@ -107,11 +108,7 @@ def main() -> None:
             out.append(figure_html(peer.network_nights_figure(pf.sites, pf.nights, planned, window), "n", "", ""))
             return sum(map(len, out))
 
-        def first_report() -> int:
-            shutil.rmtree(folder / ".figures", ignore_errors=True)
-            return len(render_report(folder))
-
-        routes = {"svg direct": ours, "first report": first_report}
+        routes = {"svg direct": ours}
         if peer is not None:
             routes["matplotlib"] = theirs
         times: dict[str, list[float]] = {k: [] for k in routes}
@@ -131,10 +128,6 @@ def main() -> None:
             print(f"  matplotlib / direct   : {ratio:.0f} x")
         else:
             print(f"  (peer skipped: no git history with commit {PEER_COMMIT})")
-        print(f"  first report render   : {spread(times['first report'])}")
-        if plan_s is not None:
-            rep = np.median(times["first report"]) / plan_s
-            print(f"  plan                  : {plan_s:8.3f} s; first report / plan {100 * rep:.1f} % (goal <= 10 %)")
     finally:
         shutil.rmtree(work, ignore_errors=True)
 

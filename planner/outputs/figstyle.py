@@ -141,6 +141,11 @@ def datetimes(values) -> np.ndarray:
     return pd.to_datetime(pd.Series(values), utc=True).dt.tz_localize(None).to_numpy(dtype="datetime64[ns]")
 
 
+def timed_rows(df: pd.DataFrame) -> pd.DataFrame:
+    """The rows of a blocks or windows table that have a start time (a site-night without a window has none)."""
+    return df[df["start_utc"].notna() & (df["start_utc"].astype(str) != "")]
+
+
 #: Round periods (h) that label every log-period axis.
 PERIOD_TICKS_H = (0.5, 1, 1.5, 2, 3, 4, 6, 8, 12, 16, 24, 36, 48, 72, 96, 144, 168, 240)
 

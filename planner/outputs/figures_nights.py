@@ -23,6 +23,7 @@ from planner.outputs.figstyle import (
     SLATE,
     TEAL,
     datetimes,
+    timed_rows,
 )
 from planner.outputs.svgdraw import PX_PER_IN, Svg, SvgChart, num, polyline_d
 
@@ -144,7 +145,7 @@ def site_nights_svg(
     row_of = {str(night): k for k, night in enumerate(nights)}
 
     def spans(df: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        d = df[df["start_utc"].notna() & (df["start_utc"].astype(str) != "")]
+        d = timed_rows(df)
         d = d[d["night"].astype(str).isin(row_of)]
         rows = np.array([row_of[str(v)] for v in d["night"]], dtype=float)
         return (
@@ -269,7 +270,8 @@ def network_nights_svg(
     # Colour bar: equal steps from 0 (foot) to the largest hours planned (top), ticked at round hours.
     bx, bw = width - right + 10.0, 12.0
     edges = top + plot_h - np.arange(len(PLANNED_SHADES) + 1) * plot_h / len(PLANNED_SHADES)
-    svg.rects(np.full(5, bx), edges[1:], np.full(5, bx + bw), edges[:-1], list(PLANNED_SHADES), class_="colour-bar")
+    k = len(PLANNED_SHADES)
+    svg.rects(np.full(k, bx), edges[1:], np.full(k, bx + bw), edges[:-1], list(PLANNED_SHADES), class_="colour-bar")
     svg.path(
         f"M{num(bx)},{num(top)}h{num(bw)}V{num(top + plot_h)}h{num(-bw)}Z",
         fill="none",

@@ -14,7 +14,7 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
-from planner.outputs.figstyle import INK, SITE_STYLES, TEAL, datetimes
+from planner.outputs.figstyle import INK, SITE_STYLES, TEAL, datetimes, timed_rows
 from planner.outputs.svgdraw import PX_PER_PT, Svg, SvgChart, num
 
 #: Within a site's row (0 = its top, 1 = its foot): the window, the plan's blocks and the baseline's.
@@ -43,7 +43,7 @@ def _spans(df: pd.DataFrame | None, sites: Sequence[str]) -> list[tuple[np.ndarr
     empty = np.array([], dtype="datetime64[ns]")
     if df is None or df.empty:
         return [(empty, empty)] * len(sites)
-    d = df[df["start_utc"].notna() & (df["start_utc"].astype(str) != "")]
+    d = timed_rows(df)
     start, end, site = datetimes(d["start_utc"]), datetimes(d["end_utc"]), d["site"].astype(str).to_numpy()
     return [(start[site == str(s)], end[site == str(s)]) for s in sites]
 

@@ -241,7 +241,8 @@ def ecsv_data_lines(qt, float_format: str | None = None, quote_hash: bool = True
             return None
         cells.append(column)
     if quote_hash and cells and plain[plain.colnames[0]].dtype.kind == "U":
-        cells[0] = [f'"{c.replace(chr(34), chr(34) * 2)}"' if c.startswith("#") else c for c in cells[0]]
+        # A cell still starting with "#" was left bare, so it holds no quote, space or line break.
+        cells[0] = [f'"{c}"' if c.startswith("#") else c for c in cells[0]]
     return list(map(" ".join, zip(*cells, strict=True)))
 
 

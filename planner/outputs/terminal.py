@@ -155,7 +155,7 @@ def comparison_text(result: PlanResult) -> str:
         f"the greedy's schedule, at least {MIN_EVALUATIONS}), {ls.accepted} kept in {ls.passes} passes, objective "
         f"+{ls.gain:.4f}; stopped by {ls.stopped_by}"
     )
-    if obj.n_periods_grid is not None and obj.n_periods < obj.n_periods_grid:
+    if obj.n_periods < obj.n_periods_grid:
         out.append(thinned_periods_text(obj.n_periods, obj.n_periods_grid))
     if disc is not None:
         out.append(

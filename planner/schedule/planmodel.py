@@ -65,8 +65,13 @@ class Done:
     intervals_h: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
 
 
-#: A visit's fields in the order :meth:`PlanModel.visit_phasors` takes them.
-VISIT_FIELDS = ("site_night", "start", "length")
+def visit_arrays(visits: list[Visit]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Site-night, start and length of each visit as arrays, the order the vectorised kernels take them."""
+    return (
+        np.array([v.site_night for v in visits]),
+        np.array([v.start for v in visits]),
+        np.array([v.length for v in visits]),
+    )
 
 
 class PlanModel:
@@ -205,11 +210,7 @@ class PlanModel:
         """Σ slot quality over the science slots of visits (visits of one site-night never overlap)."""
         if not visits:
             return 0.0
-        i0, i1 = self.science_flat(
-            np.array([v.site_night for v in visits]),
-            np.array([v.start for v in visits]),
-            np.array([v.length for v in visits]),
-        )
+        i0, i1 = self.science_flat(*visit_arrays(visits))
         return float(np.sum(self._quality_cum[i1] - self._quality_cum[i0]))
 
     def slot_credit(self) -> SlotCredit:
@@ -286,7 +287,7 @@ class PlanModel:
         n = self.done_n
         moments: dict[int, list] = {}
         if visits:  # every visit's window sum in one product (its slot-by-slot twin: visit_phasors_slow)
-            ph, w = self.visit_phasors(*(np.array([getattr(v, k) for v in visits]) for k in VISIT_FIELDS))
+            ph, w = self.visit_phasors(*visit_arrays(visits))
             phasor = phasor + ph.sum(axis=0)
             n += float(w.sum())
         for v in visits:

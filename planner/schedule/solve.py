@@ -96,12 +96,12 @@ class ObjectiveSummary:
     guarantee: str
     search: SearchStats
     n_periods: int
+    #: Trial periods of the whole grid (``n_periods`` of them, evenly thinned, are the optimiser's).
+    n_periods_grid: int
     phase_bins: int
     n_alias_freqs: int
     seconds: dict[str, float]
     exact: ExactComparison | None = None
-    #: Trial periods of the whole grid (``n_periods`` of them, evenly thinned, are the optimiser's).
-    n_periods_grid: int | None = None
     #: The candidate rotation periods separated by the discrimination term (re-planning from a light curve),
     #: and the pairs it separates.
     candidates_h: list[float] | None = None
@@ -124,7 +124,7 @@ class ObjectiveSummary:
             "guarantee": {"ratio": self.guarantee_ratio, "statement": self.guarantee},
             "local_search": dict(self.search.__dict__),
             "n_periods": self.n_periods,
-            "n_periods_grid": self.n_periods if self.n_periods_grid is None else self.n_periods_grid,
+            "n_periods_grid": self.n_periods_grid,
             "phase_bins": self.phase_bins,
             "n_alias_freqs": self.n_alias_freqs,
             "seconds": self.seconds,
